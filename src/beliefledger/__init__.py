@@ -1,0 +1,93 @@
+"""beliefledger: an evidence-updating workbench and audit trail for notebooks.
+
+The public face: everything here is a re-export. Modules load on first use,
+so ``import beliefledger`` costs little more than numpy and pandas, and the
+optional notebook parts (widgets, charts, records) are only imported when
+asked for. A missing optional dependency raises an ImportError that names
+the pip command to install it.
+"""
+
+from __future__ import annotations
+
+import importlib
+from typing import Any
+
+__version__ = "0.1.0"
+
+# public name -> module that defines it
+_EXPORTS: dict[str, str] = {
+    # model
+    "Case": "case", "Hypothesis": "case", "Evidence": "case", "Source": "case",
+    "Scenario": "case", "UNSOURCED": "case", "BASE_SCENARIO": "case",
+    "CaseError": "errors", "CaseTypeError": "errors", "CaseFileError": "errors",
+    # engine and diagnostics
+    "Trace": "engine", "update": "engine",
+    "Finding": "findings", "diagnose": "findings",
+    # measures
+    "odds": "measures", "probability_from_odds": "measures", "log_odds": "measures",
+    "decibans": "measures", "bits": "measures", "nats": "measures",
+    "likelihood_ratio": "measures", "bayes_factor": "measures", "step_weights": "measures",
+    "enfsi_label": "measures", "kass_raftery_label": "measures",
+    "jeffreys_label": "measures", "verbal": "measures", "update_probability": "measures",
+    # case files
+    "load_case": "casefile", "save_case": "casefile",
+    # examples
+    "example_case": "examples",
+    # priors and likelihoods from data
+    "prior_from_counts": "elicit", "probability_from_demands": "elicit",
+    "rate_from_events": "elicit", "likelihood_from_test": "elicit",
+    "likelihood_from_counts": "elicit",
+    # sensitivity and uncertainty
+    "robustness": "sensitivity", "sweep_prior": "sensitivity",
+    "sweep_likelihood": "sensitivity", "break_even_prior": "sensitivity",
+    "tornado": "sensitivity", "simulate": "sensitivity",
+    # value of information and decisions
+    "rank_next_evidence": "value", "evpi": "value", "evsi": "value",
+    "expected_loss": "value", "bayes_action": "value",
+    # batch scoring
+    "score_cases": "batch",
+    # notebook views (optional dependencies)
+    "Workbench": "widgets", "HypothesisEditor": "widgets", "EvidenceEditor": "widgets",
+    "ScenarioPicker": "widgets",
+}
+
+_SUBMODULES = {"charts", "widgets", "record", "engine", "case", "findings", "measures",
+               "casefile", "elicit", "sensitivity", "value", "batch", "display", "examples"}
+
+_INSTALL_HINT = {
+    "ipywidgets": "notebook", "altair": "notebook", "vl_convert": "notebook",
+    "nbformat": "notebook", "nbclient": "notebook", "nbconvert": "notebook",
+    "cryptography": "notebook", "dask": "dask", "distributed": "dask",
+}
+
+__all__ = sorted(_EXPORTS) + ["__version__"]
+
+
+def __getattr__(name: str) -> Any:
+    if name in _EXPORTS:
+        module = _import(_EXPORTS[name])
+        value = getattr(module, name)
+        globals()[name] = value
+        return value
+    if name in _SUBMODULES:
+        module = _import(name)
+        globals()[name] = module
+        return module
+    raise AttributeError(f"module 'beliefledger' has no attribute {name!r}")
+
+
+def _import(module: str):
+    try:
+        return importlib.import_module(f".{module}", __name__)
+    except ModuleNotFoundError as exc:
+        missing = (exc.name or "").split(".")[0]
+        extra = _INSTALL_HINT.get(missing)
+        if extra:
+            raise ImportError(
+                f"beliefledger.{module} needs the optional package '{missing}'; install it with "
+                f"pip install 'beliefledger[{extra}]'") from exc
+        raise
+
+
+def __dir__() -> list[str]:
+    return sorted(set(__all__) | _SUBMODULES)

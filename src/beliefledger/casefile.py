@@ -1,0 +1,367 @@
+"""JSON case files: a versioned envelope, atomic saves, validated loads.
+
+A case file is UTF-8 JSON::
+
+    {"format": "beliefledger-case", "schema_version": 1, "case": {...}}
+
+Loading never evaluates or unpickles anything: it parses JSON (NaN and
+Infinity refused) and rebuilds the case through its own validating
+constructors, so a file can hold nothing a user could not have typed.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import os
+import tempfile
+from collections.abc import Mapping
+from dataclasses import replace
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from .case import (
+    BASE_SCENARIO,
+    Case,
+    Evidence,
+    Scenario,
+    Source,
+    _check_name,
+    _check_probability,
+    _check_text,
+)
+from .errors import CaseError, CaseFileError, CaseTypeError
+
+FORMAT = "beliefledger-case"
+SCHEMA_VERSION = 1
+MAX_FILE_BYTES = 512 * 1024 * 1024
+
+_CASE_KEYS = {"title", "question", "analyst", "notes", "exhaustive", "safety_related",
+              "hypotheses", "evidence", "scenarios", "active_scenario", "assumptions", "extras"}
+_EVIDENCE_KEYS = {"name", "description", "states", "likelihoods", "observed", "observed_only",
+                  "shared_source", "source", "entry_sources"}
+_SCENARIO_KEYS = {"name", "priors", "source", "note"}
+
+
+def envelope(case: Case) -> dict[str, Any]:
+    """The case wrapped in its versioned envelope (what a case file holds)."""
+    return {"format": FORMAT, "schema_version": SCHEMA_VERSION, "case": case.to_dict()}
+
+
+def dumps(case: Case) -> str:
+    """Canonical JSON text of a case file (sorted keys are not used: order is meaningful)."""
+    return json.dumps(envelope(case), indent=1, ensure_ascii=False, allow_nan=False) + "\n"
+
+
+def atomic_write_text(path: str | Path, text: str) -> Path:
+    """Write ``text`` to ``path`` atomically: a temporary file in the same folder,
+    flushed and fsynced, then renamed over the target. A crash at any moment
+    leaves either the old file or the new one, never a half-written file."""
+    target = Path(path)
+    folder = target.parent if str(target.parent) else Path(".")
+    if not folder.is_dir():
+        raise CaseFileError(f"cannot save to {str(target)!r}: folder {str(folder)!r} does not exist")
+    fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=folder)
+    try:
+        with os.fdopen(fd, "w", encoding="utf-8", newline="\n") as fh:
+            fh.write(text)
+            fh.flush()
+            os.fsync(fh.fileno())
+        os.replace(tmp, target)
+    except BaseException:
+        try:
+            os.unlink(tmp)
+        except FileNotFoundError:
+            pass
+        raise
+    try:  # make the rename itself durable
+        dfd = os.open(folder, os.O_RDONLY)
+        try:
+            os.fsync(dfd)
+        finally:
+            os.close(dfd)
+    except OSError:
+        pass
+    return target
+
+
+def save_case(case: Case, path: str | Path) -> Path:
+    """Save ``case`` to ``path`` atomically (JSON, schema version 1)."""
+    return atomic_write_text(path, dumps(case))
+
+
+def _refuse_constant(name: str) -> Any:
+    raise CaseFileError(f"case file holds {name}, which is not a number JSON allows; "
+                        "replace it with a probability between 0 and 1")
+
+
+def loads(text: str | bytes, *, origin: str = "case file") -> Case:
+    """Parse case-file JSON text and rebuild the case (validated)."""
+    if isinstance(text, bytes):
+        try:
+            text = text.decode("utf-8")
+        except UnicodeDecodeError as exc:
+            raise CaseFileError(f"{origin} is not UTF-8 text (byte {exc.start}); "
+                                "save it as UTF-8 JSON") from None
+    try:
+        data = json.loads(text, parse_constant=_refuse_constant)
+    except RecursionError:
+        raise CaseFileError(f"{origin} is nested too deeply to be a case file") from None
+    except json.JSONDecodeError as exc:
+        raise CaseFileError(f"{origin} is not valid JSON: {exc.msg} at line {exc.lineno}, "
+                            f"column {exc.colno}; was it truncated or edited by hand?") from None
+    return from_envelope(data, origin=origin)
+
+
+def from_envelope(data: Any, *, origin: str = "case file") -> Case:
+    if not isinstance(data, Mapping):
+        raise CaseFileError(f"{origin} must hold a JSON object, got {type(data).__name__}")
+    fmt = data.get("format")
+    if fmt != FORMAT:
+        raise CaseFileError(f"{origin} has format {fmt!r}; expected {FORMAT!r} "
+                            "(is this a beliefledger case file?)")
+    ver = data.get("schema_version")
+    if isinstance(ver, bool) or not isinstance(ver, int):
+        raise CaseFileError(f"{origin} has schema_version {ver!r}; expected the integer "
+                            f"{SCHEMA_VERSION}")
+    if ver != SCHEMA_VERSION:
+        hint = ("it was written by a newer beliefledger; upgrade to read it"
+                if ver > SCHEMA_VERSION else "no reader for that version exists")
+        raise CaseFileError(f"{origin} has schema_version {ver}, this beliefledger reads "
+                            f"version {SCHEMA_VERSION}: {hint}")
+    extra = set(data) - {"format", "schema_version", "case"}
+    if extra:
+        raise CaseFileError(f"{origin} has unknown top-level key(s) {sorted(extra)}")
+    if "case" not in data:
+        raise CaseFileError(f"{origin} has no 'case' object")
+    try:
+        return case_from_dict(data["case"])
+    except CaseFileError:
+        raise
+    except (CaseError, CaseTypeError) as exc:
+        raise CaseFileError(f"{origin}: {exc}") from None
+
+
+def load_case(path: str | Path) -> Case:
+    """Load and validate a case file written by :func:`save_case`."""
+    p = Path(path)
+    try:
+        size = p.stat().st_size
+    except FileNotFoundError:
+        raise CaseFileError(f"no case file at {str(p)!r}") from None
+    except OSError as exc:
+        raise CaseFileError(f"cannot read case file {str(p)!r}: {exc.strerror}") from None
+    if p.is_dir():
+        raise CaseFileError(f"{str(p)!r} is a folder, not a case file")
+    if size > MAX_FILE_BYTES:
+        raise CaseFileError(f"case file {str(p)!r} is {size:,} bytes, over the "
+                            f"{MAX_FILE_BYTES:,}-byte limit")
+    return loads(p.read_bytes(), origin=f"case file {str(p)!r}")
+
+
+# --------------------------------------------------------------------------- dict -> case
+
+
+def _req(d: Mapping, key: str, what: str) -> Any:
+    if key not in d:
+        raise CaseFileError(f"{what} is missing the field '{key}'")
+    return d[key]
+
+
+def _obj(value: Any, what: str) -> Mapping:
+    if not isinstance(value, Mapping):
+        raise CaseFileError(f"{what} must be a JSON object, got {type(value).__name__}")
+    return value
+
+
+def _arr(value: Any, what: str) -> list:
+    if not isinstance(value, list):
+        raise CaseFileError(f"{what} must be a JSON array, got {type(value).__name__}")
+    return value
+
+
+def _keys(d: Mapping, allowed: set[str], what: str) -> None:
+    extra = set(d) - allowed
+    if extra:
+        raise CaseFileError(f"{what} has unknown field(s) {sorted(map(str, extra))}; "
+                            f"allowed: {sorted(allowed)}")
+
+
+def _bool(value: Any, what: str) -> bool:
+    if not isinstance(value, bool):
+        raise CaseFileError(f"{what} must be true or false, got {value!r:.40}")
+    return value
+
+
+def case_from_dict(data: Any) -> Case:
+    """Rebuild a case from :meth:`Case.to_dict` output, validating every field.
+
+    Sums that are off 1 (a part-way edit that was saved) are accepted and
+    reported by the trace's findings, so that nothing saved is lost.
+    """
+    d = _obj(data, "case")
+    _keys(d, _CASE_KEYS, "case")
+    hyps = _arr(_req(d, "hypotheses", "case"), "case 'hypotheses'")
+    if not hyps:
+        raise CaseFileError("case 'hypotheses' is empty; a case needs at least one hypothesis")
+    rows = []
+    for i, h in enumerate(hyps):
+        h = _obj(h, f"hypothesis #{i + 1}")
+        _keys(h, {"name", "prior", "description", "source", "catch_all"}, f"hypothesis #{i + 1}")
+        row = dict(h)
+        if "source" in row:
+            row["source"] = Source.coerce(_obj(row["source"], f"source of hypothesis #{i + 1}"),
+                                          what=f"source of hypothesis #{i + 1}")
+        if "catch_all" in row:
+            row["catch_all"] = _bool(row["catch_all"], f"catch_all of hypothesis #{i + 1}")
+        rows.append(row)
+    exhaustive = _bool(d.get("exhaustive", False), "case 'exhaustive'")
+    safety = _bool(d.get("safety_related", False), "case 'safety_related'")
+    # Build with priors as given; tolerate an off sum (recorded by findings, not by us).
+    total = 0.0
+    for i, r in enumerate(rows):
+        _req(r, "prior", f"hypothesis #{i + 1}")
+        total += _check_probability(f"prior of hypothesis {r.get('name')!r:.60}", r["prior"])
+    case = Case(_req(d, "title", "case"), [{**r, "prior": 1.0 / len(rows)} for r in rows],
+                question=d.get("question", ""), analyst=d.get("analyst", ""),
+                notes=d.get("notes", ""), exhaustive=exhaustive, safety_related=safety)
+    # Now set the real priors in one go without the sum check.
+    case._hyps = {n: replace(h, prior=float(r["prior"]))
+                  for (n, h), r in zip(case._hyps.items(), rows, strict=True)}
+    names = tuple(case._hyps)
+
+    for i, e in enumerate(_arr(d.get("evidence", []), "case 'evidence'")):
+        what = f"evidence #{i + 1}"
+        e = _obj(e, what)
+        _keys(e, _EVIDENCE_KEYS, what)
+        name = _check_name("evidence", _req(e, "name", what))
+        what = f"evidence '{name}'"
+        if name in case._evidence:
+            raise CaseFileError(f"evidence '{name}' appears twice; names must be unique")
+        states = _arr(_req(e, "states", what), f"states of {what}")
+        st = tuple(_check_name(f"state of {what}", s) for s in states)
+        if not st:
+            raise CaseFileError(f"{what} has no states")
+        if len(set(st)) != len(st):
+            raise CaseFileError(f"{what} lists a state twice: {list(st)}")
+        lik = _obj(_req(e, "likelihoods", what), f"likelihoods of {what}")
+        missing = [h for h in names if h not in lik]
+        extra = [h for h in lik if h not in names]
+        if missing or extra:
+            raise CaseFileError(f"likelihoods of {what}: missing hypothesis(es) {missing}, "
+                                f"unknown hypothesis(es) {extra}")
+        table = np.empty((len(st), len(names)))
+        for j, h in enumerate(names):
+            col = _arr(lik[h], f"likelihoods of {what} under '{h}'")
+            if len(col) != len(st):
+                raise CaseFileError(f"likelihoods of {what} under '{h}' have {len(col)} values "
+                                    f"for {len(st)} states")
+            for k, v in enumerate(col):
+                table[k, j] = _check_probability(
+                    f"likelihood of state '{st[k]}' of {what} under '{h}'", v)
+        observed = e.get("observed")
+        if observed is not None:
+            if not isinstance(observed, str) or observed not in st:
+                raise CaseFileError(f"observed state {observed!r:.60} of {what} is not among its "
+                                    f"states {list(st)}")
+        observed_only = _bool(e.get("observed_only", False), f"observed_only of {what}")
+        if observed_only and (len(st) != 1 or observed != st[0]):
+            raise CaseFileError(f"{what} is observed_only: it must have one state, the observed one")
+        tag = e.get("shared_source")
+        if tag is not None:
+            tag = _check_name(f"shared-source tag of {what}", tag)
+        src = Source.coerce(_obj(e.get("source", {}), f"source of {what}"),
+                            what=f"source of {what}")
+        entry_sources = {}
+        for k, es in enumerate(_arr(e.get("entry_sources", []), f"entry_sources of {what}")):
+            es = _obj(es, f"entry source #{k + 1} of {what}")
+            _keys(es, {"state", "hypothesis", "source"}, f"entry source #{k + 1} of {what}")
+            s_, h_ = _req(es, "state", what), _req(es, "hypothesis", what)
+            if s_ not in st or h_ not in names:
+                raise CaseFileError(f"entry source #{k + 1} of {what} names state {s_!r:.40} / "
+                                    f"hypothesis {h_!r:.40}, which the item does not have")
+            entry_sources[(s_, h_)] = Source.coerce(_obj(es.get("source", {}), what), what=what)
+        case._evidence[name] = Evidence(
+            name, st, names, table, observed=observed,
+            description=_check_text(f"description of {what}", e.get("description", "")),
+            source=src, shared_source=tag, observed_only=observed_only,
+            entry_sources=entry_sources)
+
+    for i, s in enumerate(_arr(d.get("scenarios", []), "case 'scenarios'")):
+        what = f"scenario #{i + 1}"
+        s = _obj(s, what)
+        _keys(s, _SCENARIO_KEYS, what)
+        nm = _check_name("scenario", _req(s, "name", what))
+        if nm == BASE_SCENARIO or nm in case._scenarios:
+            raise CaseFileError(f"scenario name '{nm}' is reserved or appears twice")
+        pri = _obj(_req(s, "priors", f"scenario '{nm}'"), f"priors of scenario '{nm}'")
+        missing = [h for h in names if h not in pri]
+        extra = [h for h in pri if h not in names]
+        if missing or extra:
+            raise CaseFileError(f"priors of scenario '{nm}': missing {missing}, unknown {extra}")
+        vals = {h: _check_probability(f"prior of '{h}' in scenario '{nm}'", pri[h]) for h in names}
+        if abs(sum(vals.values()) - 1) > 1e-6:
+            raise CaseFileError(f"priors of scenario '{nm}' sum to {sum(vals.values()):.6g}, not 1")
+        case._scenarios[nm] = Scenario(nm, vals, Source.coerce(_obj(s.get("source", {}), what),
+                                                                what=f"source of {what}"),
+                                       _check_text("note", s.get("note", "")))
+    active = d.get("active_scenario", BASE_SCENARIO)
+    if active != BASE_SCENARIO and active not in case._scenarios:
+        raise CaseFileError(f"active_scenario {active!r:.60} is not one of the case's scenarios "
+                            f"{case.scenario_names}")
+    case._active = active
+    assumptions = []
+    for i, a in enumerate(_arr(d.get("assumptions", []), "case 'assumptions'")):
+        a = _obj(a, f"assumption #{i + 1}")
+        _keys(a, {"kind", "target", "detail"}, f"assumption #{i + 1}")
+        assumptions.append({k: _check_text(f"assumption #{i + 1} '{k}'", a.get(k, ""))
+                            for k in ("kind", "target", "detail")})
+    case.assumptions = assumptions
+    extras = _obj(d.get("extras", {}), "case 'extras'")
+    case.extras = {}
+    for key, value in extras.items():
+        case.extras[_check_name("extras key", key)] = validate_extra(key, value, case)
+    case._validate()
+    return case
+
+
+EXTRA_VALIDATORS: dict[str, str] = {}
+"""extras key -> "module:function" validating that section: ``fn(value, case) -> value``
+(JSON-ready, normalised) or raise CaseError naming the field. Modules that keep
+inputs on the case register here (e.g. ``"uncertainty": "beliefledger.sensitivity:validate_uncertainty"``)."""
+
+
+def validate_extra(key: str, value: Any, case: Case) -> Any:
+    """Check one extras section: JSON-ready, finite, and valid for its registered owner."""
+    try:
+        value = json.loads(json.dumps(value, allow_nan=False))
+    except (TypeError, ValueError) as exc:
+        raise CaseError(f"extras section '{key}' is not JSON-ready ({exc}); use plain dicts, "
+                        "lists, strings and finite numbers") from None
+    _check_json_value(value, f"extras section '{key}'", depth=0)
+    target = EXTRA_VALIDATORS.get(key)
+    if target:
+        import importlib
+
+        modname, fn = target.split(":")
+        value = getattr(importlib.import_module(modname), fn)(value, case)
+    return value
+
+
+def _check_json_value(value: Any, what: str, depth: int) -> None:
+    if depth > 32:
+        raise CaseFileError(f"{what} is nested more than 32 levels deep")
+    if isinstance(value, float) and not math.isfinite(value):
+        raise CaseFileError(f"{what} holds a non-finite number")
+    if isinstance(value, Mapping):
+        for k, v in value.items():
+            _check_json_value(v, f"{what}.{k}", depth + 1)
+    elif isinstance(value, list):
+        for k, v in enumerate(value):
+            _check_json_value(v, f"{what}[{k}]", depth + 1)
+
+
+__all__ = ["save_case", "load_case", "loads", "dumps", "envelope", "from_envelope",
+           "case_from_dict", "atomic_write_text", "FORMAT", "SCHEMA_VERSION"]

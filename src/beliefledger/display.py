@@ -1,0 +1,114 @@
+"""Static HTML and text views of cases and traces (escaped; no JavaScript).
+
+These are the fallbacks a notebook shows without live widgets, and the
+building blocks of records. Everything a user typed passes through
+:func:`esc` before it reaches HTML.
+"""
+
+from __future__ import annotations
+
+import html
+import unicodedata
+from typing import TYPE_CHECKING
+
+if TYPE_CHECKING:
+    from .case import Case
+    from .engine import Trace
+
+SEVERITY_MARK = {"error": "ERROR", "warning": "warning", "info": "info"}
+
+
+def esc(text: object) -> str:
+    """HTML-escape text, quotes included, and make control and bidi characters visible."""
+    return html.escape(visible(str(text)), quote=True)
+
+
+def visible(text: str) -> str:
+    """Replace control and bidirectional-override characters by ``\\uXXXX`` so they
+    cannot reorder or hide text on a terminal or a page."""
+    out = []
+    for ch in text:
+        cat = unicodedata.category(ch)
+        if (cat in ("Cc", "Cf") and ch not in "\n\t") or cat in ("Zl", "Zp"):
+            out.append(f"\\u{ord(ch):04x}")
+        else:
+            out.append(ch)
+    return "".join(out)
+
+
+def _table(header: list[str], rows: list[list[object]], cls: str = "bl-table") -> str:
+    head = "".join(f"<th>{esc(h)}</th>" for h in header)
+    body = "".join("<tr>" + "".join(f"<td>{esc(c)}</td>" for c in r) + "</tr>" for r in rows)
+    return f'<table class="{cls}"><thead><tr>{head}</tr></thead><tbody>{body}</tbody></table>'
+
+
+def case_html(case: Case, max_rows: int = 50) -> str:
+    hyps = list(case.hypotheses.values())
+    pri = case.priors
+    rows = [[h.name, f"{pri[h.name]:.4g}", "yes" if h.catch_all else "", str(h.source)]
+            for h in hyps[:max_rows]]
+    more = (f"<p>... and {len(hyps) - max_rows} more hypotheses</p>"
+            if len(hyps) > max_rows else "")
+    evs = list(case.evidence.values())
+    erows = [[e.name, ", ".join(e.states), e.observed if e.observed is not None else "not yet",
+              str(e.source)] for e in evs[:max_rows]]
+    emore = f"<p>... and {len(evs) - max_rows} more items</p>" if len(evs) > max_rows else ""
+    return (
+        f'<div class="bl-case"><h4>{esc(case.title)}</h4>'
+        + (f"<p><b>Question:</b> {esc(case.question)}</p>" if case.question else "")
+        + f"<p>Scenario: {esc(case.active_scenario)}</p>"
+        + _table(["hypothesis", "prior", "catch-all", "source"], rows) + more
+        + _table(["evidence", "states", "observed", "source"], erows) + emore
+        + "</div>"
+    )
+
+
+def findings_html(findings) -> str:
+    if not findings:
+        return '<p class="bl-findings-none">No findings.</p>'
+    items = "".join(
+        f'<li class="bl-finding bl-{esc(f.severity)}"><b>{esc(SEVERITY_MARK[f.severity])}</b> '
+        f"<code>{esc(f.code)}</code> {esc(f.message)}</li>" for f in findings)
+    return f'<ul class="bl-findings">{items}</ul>'
+
+
+def trace_html(trace: Trace, max_cols: int = 30) -> str:
+    cols = trace.hypotheses[:max_cols]
+    header = ["step", *cols]
+    rows = [[s, *[f"{v:.4f}" for v in row[cols]]] for s, row in trace.steps.iterrows()]
+    return (
+        f'<div class="bl-trace"><h4>{esc(trace.title)}: trace under scenario '
+        f"{esc(trace.scenario)}</h4>"
+        + _table(header, rows)
+        + f"<p>MAP: <b>{esc(trace.map_hypothesis)}</b> "
+        f"({trace.posterior[trace.map_hypothesis]:.4f}); maximum likelihood: "
+        f"{esc(trace.ml_hypothesis or 'n/a')}</p>"
+        + findings_html(trace.findings) + "</div>"
+    )
+
+
+def trace_text(trace: Trace, max_cols: int = 12) -> str:
+    """A plain-text trace table and findings for the terminal."""
+    cols = trace.hypotheses[:max_cols]
+    name_w = max([len(visible(s)) for s in trace.step_names] + [4])
+    col_w = [max(len(visible(c)), 8) for c in cols]
+    lines = [f"Case: {visible(trace.title)}   (scenario: {visible(trace.scenario)})", ""]
+    lines.append("step".ljust(name_w) + "  " + "  ".join(visible(c).rjust(w)
+                                                          for c, w in zip(cols, col_w, strict=True)))
+    for step, row in trace.steps.iterrows():
+        lines.append(visible(step).ljust(name_w) + "  " + "  ".join(
+            f"{row[c]:.4f}".rjust(w) for c, w in zip(cols, col_w, strict=True)))
+    if len(trace.hypotheses) > max_cols:
+        lines.append(f"... {len(trace.hypotheses) - max_cols} more hypotheses not shown")
+    lines.append("")
+    lines.append(f"MAP: {visible(trace.map_hypothesis)} "
+                 f"({trace.posterior[trace.map_hypothesis]:.4f})   maximum likelihood: "
+                 f"{visible(trace.ml_hypothesis or 'n/a')}")
+    lines.append("")
+    lines.append(f"Findings ({len(trace.findings)}):")
+    for f in trace.findings:
+        lines.append(f"  [{f.severity}] {f.code}: {visible(f.message)}")
+    return "\n".join(lines)
+
+
+__all__ = ["esc", "visible", "case_html", "trace_html", "trace_text", "findings_html"]

@@ -1,0 +1,19 @@
+"""Exception types. Every error a user can cause is a ``ValueError`` (or
+``TypeError``) subclass whose message names the item, the value and the fix."""
+
+from __future__ import annotations
+
+
+class CaseError(ValueError):
+    """A case, an edit or an analysis input is invalid; the case is unchanged."""
+
+
+class CaseTypeError(TypeError):
+    """An input has the wrong type (e.g. a string where a probability belongs)."""
+
+
+class CaseFileError(CaseError):
+    """A case file cannot be read: bad JSON, wrong schema version, bad field."""
+
+
+__all__ = ["CaseError", "CaseTypeError", "CaseFileError"]

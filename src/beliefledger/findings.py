@@ -1,0 +1,285 @@
+"""Diagnostics on a case and its trace: what a reviewer should look at.
+
+Each :class:`Finding` has a short kebab-case ``code``, a ``severity``
+(``error``, ``warning`` or ``info``), a plain-sentence ``message`` and a
+``where`` naming the item. Valid but doubtful input becomes a finding, not
+an exception. To add a finding: write a ``_check_<name>(case, trace)``
+generator below and add it to ``CHECKS`` (see DEVELOPERS.md).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterator
+from dataclasses import dataclass
+from typing import TYPE_CHECKING
+
+import numpy as np
+
+from ._logmath import log_odds_path
+from .case import BASE_SCENARIO, SUM_TOL
+
+if TYPE_CHECKING:
+    from .case import Case
+    from .engine import Trace
+
+SEVERITIES = ("error", "warning", "info")
+NEAR_CERTAIN = 1e-6
+DOMINANT_SHARE = 0.5
+DECIBANS_PER_NAT = 10 / np.log(10)
+
+
+@dataclass(frozen=True)
+class Finding:
+    """One diagnostic: ``code``, ``severity``, ``message`` and ``where``."""
+
+    code: str
+    severity: str
+    message: str
+    where: str = ""
+
+    def __post_init__(self) -> None:
+        if self.severity not in SEVERITIES:
+            raise ValueError(f"finding severity {self.severity!r} is not one of {SEVERITIES}")
+
+    def to_dict(self) -> dict[str, str]:
+        return {"code": self.code, "severity": self.severity, "message": self.message,
+                "where": self.where}
+
+    def __str__(self) -> str:
+        return f"[{self.severity}] {self.code}: {self.message}"
+
+
+def _names(items: list[str], limit: int = 8) -> str:
+    shown = ", ".join(f"'{x}'" for x in items[:limit])
+    return shown + (f" and {len(items) - limit} more" if len(items) > limit else "")
+
+
+def _check_prior_sum(case: Case, trace: Trace) -> Iterator[Finding]:
+    total = float(trace.priors.sum())
+    if total <= 0:
+        yield Finding("prior-sum", "error",
+                      f"All priors of scenario '{trace.scenario}' are zero, so no posterior can "
+                      "be computed; give the hypotheses positive priors that sum to 1.",
+                      f"scenario '{trace.scenario}'")
+    elif abs(total - 1) > SUM_TOL:
+        yield Finding("prior-sum", "error",
+                      f"The priors of scenario '{trace.scenario}' sum to {total:.6g}, not 1. "
+                      "This trace treats them as relative weights; fix them, or normalise "
+                      "explicitly with case.normalize_priors() (recorded as an assumption).",
+                      f"scenario '{trace.scenario}'")
+
+
+def _check_zero_prior(case: Case, trace: Trace) -> Iterator[Finding]:
+    for h, p in trace.priors.items():
+        if p == 0:
+            yield Finding("zero-prior", "warning",
+                          f"Hypothesis '{h}' has a prior of exactly 0 (scenario "
+                          f"'{trace.scenario}'): this hypothesis can never gain belief, whatever "
+                          "the evidence (Cromwell's rule). Give it a small positive prior unless "
+                          "it is logically impossible.", f"hypothesis '{h}'")
+
+
+def _check_near_certain(case: Case, trace: Trace) -> Iterator[Finding]:
+    total = float(trace.priors.sum()) or 1.0
+    for h, p in (trace.priors / total).items():
+        if 0 < p < NEAR_CERTAIN or (p < 1 and p > 1 - NEAR_CERTAIN):
+            yield Finding("near-certain", "warning",
+                          f"The prior of '{h}' is {p:.3g}, within {NEAR_CERTAIN:g} of "
+                          f"{'0' if p < 0.5 else '1'}: evidence will barely move it. Check that "
+                          "such certainty is justified.", f"hypothesis '{h}'")
+    post = trace.posterior
+    top = [h for h, p in post.items() if 1 - NEAR_CERTAIN < p < 1]
+    if top and len(trace.evidence_steps):
+        yield Finding("near-certain", "info",
+                      f"The posterior of {_names(top)} is within {NEAR_CERTAIN:g} of 1. Such "
+                      "certainty rests on the hypothesis set being complete and the evidence "
+                      "items being independent; check both.", f"hypothesis '{top[0]}'")
+
+
+def _check_column_sums(case: Case, trace: Trace) -> Iterator[Finding]:
+    for ev in case.evidence.values():
+        if ev.observed_only:
+            continue
+        sums = ev.table.sum(axis=0)
+        for h, s in zip(ev.hypotheses, sums, strict=True):
+            if abs(s - 1) > SUM_TOL:
+                yield Finding("column-sum", "error",
+                              f"The likelihoods of evidence '{ev.name}' under hypothesis '{h}' "
+                              f"sum to {s:.6g} over its states, not 1. Each column is a "
+                              "distribution over the states; fix the entries (or declare the "
+                              "item observed-only if only the observed state is known).",
+                              f"evidence '{ev.name}' / hypothesis '{h}'")
+
+
+def _check_impossible(case: Case, trace: Trace) -> Iterator[Finding]:
+    if trace.stopped_at is None:
+        return
+    step = trace.stopped_at
+    live = [h for h, p in trace.posterior.items() if p > 0]
+    members = trace.members.get(step, (step,))
+    states = []
+    for m in members:
+        ev = case.evidence.get(m)
+        if ev is not None and ev.observed is not None:
+            states.append(f"'{ev.observed}'")
+    what = f"the observed state {', '.join(states)} of " if states else ""
+    later = f" Later steps not applied: {_names(trace.skipped[1:])}." if len(trace.skipped) > 1 else ""
+    yield Finding("impossible-evidence", "error",
+                  f"Under every hypothesis still in play ({_names(live)}), {what}evidence "
+                  f"'{step}' has probability 0, so the evidence contradicts the whole model. "
+                  f"The update stops at the step before it.{later} Check the observation, "
+                  "the likelihoods, and whether the catch-all hypothesis is missing.",
+                  f"evidence '{step}'")
+
+
+def _check_eliminated(case: Case, trace: Trace) -> Iterator[Finding]:
+    ls = trace.log_steps
+    for j, h in enumerate(trace.hypotheses):
+        if trace.priors.iloc[j] <= 0 or np.isfinite(ls[-1, j]):
+            continue
+        k = int(np.flatnonzero(~np.isfinite(ls[:, j]))[0])
+        step = trace.step_names[k]
+        yield Finding("eliminated", "warning",
+                      f"Hypothesis '{h}' was eliminated by evidence '{step}': its observed state "
+                      f"has probability 0 under '{h}', so no later evidence can revive it. Keep "
+                      "the 0 only if that observation is logically impossible under this "
+                      "hypothesis; otherwise use a small positive likelihood.",
+                      f"hypothesis '{h}' / evidence '{step}'")
+
+
+def _check_catch_all(case: Case, trace: Trace) -> Iterator[Finding]:
+    if case.exhaustive or any(h.catch_all for h in case.hypotheses.values()):
+        return
+    yield Finding("no-catch-all", "info",
+                  "No hypothesis is marked as a catch-all ('other cause'). Unless the set is "
+                  "provably exhaustive (declare exhaustive=True and say why in the notes), add "
+                  "one so that evidence none of the named causes explains has somewhere to go.",
+                  "hypotheses")
+
+
+def _step_decibans(trace: Trace) -> np.ndarray:
+    """Weight (decibans) of each evidence step for the MAP hypothesis against the rest."""
+    if len(trace.steps) < 2:
+        return np.zeros(0)
+    j = trace.hypotheses.index(trace.map_hypothesis)
+    lo = log_odds_path(trace.log_steps, j)
+    with np.errstate(invalid="ignore"):
+        return np.diff(lo) * DECIBANS_PER_NAT
+
+
+def _check_dominant(case: Case, trace: Trace) -> Iterator[Finding]:
+    w = _step_decibans(trace)
+    if len(w) < 2:
+        return
+    a = np.abs(w)
+    finite = np.isfinite(a)
+    if finite.sum() < 2:
+        return
+    total = a[finite].sum()
+    if total <= 0:
+        return
+    k = int(np.argmax(np.where(finite, a, -1)))
+    share = a[k] / total
+    if share > DOMINANT_SHARE:
+        step = trace.evidence_steps[k]
+        yield Finding("dominant-evidence", "warning",
+                      f"Evidence '{step}' carries {share:.0%} of the total weight of evidence "
+                      f"for the MAP hypothesis '{trace.map_hypothesis}' ({w[k]:+.1f} decibans of "
+                      f"{total:.1f}). The conclusion leans on this one item: check its "
+                      "likelihoods and source with particular care.", f"evidence '{step}'")
+
+
+def _check_unsourced(case: Case, trace: Trace) -> Iterator[Finding]:
+    hyps = [h.name for h in case.hypotheses.values() if not h.source.is_sourced]
+    if hyps and trace.scenario == BASE_SCENARIO:
+        yield Finding("unsourced", "warning",
+                      f"The prior(s) of {_names(hyps)} have no source. Say where each number "
+                      "came from (historical counts, a standard's table, expert judgement), who "
+                      "set it, when and why.", "priors")
+    if trace.scenario != BASE_SCENARIO:
+        sc = case.scenarios.get(trace.scenario)
+        if sc is not None and not sc.source.is_sourced:
+            yield Finding("unsourced", "warning",
+                          f"Scenario '{sc.name}' has no source for its priors; say where they "
+                          "came from.", f"scenario '{sc.name}'")
+    for ev in case.evidence.values():
+        missing = [h for h in ev.hypotheses
+                   if not ev.source.is_sourced
+                   and not all(ev.source_of(s, h).is_sourced for s in ev.states)]
+        if missing:
+            yield Finding("unsourced", "warning",
+                          f"The likelihoods of evidence '{ev.name}' have no source for "
+                          f"{_names(missing)}. Say where the numbers came from.",
+                          f"evidence '{ev.name}'")
+
+
+def _check_shared_source(case: Case, trace: Trace) -> Iterator[Finding]:
+    groups: dict[str, list[str]] = {}
+    applied = set(trace.evidence_steps)
+    for ev in case.evidence.values():
+        if ev.shared_source and ev.observed is not None:
+            groups.setdefault(ev.shared_source, []).append(ev.name)
+    w = _step_decibans(trace)
+    steps = trace.evidence_steps
+    for tag, items in groups.items():
+        if len(items) < 2:
+            continue
+        idx = [steps.index(s) for s in items if s in applied]
+        together = float(np.sum(w[idx])) if idx else 0.0
+        yield Finding("shared-source", "warning",
+                      f"Evidence {_names(items)} share the source tag '{tag}'. If they stem from "
+                      "one underlying fact, the update counts it more than once. Together they "
+                      f"move the log-odds of '{trace.map_hypothesis}' against the rest by "
+                      f"{together:+.1f} decibans. Consider a joint evidence group or a "
+                      "conditional likelihood.", f"shared source '{tag}'")
+
+
+def _check_no_evidence(case: Case, trace: Trace) -> Iterator[Finding]:
+    if not case.observed_evidence:
+        yield Finding("no-evidence", "info",
+                      "No evidence is observed yet: the posterior equals the prior.", "evidence")
+
+
+def _check_map_vs_ml(case: Case, trace: Trace) -> Iterator[Finding]:
+    post = trace.posterior.to_numpy()
+    order = np.argsort(-post, kind="stable")
+    if len(order) > 1 and post[order[0]] > 0 and abs(post[order[0]] - post[order[1]]) <= 1e-12:
+        a, b = trace.hypotheses[order[0]], trace.hypotheses[order[1]]
+        yield Finding("map-tie", "info",
+                      f"'{a}' and '{b}' are tied for the highest posterior "
+                      f"({post[order[0]]:.4g}); the MAP shown is the first listed.",
+                      f"hypothesis '{a}'")
+    if trace.ml_hypothesis and trace.ml_hypothesis != trace.map_hypothesis and not trace.stopped_at:
+        yield Finding("map-differs-from-ml", "info",
+                      f"The MAP hypothesis '{trace.map_hypothesis}' is not the one the evidence "
+                      f"alone favours most ('{trace.ml_hypothesis}'): the priors decide the "
+                      "ranking, so check them with particular care.",
+                      f"hypothesis '{trace.map_hypothesis}'")
+
+
+CHECKS = [
+    _check_prior_sum,
+    _check_impossible,
+    _check_column_sums,
+    _check_zero_prior,
+    _check_eliminated,
+    _check_near_certain,
+    _check_dominant,
+    _check_shared_source,
+    _check_unsourced,
+    _check_catch_all,
+    _check_no_evidence,
+    _check_map_vs_ml,
+]
+
+
+def diagnose(case: Case, trace: Trace) -> list[Finding]:
+    """All findings for ``case`` and its ``trace``, errors first."""
+    out: list[Finding] = []
+    for check in CHECKS:
+        out.extend(check(case, trace))
+    rank = {s: i for i, s in enumerate(SEVERITIES)}
+    return sorted(out, key=lambda f: rank[f.severity])
+
+
+__all__ = ["Finding", "diagnose", "CHECKS", "SEVERITIES"]
