@@ -327,7 +327,10 @@ def case_from_dict(data: Any) -> Case:
     return case
 
 
-EXTRA_VALIDATORS: dict[str, str] = {}
+EXTRA_VALIDATORS: dict[str, str] = {
+    "uncertainty": "beliefledger.sensitivity:validate_uncertainty",
+    "decision": "beliefledger.value:validate_decision",
+}
 """extras key -> "module:function" validating that section: ``fn(value, case) -> value``
 (JSON-ready, normalised) or raise CaseError naming the field. Modules that keep
 inputs on the case register here (e.g. ``"uncertainty": "beliefledger.sensitivity:validate_uncertainty"``)."""
