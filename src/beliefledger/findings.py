@@ -101,14 +101,14 @@ def _check_column_sums(case: Case, trace: Trace) -> Iterator[Finding]:
         if ev.observed_only:
             continue
         sums = ev.table.sum(axis=0)
-        for h, s in zip(ev.hypotheses, sums, strict=True):
-            if abs(s - 1) > SUM_TOL:
-                yield Finding("column-sum", "error",
-                              f"The likelihoods of evidence '{ev.name}' under hypothesis '{h}' "
-                              f"sum to {s:.6g} over its states, not 1. Each column is a "
-                              "distribution over the states; fix the entries (or declare the "
-                              "item observed-only if only the observed state is known).",
-                              f"evidence '{ev.name}' / hypothesis '{h}'")
+        for j in np.flatnonzero(np.abs(sums - 1) > SUM_TOL):
+            h, s = ev.hypotheses[j], sums[j]
+            yield Finding("column-sum", "error",
+                          f"The likelihoods of evidence '{ev.name}' under hypothesis '{h}' "
+                          f"sum to {s:.6g} over its states, not 1. Each column is a "
+                          "distribution over the states; fix the entries (or declare the "
+                          "item observed-only if only the observed state is known).",
+                          f"evidence '{ev.name}' / hypothesis '{h}'")
 
 
 def _check_impossible(case: Case, trace: Trace) -> Iterator[Finding]:
@@ -202,15 +202,26 @@ def _check_unsourced(case: Case, trace: Trace) -> Iterator[Finding]:
             yield Finding("unsourced", "warning",
                           f"Scenario '{sc.name}' has no source for its priors; say where they "
                           "came from.", f"scenario '{sc.name}'")
+    bare: list[str] = []
     for ev in case.evidence.values():
+        if ev.source.is_sourced:
+            continue
+        if not ev.entry_sources:
+            bare.append(ev.name)
+            continue
         missing = [h for h in ev.hypotheses
-                   if not ev.source.is_sourced
-                   and not all(ev.source_of(s, h).is_sourced for s in ev.states)]
+                   if not all(ev.source_of(s, h).is_sourced for s in ev.states)]
         if missing:
             yield Finding("unsourced", "warning",
                           f"The likelihoods of evidence '{ev.name}' have no source for "
                           f"{_names(missing)}. Say where the numbers came from.",
                           f"evidence '{ev.name}'")
+    if bare:
+        yield Finding("unsourced", "warning",
+                      f"The likelihoods of evidence {_names(bare)} have no source. Say where "
+                      "the numbers came from (a data sheet, test records, expert judgement), "
+                      "who set them, when and why.",
+                      f"evidence '{bare[0]}'" if len(bare) == 1 else "evidence")
 
 
 def _check_shared_source(case: Case, trace: Trace) -> Iterator[Finding]:
