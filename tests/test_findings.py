@@ -1,0 +1,118 @@
+"""Each finding fires when it should, says what a reviewer needs, and stays quiet otherwise."""
+
+from __future__ import annotations
+
+import pytest
+
+import beliefledger as bl
+from beliefledger.findings import Finding
+
+
+def codes(case):
+    return [f.code for f in case.update().findings]
+
+
+def sourced_case(**kw):
+    case = bl.Case("c", {"A": {"prior": 0.5, "source": "log"},
+                         "B": {"prior": 0.3, "source": "log"},
+                         "Other": {"prior": 0.2, "source": "judgement"}}, **kw)
+    return case
+
+
+def test_demo_case_has_only_the_shared_source_warning(demo_case):
+    trace = demo_case.update()
+    assert [(f.code, f.severity) for f in trace.findings] == [("shared-source", "warning")]
+    msg = trace.findings[0].message
+    assert "'detector alarm order'" in msg and "'night operator's account'" in msg
+    assert "decibans" in msg
+
+
+def test_zero_prior_message_names_cromwell():
+    case = sourced_case()
+    case.set_priors({"A": 0.0, "B": 0.8, "Other": 0.2})
+    (f,) = [f for f in case.update().findings if f.code == "zero-prior"]
+    assert f.severity == "warning"
+    assert "can never gain belief" in f.message and "Cromwell" in f.message
+    assert f.where == "hypothesis 'A'"
+
+
+def test_column_sum_after_a_cell_edit():
+    case = sourced_case()
+    case.add_evidence("E", states=["x", "y"], source="bench",
+                      likelihoods={"A": [0.5, 0.5], "B": [0.5, 0.5], "Other": [0.5, 0.5]},
+                      observed="x")
+    case.set_likelihood("E", "B", 0.7, state="x")
+    (f,) = [f for f in case.update().findings if f.code == "column-sum"]
+    assert f.severity == "error" and "'E'" in f.message and "'B'" in f.message
+    assert "1.2" in f.message
+
+
+def test_no_catch_all_is_info_and_silenced_by_exhaustive():
+    case = bl.Case("c", {"A": {"prior": 0.5, "source": "x"}, "B": {"prior": 0.5, "source": "x"}})
+    (f,) = [f for f in case.update().findings if f.code == "no-catch-all"]
+    assert f.severity == "info"
+    case.set_details(exhaustive=True)
+    assert "no-catch-all" not in codes(case)
+
+
+def test_near_certain_prior():
+    case = bl.Case("c", {"A": 1e-8, "Other": 1 - 1e-8})
+    found = [f for f in case.update().findings if f.code == "near-certain"]
+    assert {f.where for f in found} == {"hypothesis 'A'", "hypothesis 'Other'"}
+
+
+def test_unsourced_numbers_are_listed():
+    case = bl.Case("c", {"A": 0.5, "Other": 0.5})
+    case.add_evidence("E", states=["x", "y"], likelihoods={"A": [0.9, 0.1], "Other": [0.5, 0.5]},
+                      observed="x")
+    msgs = [f.message for f in case.update().findings if f.code == "unsourced"]
+    assert any("prior(s) of 'A', 'Other'" in m for m in msgs)
+    assert any("evidence 'E'" in m for m in msgs)
+
+
+def test_dominant_evidence():
+    case = sourced_case()
+    case.add_evidence("weak", states=["x", "y"], source="s",
+                      likelihoods={"A": [0.55, 0.45], "B": [0.5, 0.5], "Other": [0.5, 0.5]},
+                      observed="x")
+    case.add_evidence("strong", states=["x", "y"], source="s",
+                      likelihoods={"A": [0.99, 0.01], "B": [0.05, 0.95], "Other": [0.1, 0.9]},
+                      observed="x")
+    (f,) = [f for f in case.update().findings if f.code == "dominant-evidence"]
+    assert "'strong'" in f.message and "%" in f.message
+
+
+def test_shared_source_needs_two_observed_items():
+    case = sourced_case()
+    for name in ("alarm A", "alarm B"):
+        case.add_evidence(name, states=["on", "off"], source="s", shared_source="bus 3",
+                          likelihoods={"A": [0.9, 0.1], "B": [0.4, 0.6], "Other": [0.5, 0.5]})
+    case.observe("alarm A", "on")
+    assert "shared-source" not in codes(case)
+    case.observe("alarm B", "on")
+    (f,) = [f for f in case.update().findings if f.code == "shared-source"]
+    assert "'bus 3'" in f.message and f.where == "shared source 'bus 3'"
+
+
+def test_errors_come_first_and_findings_serialise():
+    case = sourced_case()
+    case.set_prior("A", 0.9)
+    trace = case.update()
+    assert trace.findings[0].severity == "error"
+    frame = trace.findings_frame()
+    assert list(frame.columns) == ["code", "severity", "message", "where"]
+    assert str(trace.findings[0]).startswith("[error] prior-sum:")
+
+
+def test_finding_rejects_unknown_severity():
+    with pytest.raises(ValueError, match="severity 'fatal'"):
+        Finding("x", "fatal", "m")
+
+
+def test_all_zero_priors_give_an_error_not_nan():
+    case = sourced_case()
+    for h in case.hypothesis_names:
+        case.set_prior(h, 0.0)
+    trace = case.update()
+    assert not trace.posterior.isna().any()
+    assert trace.findings[0].code == "prior-sum" and "All priors" in trace.findings[0].message
