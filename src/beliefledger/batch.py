@@ -1,0 +1,401 @@
+"""Batch scoring: one audited evidence model applied to many cases at once.
+
+:func:`score_cases` takes a model :class:`~beliefledger.case.Case` (its
+hypotheses, the priors of its active scenario and the likelihood table of
+each evidence item) and a table of observations, one row per case and one
+column per evidence item, and returns the posterior of every row. The work is
+vectorised over rows and done in chunks of rows, so memory stays bounded
+however many rows there are: per evidence item, the natural-log likelihood
+rows are gathered by observed-state index and added up; each chunk is then
+normalised with a log-sum-exp. A Dask DataFrame is scored partition by
+partition (``map_partitions``) and gives a Dask DataFrame back.
+
+The result equals :func:`beliefledger.engine.update` run on each row alone
+(the tests check this on a seeded random sample), including the two edge
+cases the engine defines:
+
+- an observed state with likelihood exactly 0 under a hypothesis eliminates
+  it (posterior exactly 0, counted in ``eliminated``);
+- a row whose evidence is impossible under every hypothesis still in play is
+  flagged ``impossible``; as in the engine, its update stops before the first
+  impossible item (named in ``stopped_at``) and its posterior is the one just
+  before that item, never NaN.
+
+Only numpy and pandas are imported here; dask is imported only when a Dask
+DataFrame is passed (``pip install 'beliefledger[dask]'``).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import dataclass
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+import pandas as pd
+
+from ._logmath import log_normalizer, log_of
+from .case import SUM_TOL
+from .errors import CaseError, CaseTypeError
+
+if TYPE_CHECKING:
+    from .case import Case
+
+RESULT_COLUMNS = ("map", "n_observed", "eliminated", "impossible", "stopped_at",
+                  "log_evidence")
+"""Columns of a :func:`score_cases` result after the posterior columns."""
+
+UNKNOWN_COLUMN = "n_unknown"
+"""Extra result column with ``on_unknown="skip"``: unknown labels skipped per row."""
+
+_CHUNK_BYTES = 4 * 2**20  # size of one chunk's (rows x hypotheses) float64 accumulator
+
+
+@dataclass(frozen=True)
+class _Model:
+    """A case reduced to plain arrays: picklable, cheap to ship to Dask workers."""
+
+    hypotheses: tuple[str, ...]
+    items: tuple[str, ...]
+    states: tuple[tuple[str, ...], ...]
+    # per item: ln P(state | H), (states + 2) x hypotheses; the last two rows are
+    # zeros (row n_states: not observed, row n_states + 1: skipped unknown label)
+    log_tables: tuple[np.ndarray, ...]
+    log_prior: np.ndarray
+    positive_prior: np.ndarray
+    log_prior_total: float  # ln sum(prior) after rounding (about 0); log_evidence subtracts it
+    scenario: str
+
+
+def compile_model(case: Case) -> _Model:
+    """Check ``case`` as a batch model and reduce it to arrays (see :func:`score_cases`)."""
+    from .case import Case
+
+    if not isinstance(case, Case):
+        raise CaseTypeError(f"score_cases needs a beliefledger Case as the model, got "
+                            f"{type(case).__name__}")
+    hyps = tuple(case.hypothesis_names)
+    p = case.priors.to_numpy(dtype=float)
+    total = float(p.sum())
+    if abs(total - 1) > SUM_TOL:
+        raise CaseError(f"the priors of scenario '{case.active_scenario}' sum to {total:.6g}, "
+                        "not 1; a batch model must be coherent: fix the priors (or call "
+                        "case.normalize_priors(), recorded as an assumption) before scoring")
+    items, states, tables = [], [], []
+    for ev in case.evidence.values():
+        t = ev.table
+        if not ev.observed_only:
+            sums = t.sum(axis=0)
+            bad = np.flatnonzero(np.abs(sums - 1) > SUM_TOL)
+            if bad.size:
+                j = int(bad[0])
+                raise CaseError(f"likelihoods of evidence '{ev.name}' for hypothesis "
+                                f"'{hyps[j]}' sum to {sums[j]:.6g} over its states, not 1; fix "
+                                "the column before scoring cases with this model")
+        lt = np.zeros((len(ev.states) + 2, len(hyps)))
+        lt[: len(ev.states)] = log_of(t)
+        lt.setflags(write=False)
+        items.append(ev.name)
+        states.append(tuple(ev.states))
+        tables.append(lt)
+    log_prior = log_of(p / total)
+    log_prior.setflags(write=False)
+    positive = p > 0
+    positive.setflags(write=False)
+    return _Model(hyps, tuple(items), tuple(states), tuple(tables), log_prior, positive,
+                  float(log_normalizer(log_prior)), case.active_scenario)
+
+
+def score_cases(case: Case, observations: Any, *, chunk_size: int | None = None,
+                on_unknown: str = "raise", prefix: str = "") -> Any:
+    """Posterior of every case in a table of observations, under one model case.
+
+    Parameters
+    ----------
+    case : Case
+        The model: its hypotheses, the priors of its active scenario and the
+        likelihood table of each evidence item. The states the model case
+        itself has observed are ignored; each row brings its own. The priors
+        must sum to 1 and each likelihood column to 1 (observed-only items
+        excepted), else a :class:`~beliefledger.errors.CaseError` is raised.
+    observations : pandas.DataFrame or dask.dataframe.DataFrame
+        One row per case, one column per evidence item of the model (a
+        subset is fine: a missing column means not observed in any row).
+        Values are state labels of that item; missing values (NaN, None,
+        ``pd.NA``) mean not observed. Categorical columns are fastest.
+    chunk_size : int, optional
+        Rows scored at a time (default: about 4 MB of float64 per chunk).
+        Results do not depend on it.
+    on_unknown : {"raise", "skip"}
+        A label that is not a state of its item raises a ``CaseError`` naming
+        the row, the column and the value (default). With ``"skip"`` such
+        labels are treated as not observed and counted per row in an extra
+        ``n_unknown`` column, so none is dropped silently.
+    prefix : str
+        Prefix for the posterior column names (use one, e.g. ``"p_"``, when a
+        hypothesis is named like a result column).
+
+    Returns
+    -------
+    pandas.DataFrame or dask.dataframe.DataFrame
+        Same index as ``observations``. One float column per hypothesis (the
+        posterior; rows sum to 1), then:
+
+        ``map``
+            The MAP hypothesis (categorical; the first of tied maxima, as in
+            the engine).
+        ``n_observed``
+            How many evidence items the row observed.
+        ``eliminated``
+            How many hypotheses with a positive prior the row's evidence
+            rules out (an observed state with likelihood exactly 0).
+        ``impossible``
+            True when the row's evidence is impossible under every hypothesis
+            still in play. Like :meth:`Case.update`, the update then stops
+            before that item: the posterior is the one just before it.
+        ``stopped_at``
+            The impossible item (categorical; missing when not stopped).
+        ``log_evidence``
+            ln P(the applied evidence) under the priors (the log marginal
+            likelihood; ``Trace.log_evidence``).
+
+    Raises
+    ------
+    CaseTypeError
+        ``observations`` is not a DataFrame, or ``case`` is not a Case.
+    CaseError
+        An empty frame, a column that is not an evidence item of the model,
+        an unknown state label (with ``on_unknown="raise"``), an incoherent
+        model, or evidence that depends on other evidence.
+
+    Examples
+    --------
+    >>> import pandas as pd
+    >>> import beliefledger as bl
+    >>> model = bl.Case("Pump trip", hypotheses={"bearing": 0.3, "Other": 0.7})
+    >>> _ = model.add_evidence("vibration", states=["high", "normal"],
+    ...                        likelihoods={"bearing": [0.8, 0.2], "Other": [0.1, 0.9]})
+    >>> rows = pd.DataFrame({"vibration": ["high", "normal", None]})
+    >>> bl.score_cases(model, rows).round(4)[["bearing", "Other", "map"]]
+       bearing   Other      map
+    0   0.7742  0.2258  bearing
+    1   0.0870  0.9130    Other
+    2   0.3000  0.7000    Other
+    """
+    if on_unknown not in ("raise", "skip"):
+        raise CaseError(f"on_unknown is {on_unknown!r}; use 'raise' or 'skip'")
+    if chunk_size is not None:
+        if isinstance(chunk_size, bool) or not isinstance(chunk_size, int | np.integer):
+            raise CaseTypeError(f"chunk_size must be a whole number of rows, got "
+                                f"{type(chunk_size).__name__} {chunk_size!r}")
+        if chunk_size < 1:
+            raise CaseError(f"chunk_size is {chunk_size}; give a positive number of rows")
+    if not isinstance(prefix, str):
+        raise CaseTypeError(f"prefix must be a string, got {type(prefix).__name__}")
+    is_dask = _is_dask_frame(observations)
+    if not is_dask and not isinstance(observations, pd.DataFrame):
+        raise CaseTypeError(
+            f"observations must be a pandas DataFrame (one row per case, one column per "
+            f"evidence item) or a Dask DataFrame, got {type(observations).__name__}; build "
+            "one with pandas.DataFrame(...)")
+    model = compile_model(case)
+    columns = _check_columns(model, observations.columns)
+    names = _output_names(model, prefix, on_unknown)
+    if is_dask:
+        meta = _score_frame(model, observations._meta, columns, names, chunk_size, on_unknown)
+        return observations.map_partitions(_score_frame, model, columns=columns, names=names,
+                                           chunk_size=chunk_size, on_unknown=on_unknown,
+                                           meta=meta, align_dataframes=False)
+    if len(observations) == 0:
+        raise CaseError("observations has no rows; give one row per case to score")
+    return _score_frame(model, observations, columns, names, chunk_size, on_unknown)
+
+
+# --------------------------------------------------------------------------- checks
+
+
+def _is_dask_frame(obj: Any) -> bool:
+    mod = type(obj).__module__ or ""
+    return mod.split(".")[0] in ("dask", "dask_expr") and hasattr(obj, "map_partitions") \
+        and hasattr(obj, "columns")
+
+
+def _check_columns(model: _Model, columns: Sequence[Any]) -> tuple[tuple[int, Any], ...]:
+    """(item position, column label) for each column, in the model's evidence order."""
+    cols = list(columns)
+    if not cols:
+        raise CaseError("observations has no columns; give one column per evidence item, "
+                        f"named after the items {_short(model.items)}")
+    pos = {name: i for i, name in enumerate(model.items)}
+    seen: dict[Any, int] = {}
+    out = []
+    for c in cols:
+        if c in seen:
+            raise CaseError(f"observations has column {c!r} twice; give each evidence item "
+                            "one column")
+        seen[c] = 1
+        if not isinstance(c, str) or c not in pos:
+            hint = ""
+            if isinstance(c, str):
+                near = [n for n in model.items if n.strip().lower() == c.strip().lower()]
+                if near:
+                    hint = f" (did you mean {near[0]!r}?)"
+            raise CaseError(f"column {c!r} of observations is not an evidence item of the model"
+                            f"{hint}; the items are {_short(model.items)}; rename or drop the "
+                            "column (keep case identifiers in the index)")
+        out.append((pos[c], c))
+    return tuple(sorted(out, key=lambda t: t[0]))
+
+
+def _output_names(model: _Model, prefix: str, on_unknown: str) -> tuple[str, ...]:
+    extra = (*RESULT_COLUMNS, UNKNOWN_COLUMN) if on_unknown == "skip" else RESULT_COLUMNS
+    post = tuple(f"{prefix}{h}" for h in model.hypotheses)
+    clash = [c for c in post if c in extra]
+    if clash:
+        raise CaseError(f"hypothesis column {clash[0]!r} would collide with a result column "
+                        f"{list(extra)}; pass prefix='p_' (or another) to score_cases")
+    return post + extra
+
+
+def _short(names: Sequence[str], limit: int = 10) -> str:
+    names = list(names)
+    if len(names) <= limit:
+        return str(names)
+    return str(names[:limit])[:-1] + f", ... ({len(names)} in all)]"
+
+
+# --------------------------------------------------------------------------- labels -> codes
+
+
+class _Coder:
+    """Turns one column of state labels into row codes: the state index, ``n_states``
+    for not observed, ``n_states + 1`` for an unknown label."""
+
+    def __init__(self, states: tuple[str, ...], column: pd.Series) -> None:
+        self.n = len(states)
+        self.index = pd.Index(states, dtype=object)
+        self.codes = None
+        if isinstance(column.dtype, pd.CategoricalDtype):
+            cats = column.cat.categories
+            lut = self.index.get_indexer(cats) if len(cats) else np.empty(0, dtype=np.intp)
+            lut = np.where(lut < 0, self.n + 1, lut)
+            # codes == -1 (missing) picks the last entry: not observed
+            self.lut = np.append(lut, self.n).astype(np.int16 if self.n < 32000 else np.int64)
+            self.codes = column.cat.codes.to_numpy()
+
+    def __call__(self, column: pd.Series, a: int, b: int) -> np.ndarray:
+        if self.codes is not None:
+            return self.lut[self.codes[a:b]]
+        values = column.iloc[a:b]
+        idx = self.index.get_indexer(values.to_numpy(dtype=object, na_value=None))
+        missing = pd.isna(values).to_numpy()
+        out = np.where(idx < 0, self.n + 1, idx)
+        out[missing] = self.n
+        return out
+
+
+def _unknown_error(model: _Model, k: int, col: Any, frame: pd.DataFrame, where: int) -> CaseError:
+    value = frame[col].iloc[where]
+    label = frame.index[where]
+    value = value.item() if isinstance(value, np.generic) else value
+    label = label.item() if isinstance(label, np.generic) else label
+    states = list(model.states[k])
+    hint = ""
+    if not isinstance(value, str) and str(value) in states:
+        hint = f" (the column holds {frame[col].dtype} values: convert it with .astype(str))"
+    return CaseError(f"row {label!r}, column {col!r}: {value!r} is not a state of evidence "
+                     f"'{model.items[k]}'{hint}; its states are {states}; fix the label, leave "
+                     "it empty for not observed, or pass on_unknown='skip' to count and skip "
+                     "unknown labels")
+
+
+# --------------------------------------------------------------------------- scoring
+
+
+def _default_chunk(n_hyps: int) -> int:
+    return int(min(max(_CHUNK_BYTES // (8 * max(n_hyps, 1)), 1024), 1 << 20))
+
+
+def _score_frame(model: _Model, frame: pd.DataFrame, columns: tuple[tuple[int, Any], ...],
+                 names: tuple[str, ...], chunk_size: int | None,
+                 on_unknown: str) -> pd.DataFrame:
+    """Score one pandas frame (a whole input or one Dask partition; may be empty)."""
+    n, h = len(frame), len(model.hypotheses)
+    chunk = chunk_size or _default_chunk(h)
+    post = np.empty((n, h))
+    map_idx = np.empty(n, dtype=np.int32)
+    n_obs = np.zeros(n, dtype=np.int32)
+    n_unk = np.zeros(n, dtype=np.int32)
+    elim = np.empty(n, dtype=np.int32)
+    stop = np.full(n, -1, dtype=np.int32)
+    log_ev = np.empty(n)
+    series = [(k, col, frame[col]) for k, col in columns]
+    coders = [_Coder(model.states[k], s) for k, _, s in series]
+    acc = np.empty((min(chunk, n), h))
+    tmp = np.empty_like(acc)
+    for a in range(0, n, chunk):
+        b = min(a + chunk, n)
+        m = b - a
+        w, t = acc[:m], tmp[:m]
+        w[:] = model.log_prior
+        codes = []
+        for (k, col, s), coder in zip(series, coders, strict=True):
+            c = coder(s, a, b)
+            ns = len(model.states[k])
+            unknown = c == ns + 1
+            if unknown.any():
+                if on_unknown == "raise":
+                    raise _unknown_error(model, k, col, frame, a + int(np.argmax(unknown)))
+                n_unk[a:b] += unknown
+            n_obs[a:b] += c < ns
+            np.take(model.log_tables[k], c, axis=0, out=t)
+            w += t  # -inf (a zero likelihood) stays -inf; no +inf occurs, so no NaN
+            codes.append(c)
+        z = log_normalizer(w, axis=1)
+        bad = ~np.isfinite(z)
+        if bad.any():
+            rows = np.flatnonzero(bad)
+            w[rows], z[rows], stop[a + rows] = _stop_early(model, series, codes, rows)
+        out = post[a:b]
+        np.subtract(w, z[:, None], out=out)
+        np.exp(out, out=out)
+        map_idx[a:b] = np.argmax(out, axis=1)
+        elim[a:b] = np.count_nonzero(np.isneginf(w) & model.positive_prior, axis=1)
+        log_ev[a:b] = z - model.log_prior_total
+    cols: dict[str, Any] = {}
+    hyp_names = names[:h]
+    for j, name in enumerate(hyp_names):
+        cols[name] = post[:, j]
+    cols["map"] = pd.Categorical.from_codes(map_idx, categories=list(model.hypotheses))
+    cols["n_observed"] = n_obs
+    cols["eliminated"] = elim
+    cols["impossible"] = stop >= 0
+    cols["stopped_at"] = pd.Categorical.from_codes(stop, categories=list(model.items))
+    cols["log_evidence"] = log_ev
+    if on_unknown == "skip":
+        cols[UNKNOWN_COLUMN] = n_unk
+    out = pd.DataFrame(cols, index=frame.index, copy=False)
+    return out
+
+
+def _stop_early(model: _Model, series: list, codes: list[np.ndarray],
+                rows: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Replay the rows whose evidence is impossible as a whole, item by item in the
+    model's order, and stop each before its first impossible item (as the engine does).
+
+    Returns the log weights at the stop, their log normaliser and the item index.
+    Vectorised over the rows; the loop runs over evidence items.
+    """
+    w = np.broadcast_to(model.log_prior, (len(rows), len(model.log_prior))).copy()
+    stop = np.full(len(rows), -1, dtype=np.int32)
+    live = np.ones(len(rows), dtype=bool)
+    for (k, _, _), c in zip(series, codes, strict=True):
+        nxt = w + model.log_tables[k][c[rows]]
+        dead = live & ~np.isfinite(log_normalizer(nxt, axis=1))
+        stop[dead] = k
+        live &= ~dead
+        w[live] = nxt[live]
+    return w, log_normalizer(w, axis=1), stop
+
+
+__all__ = ["score_cases", "compile_model", "RESULT_COLUMNS", "UNKNOWN_COLUMN"]
