@@ -220,7 +220,8 @@ class Evidence:
 
     __slots__ = (
         "name", "states", "hypotheses", "_table", "observed", "description",
-        "source", "shared_source", "observed_only", "entry_sources",
+        "source", "shared_source", "observed_only", "entry_sources", "given",
+        "parent_states", "_conditional",
     )
 
     def __init__(
@@ -235,6 +236,9 @@ class Evidence:
         shared_source: str | None = None,
         observed_only: bool = False,
         entry_sources: Mapping[tuple[str, str], Source] | None = None,
+        given: str | None = None,
+        parent_states: tuple[str, ...] = (),
+        conditional: np.ndarray | None = None,
     ) -> None:
         self.name = name
         self.states = tuple(states)
@@ -248,6 +252,15 @@ class Evidence:
         self.shared_source = shared_source
         self.observed_only = observed_only
         self.entry_sources = dict(entry_sources or {})
+        # A conditional item: P(state | parent state, H) as a read-only array
+        # (parent states x states x hypotheses); ``table`` is then the item's
+        # marginal P(state | H), derived by the case from the parent's table.
+        self.given = given
+        self.parent_states = tuple(parent_states)
+        if conditional is not None:
+            conditional = np.array(conditional, dtype=float)
+            conditional.setflags(write=False)
+        self._conditional = conditional
 
     # read-only views -----------------------------------------------------
     @property
@@ -263,6 +276,29 @@ class Evidence:
     def table(self) -> np.ndarray:
         """The likelihood table as a read-only array (states x hypotheses)."""
         return self._table
+
+    @property
+    def is_conditional(self) -> bool:
+        """True when the item's likelihood is stated given the state of an earlier item."""
+        return self.given is not None
+
+    @property
+    def conditional(self) -> np.ndarray | None:
+        """P(state | parent state, H) as a read-only array (parent states x states x
+        hypotheses), or ``None`` for an item stated without a parent."""
+        return self._conditional
+
+    @property
+    def conditional_likelihoods(self) -> pd.DataFrame | None:
+        """P(state | parent state, hypothesis): rows (parent state, state), columns the
+        hypotheses (a copy); ``None`` unless the item is conditional."""
+        if self._conditional is None:
+            return None
+        n_p, n_s, n_h = self._conditional.shape
+        idx = pd.MultiIndex.from_product([self.parent_states, self.states],
+                                         names=[f"{self.given} state", "state"])
+        return pd.DataFrame(np.array(self._conditional).reshape(n_p * n_s, n_h), index=idx,
+                            columns=pd.Index(self.hypotheses, name="hypothesis"))
 
     def likelihood_of(self, state: str) -> pd.Series:
         i = self._state_index(state)
@@ -288,13 +324,14 @@ class Evidence:
             ) from None
 
     def _replace(self, **changes: Any) -> Evidence:
-        kw = {k: getattr(self, k) for k in self.__slots__ if k != "_table"}
+        kw = {k: getattr(self, k) for k in self.__slots__ if k not in ("_table", "_conditional")}
         kw["table"] = changes.pop("table", self._table)
+        kw["conditional"] = changes.pop("conditional", self._conditional)
         kw.update(changes)
         return Evidence(**kw)
 
     def to_dict(self) -> dict[str, Any]:
-        return {
+        out = {
             "name": self.name,
             "description": self.description,
             "states": list(self.states),
@@ -310,11 +347,108 @@ class Evidence:
                 for (s, h), src in self.entry_sources.items()
             ],
         }
+        if self.given is not None:  # only conditional items carry these keys
+            out["given"] = self.given
+            out["conditional_likelihoods"] = {
+                ps: {h: [float(v) for v in self._conditional[i, :, j]]
+                     for j, h in enumerate(self.hypotheses)}
+                for i, ps in enumerate(self.parent_states)
+            }
+        return out
 
     def __repr__(self) -> str:
         obs = f"observed {self.observed!r}" if self.observed is not None else "not yet observed"
         kind = "likelihood vector" if self.observed_only else f"{len(self.states)} states"
-        return f"Evidence({self.name!r}: {kind}, {obs})"
+        given = f", given {self.given!r}" if self.given is not None else ""
+        return f"Evidence({self.name!r}: {kind}{given}, {obs})"
+
+
+class JointGroup:
+    """Evidence items whose combined states share one joint likelihood table per
+    hypothesis, so that their dependence within each hypothesis is modelled
+    instead of assumed away.
+
+    Two forms:
+
+    * **covariance form** (two items of two states each): P(first state of A,
+      first state of B | H) = P(a1 | H)·P(b1 | H) + cov_H, and the other three
+      cells follow so that both items keep their own tables as margins. A
+      covariance of 0 is conditional independence.
+    * **table form** (two or more items of any states): the joint table is given
+      whole; its margins must equal the items' own tables.
+
+    Combined states are ordered row-major over the members (the last member's
+    state varies fastest). Instances are immutable; the case replaces them.
+    """
+
+    __slots__ = ("name", "members", "hypotheses", "_covariance", "_joint", "source", "note")
+
+    def __init__(self, name: str, members: tuple[str, ...], hypotheses: tuple[str, ...], *,
+                 covariance: np.ndarray | None = None, joint: np.ndarray | None = None,
+                 source: Source = UNSOURCED, note: str = "") -> None:
+        if (covariance is None) == (joint is None):
+            raise CaseError(f"internal: joint group '{name}' needs exactly one of covariance "
+                            "or joint table")
+        self.name = name
+        self.members = tuple(members)
+        self.hypotheses = tuple(hypotheses)
+        if covariance is not None:
+            covariance = np.array(covariance, dtype=float)
+            covariance.setflags(write=False)
+        if joint is not None:
+            joint = np.array(joint, dtype=float)
+            joint.setflags(write=False)
+        self._covariance = covariance
+        self._joint = joint
+        self.source = source
+        self.note = note
+
+    @property
+    def kind(self) -> str:
+        """``"covariance"`` or ``"table"``."""
+        return "covariance" if self._covariance is not None else "table"
+
+    @property
+    def covariance(self) -> pd.Series | None:
+        """Within-hypothesis covariance of the two items' first-state indicators."""
+        if self._covariance is None:
+            return None
+        return pd.Series(np.array(self._covariance), index=list(self.hypotheses),
+                         name="covariance")
+
+    def joint_array(self, evidence: Mapping[str, Evidence]) -> np.ndarray:
+        """The joint table as an array of shape (states of each member..., hypotheses)."""
+        if self._joint is not None:
+            shape = tuple(len(evidence[m].states) for m in self.members)
+            return self._joint.reshape(*shape, len(self.hypotheses))
+        a = evidence[self.members[0]].table
+        b = evidence[self.members[1]].table
+        sign = np.array([[1.0, -1.0], [-1.0, 1.0]])
+        return a[:, None, :] * b[None, :, :] + sign[:, :, None] * self._covariance[None, None, :]
+
+    def _replace(self, **changes: Any) -> JointGroup:
+        kw = {"name": self.name, "members": self.members, "hypotheses": self.hypotheses,
+              "covariance": self._covariance, "joint": self._joint, "source": self.source,
+              "note": self.note}
+        kw.update(changes)
+        return JointGroup(**kw)
+
+    def to_dict(self) -> dict[str, Any]:
+        out: dict[str, Any] = {"name": self.name, "members": list(self.members),
+                               "kind": self.kind}
+        if self._covariance is not None:
+            out["covariance"] = {h: float(v) for h, v in zip(self.hypotheses, self._covariance,
+                                                              strict=True)}
+        else:
+            out["joint"] = {h: [float(v) for v in self._joint[:, j]]
+                            for j, h in enumerate(self.hypotheses)}
+        out["source"] = self.source.to_dict()
+        out["note"] = self.note
+        return out
+
+    def __repr__(self) -> str:
+        return (f"JointGroup({self.name!r}: {len(self.members)} items "
+                f"{list(self.members)}, {self.kind} form)")
 
 
 # --------------------------------------------------------------------------- the case
@@ -379,6 +513,7 @@ class Case:
         self._hyps: dict[str, Hypothesis] = {}
         self._evidence: dict[str, Evidence] = {}
         self._scenarios: dict[str, Scenario] = {}
+        self._groups: dict[str, JointGroup] = {}
         self._active = BASE_SCENARIO
         self.assumptions: list[dict[str, str]] = []
         self.extras: dict[str, Any] = {}
@@ -467,13 +602,259 @@ class Case:
     def observed_steps(self) -> list[tuple[str, tuple[str, ...], np.ndarray]]:
         """The update steps in order: ``(step name, member items, P(observed | H) vector)``.
 
-        One step per observed evidence item; the engine consumes this list.
+        One step per observed evidence item, except that:
+
+        * the observed members of a joint group make one step, named after the
+          group and placed at its first observed member; its vector is the
+          joint table at the observed states, summed over members not yet
+          observed;
+        * a conditional item contributes P(its state | the evidence before it,
+          H): the row of its table for the parent's observed state or, when the
+          parent is not observed, the parent's state summed out given what is
+          known of its chain.
+
+        The engine consumes this list.
         """
-        return [
-            (e.name, (e.name,), e.table[e.states.index(e.observed)])
-            for e in self._evidence.values()
-            if e.observed is not None
-        ]
+        if not self._groups and not any(e.given is not None for e in self._evidence.values()):
+            return [
+                (e.name, (e.name,), e.table[e.states.index(e.observed)])
+                for e in self._evidence.values()
+                if e.observed is not None
+            ]
+        group_of = self._group_of()
+        roots = self._chain_roots()
+        steps: list[tuple[str, tuple[str, ...], np.ndarray]] = []
+        done: set[str] = set()
+        known: dict[str, dict[str, int]] = {}  # chain root -> {applied item: state index}
+        for e in self._evidence.values():
+            if e.observed is None:
+                continue
+            g = group_of.get(e.name)
+            if g is not None:
+                if g not in done:
+                    done.add(g)
+                    grp = self._groups[g]
+                    members = tuple(m for m in grp.members
+                                    if self._evidence[m].observed is not None)
+                    steps.append((g, members, self._group_vector(grp, None)))
+                continue
+            k = e.states.index(e.observed)
+            if e.name in roots:
+                seen = known.setdefault(roots[e.name], {})
+                if e.given is None:  # head of its chain: nothing of the chain came before
+                    vec = e.table[k]
+                elif e.given in seen:
+                    vec = e.conditional[seen[e.given], k]
+                else:
+                    before = self._chain_probability(roots[e.name], seen)
+                    after = self._chain_probability(roots[e.name], {**seen, e.name: k})
+                    vec = _safe_ratio(after, before)
+                seen[e.name] = k
+                steps.append((e.name, (e.name,), vec))
+                continue
+            steps.append((e.name, (e.name,), e.table[k]))
+        return steps
+
+    def predictive_likelihoods(self, name: str) -> pd.DataFrame:
+        """P(state | hypothesis, the other observed evidence) for one item.
+
+        For an item with no stated dependence this is its own table. For a
+        member of a joint group it is conditioned on the group's other observed
+        members; for an item in a conditional chain, on the chain's other
+        observed items. Value-of-information analysis uses it for pending items.
+        """
+        ev = self._get_ev(name)
+        return pd.DataFrame(self._predictive_array(ev.name),
+                            index=pd.Index(ev.states, name="state"),
+                            columns=pd.Index(self.hypothesis_names, name="hypothesis"))
+
+    def _predictive_array(self, name: str) -> np.ndarray:
+        ev = self._evidence[name]
+        if not self._groups and ev.given is None and not self._has_children(name):
+            return ev.table
+        g = self._group_of().get(name)
+        if g is not None:
+            return self._group_vector(self._groups[g], name)
+        roots = self._chain_roots()
+        if name not in roots:
+            return ev.table
+        root = roots[name]
+        chain = [n for n in self._evidence if roots.get(n) == root]
+        seen = {n: self._evidence[n].states.index(self._evidence[n].observed)
+                for n in chain if n != name and self._evidence[n].observed is not None}
+        below = {n for n in seen if name in self._ancestors(n)}
+        if not below:
+            if ev.given is None:
+                return ev.table
+            if ev.given in seen:
+                return ev.conditional[seen[ev.given]]
+        before = self._chain_probability(root, seen)
+        rows = [_safe_ratio(self._chain_probability(root, {**seen, name: k}), before)
+                for k in range(len(ev.states))]
+        out = np.vstack(rows)
+        dead = before <= 0  # the other evidence rules this hypothesis out: use the table
+        if dead.any():
+            out[:, dead] = ev.table[:, dead]
+        return out
+
+    # ------------------------------------------------------------------ dependence helpers
+    def _group_of(self) -> dict[str, str]:
+        return {m: g.name for g in self._groups.values() for m in g.members}
+
+    def _has_children(self, name: str) -> bool:
+        return any(e.given == name for e in self._evidence.values())
+
+    def _chain_roots(self) -> dict[str, str]:
+        """Item -> head of its conditional chain, for items in a chain (parents first)."""
+        roots: dict[str, str] = {}
+        for e in self._evidence.values():
+            if e.given is not None:
+                r = roots.setdefault(e.given, e.given)
+                roots[e.name] = r
+        return roots
+
+    def _ancestors(self, name: str) -> list[str]:
+        out = []
+        cur = self._evidence[name].given
+        while cur is not None and cur not in out:
+            out.append(cur)
+            cur = self._evidence[cur].given if cur in self._evidence else None
+        return out
+
+    def _chain_probability(self, root: str, seen: Mapping[str, int]) -> np.ndarray:
+        """P(the items in ``seen`` take their states | H) for one conditional chain
+        (a tree: every item has at most one parent), summing out the rest."""
+        n_h = len(self._hyps)
+        if not seen:
+            return np.ones(n_h)
+        relevant: set[str] = set()
+        for n in seen:
+            relevant.add(n)
+            relevant.update(self._ancestors(n))
+        beta: dict[str, np.ndarray] = {}
+        for n in reversed([n for n in self._evidence if n in relevant]):
+            ev = self._evidence[n]
+            b = beta.pop(n, None)
+            if b is None:
+                b = np.ones((len(ev.states), n_h))
+            if n in seen:
+                keep = np.zeros_like(b)
+                keep[seen[n]] = b[seen[n]]
+                b = keep
+            if ev.given is None:
+                return (ev.table * b).sum(axis=0)
+            msg = np.einsum("psh,sh->ph", ev.conditional, b)
+            beta[ev.given] = beta[ev.given] * msg if ev.given in beta else msg
+        raise CaseError(f"internal: conditional chain from '{root}' has no head")
+
+    def _group_vector(self, grp: JointGroup, free: str | None) -> np.ndarray:
+        """Joint table at the members' observed states, summed over the unobserved
+        ones; with ``free`` an item name: P(free's state | observed members, H)."""
+        arr = grp.joint_array(self._evidence)
+        idx: list[Any] = []
+        for m in grp.members:
+            ev = self._evidence[m]
+            if m != free and ev.observed is not None:
+                idx.append(ev.states.index(ev.observed))
+            else:
+                idx.append(slice(None))
+        sub = arr[tuple(idx)]
+        if free is None:
+            axes = tuple(range(sub.ndim - 1))
+            return sub.sum(axis=axes) if axes else sub
+        kept = [m for m in grp.members if m == free or self._evidence[m].observed is None]
+        pos = kept.index(free)
+        other = tuple(i for i in range(sub.ndim - 1) if i != pos)
+        joint_free = sub.sum(axis=other) if other else sub
+        total = joint_free.sum(axis=0)
+        out = np.array(self._evidence[free].table, dtype=float)
+        ok = total > 0
+        out[:, ok] = joint_free[:, ok] / total[ok]
+        return out
+
+    def dependence_links(self) -> dict[str, str]:
+        """Item -> the stated dependence it takes part in (``"joint group 'G'"`` or
+        ``"conditional chain from 'A'"``), for items that have one."""
+        out = {m: f"joint group '{g}'" for m, g in self._group_of().items()}
+        for n, r in self._chain_roots().items():
+            out[n] = f"conditional chain from '{r}'"
+        return out
+
+    def _refresh_conditionals(self) -> None:
+        """Recompute each conditional item's marginal table from its parent's table."""
+        for n, ev in list(self._evidence.items()):
+            if ev.given is None:
+                continue
+            parent = self._evidence.get(ev.given)
+            if (parent is None or parent.observed_only or ev.conditional is None
+                    or parent.states != ev.parent_states
+                    or ev.conditional.shape[2] != parent.table.shape[1]):
+                continue  # _validate_dependence reports it
+            marg = np.einsum("psh,ph->sh", ev.conditional, parent.table)
+            if marg.shape != ev.table.shape or not np.array_equal(marg, ev.table):
+                self._evidence[n] = ev._replace(table=marg)
+
+    def _validate_dependence(self) -> None:
+        names = tuple(self._hyps)
+        order = {n: i for i, n in enumerate(self._evidence)}
+        group_of: dict[str, str] = {}
+        for g in self._groups.values():
+            if g.hypotheses != names:
+                raise CaseError(f"internal: joint group '{g.name}' out of step with hypotheses")
+            if g.name in self._evidence or g.name == "prior":
+                raise CaseError(f"joint group '{g.name}' has the name of an evidence item or "
+                                "of the prior step; steps need distinct names, so rename it")
+            if len(g.members) < 2:
+                raise CaseError(f"joint group '{g.name}' has {len(g.members)} member(s); "
+                                "a group joins at least two evidence items")
+            for m in g.members:
+                if m not in self._evidence:
+                    raise CaseError(f"joint group '{g.name}' names unknown evidence '{m}'; the "
+                                    f"evidence items are {_short_list(self._evidence)}")
+                if m in group_of:
+                    raise CaseError(f"evidence '{m}' is in joint groups '{group_of[m]}' and "
+                                    f"'{g.name}'; an item belongs to one group at most (merge "
+                                    "the groups into one with a joint table)")
+                group_of[m] = g.name
+                ev = self._evidence[m]
+                if ev.observed_only:
+                    raise CaseError(f"evidence '{m}' in joint group '{g.name}' is observed-only; "
+                                    "a joint table needs each member's full table over its states")
+            if len(set(g.members)) != len(g.members):
+                raise CaseError(f"joint group '{g.name}' lists an item twice: {list(g.members)}")
+            _check_group_numbers(g, self._evidence)
+        for ev in self._evidence.values():
+            if ev.given is None:
+                continue
+            what = f"conditional evidence '{ev.name}'"
+            parent = self._evidence.get(ev.given)
+            if parent is None:
+                raise CaseError(f"{what} is stated given '{ev.given}', which is not an evidence "
+                                f"item; the items are {_short_list(self._evidence)}")
+            if order[parent.name] >= order[ev.name]:
+                raise CaseError(f"{what} is stated given '{parent.name}', which comes after it "
+                                "(or is itself); a likelihood may only be stated given an "
+                                "earlier item")
+            if parent.observed_only:
+                raise CaseError(f"{what} is stated given '{parent.name}', which is observed-only; "
+                                "the parent needs a full table over its states")
+            if parent.states != ev.parent_states:
+                raise CaseError(f"{what} has tables for states {list(ev.parent_states)} of "
+                                f"'{parent.name}', whose states are {list(parent.states)}")
+            if ev.conditional is None or ev.conditional.shape != (
+                    len(parent.states), len(ev.states), len(names)):
+                raise CaseError(f"internal: tables of {what} out of step")
+            for a, b in ((ev.name, parent.name), (parent.name, ev.name)):
+                if a in group_of:
+                    if b in group_of and group_of[a] == group_of[b]:
+                        raise CaseError(
+                            f"dependency cycle: {what} is stated given '{parent.name}' and both "
+                            f"are in joint group '{group_of[a]}', which already models their "
+                            "dependence; drop the conditional tables or the group")
+                    raise CaseError(
+                        f"evidence '{a}' is in joint group '{group_of[a]}' and in a conditional "
+                        f"link ('{ev.name}' given '{parent.name}'); use one way of stating the "
+                        f"dependence: put both items in the group, or drop the group")
 
     # ------------------------------------------------------------------ listeners
     def on_change(self, callback: Callable[[Case, str], None]) -> Callable[[], None]:
@@ -492,14 +873,15 @@ class Case:
         snapshot = (dict(self._hyps), dict(self._evidence), dict(self._scenarios),
                     self._active, list(self.assumptions), self.title, self.question,
                     self.analyst, self.notes, self.exhaustive, self.safety_related,
-                    copy.deepcopy(self.extras))
+                    copy.deepcopy(self.extras), dict(self._groups))
         try:
             yield
+            self._refresh_conditionals()
             self._validate()
         except BaseException:
             (self._hyps, self._evidence, self._scenarios, self._active, self.assumptions,
              self.title, self.question, self.analyst, self.notes, self.exhaustive,
-             self.safety_related, self.extras) = snapshot
+             self.safety_related, self.extras, self._groups) = snapshot
             raise
         self._version += 1
         for cb in list(self._listeners):
@@ -515,6 +897,7 @@ class Case:
         for sc in self._scenarios.values():
             if set(sc.priors) != set(names):
                 raise CaseError(f"internal: scenario '{sc.name}' out of step with hypotheses")
+        self._validate_dependence()
 
     def _record(self, kind: str, target: str, detail: str) -> None:
         self.assumptions.append({"kind": kind, "target": target, "detail": detail})
@@ -631,13 +1014,20 @@ class Case:
     # ------------------------------------------------------------------ hypotheses
     def add_hypothesis(self, name: str, prior: float, *, likelihoods: Mapping[str, Any] | None = None,
                        description: str = "", source: Any = None, catch_all: bool | None = None,
-                       scenario_priors: Mapping[str, float] | None = None) -> None:
+                       scenario_priors: Mapping[str, float] | None = None,
+                       extra_values: Mapping[str, Any] | None = None) -> None:
         """Add a hypothesis; the other priors are rescaled by ``1 - prior`` (recorded).
 
         ``likelihoods`` maps every existing evidence item to this hypothesis'
         column (a list over the item's states, a dict state -> p, or a number
-        for an observed-only item). ``scenario_priors`` gives its prior in
-        each named scenario (default: the same ``prior``).
+        for an observed-only item; for a conditional item, a dict parent state
+        -> column). ``scenario_priors`` gives its prior in each named scenario
+        (default: the same ``prior``). ``extra_values`` gives the new
+        hypothesis' entries of extras sections keyed by hypothesis (e.g.
+        ``{"decision": {action: loss}}`` when the case has a loss table).
+        Joint groups assume the new hypothesis keeps its items independent
+        (covariance 0, or the product of the members' columns); that is
+        recorded as an assumption.
         """
         nm = _check_name("hypothesis", name)
         if nm in self._hyps:
@@ -669,8 +1059,26 @@ class Case:
             if bad:
                 raise CaseError(f"scenario_priors names unknown scenario(s) {bad}")
         new_cols = {}
+        new_cond = {}
         for ename, ev in self._evidence.items():
-            new_cols[ename] = _parse_column(ev, nm, likelihoods[ename])
+            if ev.given is not None:
+                spec = likelihoods[ename]
+                if not isinstance(spec, Mapping) or set(spec) != set(ev.parent_states):
+                    raise CaseError(f"new hypothesis '{nm}': conditional evidence '{ename}' needs "
+                                    f"a column for each state of '{ev.given}' "
+                                    f"{list(ev.parent_states)}, as a dict parent state -> column")
+                cols = []
+                for ps in ev.parent_states:
+                    col = _parse_column(ev, nm, spec[ps])
+                    if abs(col.sum() - 1) > SUM_TOL:
+                        raise CaseError(f"likelihoods of evidence '{ename}' given '{ev.given}' = "
+                                        f"'{ps}' for new hypothesis '{nm}' sum to {col.sum():.4g}"
+                                        "; fix the column")
+                    cols.append(col)
+                new_cond[ename] = np.stack(cols)
+                new_cols[ename] = np.zeros(len(ev.states))  # the margin is recomputed
+            else:
+                new_cols[ename] = _parse_column(ev, nm, likelihoods[ename])
         with self._edit("hypotheses"):
             scale = 1 - p
             self._hyps = {n: replace(h, prior=h.prior * scale) for n, h in self._hyps.items()}
@@ -689,7 +1097,26 @@ class Case:
             names = tuple(self._hyps)
             for ename, ev in self._evidence.items():
                 table = np.column_stack([ev.table, new_cols[ename]])
-                self._evidence[ename] = ev._replace(table=table, hypotheses=names)
+                changes: dict[str, Any] = {"table": table, "hypotheses": names}
+                if ename in new_cond:
+                    changes["conditional"] = np.concatenate(
+                        [ev.conditional, new_cond[ename][:, :, None]], axis=2)
+                self._evidence[ename] = ev._replace(**changes)
+            self._refresh_conditionals()
+            for gname, g in self._groups.items():
+                if g.kind == "covariance":
+                    self._groups[gname] = g._replace(
+                        hypotheses=names, covariance=np.append(g._covariance, 0.0))
+                else:
+                    col = np.ones(1)
+                    for m in g.members:
+                        col = np.multiply.outer(col, self._evidence[m].table[:, -1])
+                    self._groups[gname] = g._replace(
+                        hypotheses=names, joint=np.column_stack([g._joint, col.reshape(-1)]))
+                self._record("group-independence", gname,
+                             f"hypothesis '{nm}' added: the items of joint group '{gname}' are "
+                             "taken as independent under it; state their dependence if known")
+            self._sync_extras({}, {nm: dict(extra_values) if extra_values else None})
 
     def remove_hypothesis(self, name: str) -> None:
         """Remove a hypothesis; the remaining priors are rescaled to sum to 1 (recorded)."""
@@ -718,7 +1145,16 @@ class Case:
                 j = ev.hypotheses.index(h.name)
                 self._evidence[ename] = ev._replace(
                     table=np.delete(ev.table, j, axis=1), hypotheses=names,
-                    entry_sources={k: v for k, v in ev.entry_sources.items() if k[1] != h.name})
+                    entry_sources={k: v for k, v in ev.entry_sources.items() if k[1] != h.name},
+                    conditional=(None if ev.conditional is None
+                                 else np.delete(ev.conditional, j, axis=2)))
+            for gname, g in self._groups.items():
+                j = g.hypotheses.index(h.name)
+                self._groups[gname] = g._replace(
+                    hypotheses=names,
+                    covariance=None if g._covariance is None else np.delete(g._covariance, j),
+                    joint=None if g._joint is None else np.delete(g._joint, j, axis=1))
+            self._sync_extras({h.name: None}, {})
 
     def rename_hypothesis(self, old: str, new: str) -> None:
         """Rename a hypothesis everywhere (evidence tables, scenarios)."""
@@ -740,6 +1176,9 @@ class Case:
                     hypotheses=names,
                     entry_sources={(s, nm if hh == h.name else hh): v
                                    for (s, hh), v in ev.entry_sources.items()})
+            for gname, g in self._groups.items():
+                self._groups[gname] = g._replace(hypotheses=names)
+            self._sync_extras({h.name: nm}, {})
 
     # ------------------------------------------------------------------ evidence
     def add_evidence(self, name: str, *, likelihoods: Any, states: Iterable[str] | None = None,
@@ -755,6 +1194,9 @@ class Case:
         hypothesis (dict hypothesis -> number); ``observed`` names the state and
         the numbers need not sum to 1.
         """
+        if isinstance(name, str) and name.strip() in self._groups:
+            raise CaseError(f"'{name.strip()}' is the name of a joint group; evidence and groups "
+                            "share the step names, so choose another name")
         ev = self._build_evidence(name, likelihoods=likelihoods, states=states, observed=observed,
                                   source=source, description=description,
                                   shared_source=shared_source, observed_only=observed_only,
@@ -823,6 +1265,14 @@ class Case:
 
     def remove_evidence(self, name: str) -> None:
         ev = self._get_ev(name)
+        g = self._group_of().get(ev.name)
+        if g is not None:
+            raise CaseError(f"evidence '{ev.name}' is in joint group '{g}'; remove the group "
+                            "first (remove_joint_group)")
+        kids = [e.name for e in self._evidence.values() if e.given == ev.name]
+        if kids:
+            raise CaseError(f"evidence {_short_list(kids)} is stated given '{ev.name}'; remove "
+                            "that conditional evidence first")
         with self._edit("evidence"):
             del self._evidence[ev.name]
 
@@ -831,12 +1281,19 @@ class Case:
         nm = _check_name("evidence", new)
         if nm == ev.name:
             return
-        if nm in self._evidence:
+        if nm in self._evidence or nm in self._groups:
             raise CaseError(f"cannot rename evidence '{ev.name}' to '{nm}': that name is taken")
         with self._edit("evidence"):
             self._evidence = {(nm if k == ev.name else k): (v._replace(name=nm) if k == ev.name
                                                              else v)
                               for k, v in self._evidence.items()}
+            for k, v in self._evidence.items():
+                if v.given == ev.name:
+                    self._evidence[k] = v._replace(given=nm)
+            for gname, g in self._groups.items():
+                if ev.name in g.members:
+                    self._groups[gname] = g._replace(
+                        members=tuple(nm if m == ev.name else m for m in g.members))
 
     def set_evidence(self, name: str, *, description: str | None = None, source: Any = None,
                      shared_source: str | None | bool = False) -> None:
@@ -880,6 +1337,7 @@ class Case:
         """
         ev = self._get_ev(evidence)
         h = self._get_hyp(hypothesis)
+        _refuse_conditional_edit(ev)
         j = ev.hypotheses.index(h.name)
         table = np.array(ev.table)
         entry_sources = dict(ev.entry_sources)
@@ -916,6 +1374,7 @@ class Case:
                         normalize: bool = False) -> None:
         """Replace an item's whole likelihood table (same states; e.g. imported from CSV)."""
         ev = self._get_ev(evidence)
+        _refuse_conditional_edit(ev)
         if ev.observed_only:
             new = self._build_evidence("\x00tmp", likelihoods=likelihoods, states=None,
                                        observed=ev.observed, source=None, description="",
@@ -940,6 +1399,218 @@ class Case:
             if source is not None:
                 changes["source"] = Source.coerce(source, what=f"source of evidence '{ev.name}'")
             self._evidence[ev.name] = ev._replace(**changes)
+
+    # ------------------------------------------------------------------ dependent evidence
+    @property
+    def joint_groups(self) -> dict[str, JointGroup]:
+        """Joint evidence groups in order, name -> :class:`JointGroup` (a copy of the mapping)."""
+        return dict(self._groups)
+
+    def add_joint_group(self, name: str, members: Iterable[str], *, covariance: Any = None,
+                        correlation: Any = None, joint: Any = None, source: Any = None,
+                        note: str = "") -> JointGroup:
+        """Join evidence items whose states are not independent given the hypothesis.
+
+        The observed members then enter the update as one step (named ``name``)
+        whose likelihood is the joint table at their observed states.
+
+        Parameters
+        ----------
+        name : str
+            Name of the group (and of its update step); distinct from every
+            evidence item's name.
+        members : list of str
+            Existing evidence items with full tables (not observed-only).
+        covariance : float or mapping hypothesis -> float, optional
+            For two items of two states each: Cov(1[A = a1], 1[B = b1] | H),
+            where a1 and b1 are each item's *first* state, so that
+            P(a1, b1 | H) = P(a1 | H)·P(b1 | H) + cov. One number applies to
+            every hypothesis. It must lie in
+            [-min(P(a1)P(b1), P(a2)P(b2)), min(P(a1)P(b2), P(a2)P(b1))] under
+            each hypothesis (all four cells non-negative).
+        correlation : float or mapping, optional
+            The same as a correlation coefficient rho in [-1, 1]:
+            cov = rho·sqrt(P(a1)P(a2)P(b1)P(b2)) (the phi coefficient of the
+            two indicators).
+        joint : DataFrame or mapping, optional
+            The whole joint table: a DataFrame whose rows are the combined states
+            (a MultiIndex, one level per member, or tuples) and whose columns are
+            the hypotheses; or a mapping hypothesis -> {tuple of states: p} or
+            hypothesis -> list of p in row-major order of the combined states
+            (last member fastest). Each column sums to 1 and its margins equal
+            the members' tables.
+        source : Source, str or dict, optional
+            Where the dependence figures came from.
+        note : str
+            Why the items are dependent.
+
+        References
+        ----------
+        The covariance form of two dependent binary tests: Gardner, Stryhn,
+        Lind & Collins (2000), "Conditional dependence between tests affects
+        the diagnosis and surveillance of animal diseases", *Preventive
+        Veterinary Medicine* 45, 107-122 (recalled from memory).
+        """
+        nm = _check_name("joint group", name)
+        if nm in self._groups:
+            raise CaseError(f"joint group '{nm}' already exists; remove it first or choose "
+                            "another name")
+        if isinstance(members, str):
+            raise CaseTypeError(f"members of joint group '{nm}' must be a list of evidence "
+                                "names, not one string")
+        mem = tuple(self._get_ev(m).name for m in members)
+        given = [x is not None for x in (covariance, correlation, joint)]
+        if sum(given) != 1:
+            raise CaseError(f"joint group '{nm}': give exactly one of covariance=, "
+                            "correlation= or joint= (a covariance of 0 means independence)")
+        hyps = tuple(self._hyps)
+        cov = jt = None
+        if joint is not None:
+            jt = _parse_joint(nm, joint, [self._evidence[m] for m in mem], hyps)
+        else:
+            if len(mem) != 2:
+                raise CaseError(f"joint group '{nm}' has {len(mem)} items; a covariance or "
+                                "correlation joins exactly two two-state items (give a joint "
+                                "table for more)")
+            raw = covariance if covariance is not None else correlation
+            label = "covariance" if covariance is not None else "correlation"
+            vals = _per_hypothesis(f"{label} of joint group '{nm}'", raw, hyps)
+            if label == "correlation":
+                a, b = (self._evidence[m] for m in mem)
+                for ev in (a, b):
+                    if len(ev.states) != 2:
+                        raise CaseError(f"joint group '{nm}': a correlation needs two-state "
+                                        f"items; '{ev.name}' has states {list(ev.states)}")
+                for j, h in enumerate(hyps):
+                    if not -1 <= vals[j] <= 1:
+                        raise CaseError(f"correlation {vals[j]:g} of joint group '{nm}' under "
+                                        f"'{h}' is outside [-1, 1]")
+                vals = vals * np.sqrt(a.table[0] * a.table[1] * b.table[0] * b.table[1])
+            cov = vals
+        grp = JointGroup(nm, mem, hyps, covariance=cov, joint=jt,
+                         source=Source.coerce(source, what=f"source of joint group '{nm}'"),
+                         note=_check_text(f"note of joint group '{nm}'", note))
+        with self._edit("groups"):
+            self._groups[nm] = grp
+        return grp
+
+    def remove_joint_group(self, name: str) -> None:
+        """Remove a joint group; its members go back to being independent items."""
+        g = self._get_group(name)
+        with self._edit("groups"):
+            del self._groups[g.name]
+
+    def joint_table(self, name: str) -> pd.DataFrame:
+        """The joint likelihood table of a group: rows the combined states (one index
+        level per member), columns the hypotheses."""
+        g = self._get_group(name)
+        arr = g.joint_array(self._evidence)
+        idx = pd.MultiIndex.from_product([self._evidence[m].states for m in g.members],
+                                         names=list(g.members))
+        return pd.DataFrame(arr.reshape(-1, len(g.hypotheses)), index=idx,
+                            columns=pd.Index(g.hypotheses, name="hypothesis"))
+
+    def add_conditional_evidence(self, name: str, *, given: str, likelihoods: Mapping[str, Any],
+                                 states: Iterable[str] | None = None, observed: str | None = None,
+                                 source: Any = None, description: str = "",
+                                 shared_source: str | None = None) -> Evidence:
+        """Add an item whose likelihood is stated given the state of an earlier item.
+
+        ``likelihoods`` maps each state of the parent item ``given`` to a table
+        P(state | parent state, hypothesis) in any form :meth:`add_evidence`
+        accepts. The item's own table (``Evidence.table``) becomes its margin
+        over the parent, sum_s P(state | s, H)·P(s | H), kept in step with the
+        parent's table. In the update, the item contributes the row for the
+        parent's observed state; when the parent is not observed, the parent's
+        state is summed out.
+        """
+        nm = _check_name("evidence", name)
+        if nm in self._evidence or nm in self._groups:
+            raise CaseError(f"evidence '{nm}' already exists; choose another name or edit it")
+        parent = self._get_ev(given)
+        st, cond = self._parse_conditional(nm, parent, likelihoods, states)
+        if observed is not None and observed not in st:
+            raise CaseError(f"observed state {observed!r} of evidence '{nm}' is not among its "
+                            f"states {list(st)}")
+        tag = None if shared_source is None else _check_name(f"shared-source tag of '{nm}'",
+                                                             shared_source)
+        ev = Evidence(nm, st, tuple(self._hyps), np.einsum("psh,ph->sh", cond, parent.table),
+                      observed=observed, description=_check_text("description", description),
+                      source=Source.coerce(source, what=f"source of evidence '{nm}'"),
+                      shared_source=tag, given=parent.name, parent_states=parent.states,
+                      conditional=cond)
+        with self._edit("evidence"):
+            self._evidence[nm] = ev
+        return ev
+
+    def set_conditional_likelihoods(self, evidence: str, likelihoods: Mapping[str, Any], *,
+                                    source: Any = None) -> None:
+        """Replace all the tables of a conditional item (one per parent state)."""
+        ev = self._get_ev(evidence)
+        if ev.given is None:
+            raise CaseError(f"evidence '{ev.name}' is not conditional; edit its table with "
+                            "set_likelihoods, or add it with add_conditional_evidence")
+        st, cond = self._parse_conditional(ev.name, self._evidence[ev.given], likelihoods,
+                                           ev.states)
+        changes: dict[str, Any] = {"conditional": cond}
+        if source is not None:
+            changes["source"] = Source.coerce(source, what=f"source of evidence '{ev.name}'")
+        with self._edit("likelihood"):
+            self._evidence[ev.name] = ev._replace(**changes)
+
+    def _parse_conditional(self, nm: str, parent: Evidence, likelihoods: Any,
+                           states: Iterable[str] | None) -> tuple[tuple[str, ...], np.ndarray]:
+        if parent.observed_only:
+            raise CaseError(f"evidence '{nm}' cannot be stated given '{parent.name}': that item "
+                            "is observed-only, and a parent needs a full table over its states")
+        if not isinstance(likelihoods, Mapping):
+            raise CaseTypeError(f"likelihoods of conditional evidence '{nm}' must map each state "
+                                f"of '{parent.name}' {list(parent.states)} to a table, got "
+                                f"{type(likelihoods).__name__}")
+        miss = [s for s in parent.states if s not in likelihoods]
+        extra = [s for s in likelihoods if s not in parent.states]
+        if miss or extra:
+            raise CaseError(f"likelihoods of conditional evidence '{nm}': missing state(s) "
+                            f"{miss} and unknown state(s) {extra} of '{parent.name}'; give one "
+                            f"table for each of {list(parent.states)}")
+        hyps = tuple(self._hyps)
+        st = None if states is None else tuple(states)
+        tables = []
+        for ps in parent.states:
+            label = f"{nm} | {parent.name} = {ps}"
+            st_i, tab = _parse_table(label, likelihoods[ps], st, hyps)
+            if st is None:
+                st = st_i
+            elif st_i != st:
+                raise CaseError(f"tables of conditional evidence '{nm}' list different states: "
+                                f"{list(st)} and {list(st_i)}")
+            sums = tab.sum(axis=0)
+            for j, h in enumerate(hyps):
+                if abs(sums[j] - 1) > SUM_TOL:
+                    raise CaseError(
+                        f"likelihoods of evidence '{label}' for hypothesis '{h}' sum to "
+                        f"{sums[j]:.4g} over its states (want 1 within {SUM_TOL:g}); fix the "
+                        "column")
+            tables.append(tab)
+        return st, np.stack(tables)
+
+    def _get_group(self, name: Any) -> JointGroup:
+        if not isinstance(name, str):
+            raise CaseTypeError(f"joint group name must be a string, got {type(name).__name__}")
+        try:
+            return self._groups[name]
+        except KeyError:
+            raise CaseError(f"no joint group named {name!r}; the groups are "
+                            f"{_short_list(self._groups)}") from None
+
+    def _sync_extras(self, renamed: Mapping[str, str | None],
+                     added: Mapping[str, Mapping[str, Any] | None]) -> None:
+        """Keep extras sections that are keyed by hypothesis in step with a change of the
+        hypothesis set (hooks registered in casefile.EXTRA_HYPOTHESIS_HOOKS)."""
+        from .casefile import hypotheses_changed
+
+        for key in list(self.extras):
+            self.extras[key] = hypotheses_changed(key, self.extras[key], self, renamed, added)
 
     # ------------------------------------------------------------------ scenarios
     def add_scenario(self, name: str, priors: Mapping[str, float], *, source: Any = None,
@@ -1045,6 +1716,7 @@ class Case:
             "active_scenario": self._active,
             "assumptions": [dict(a) for a in self.assumptions],
             "extras": copy.deepcopy(self.extras),
+            **({"groups": [g.to_dict() for g in self._groups.values()]} if self._groups else {}),
         }
 
     @classmethod
@@ -1101,6 +1773,142 @@ class Case:
 
 
 # --------------------------------------------------------------------------- parsing helpers
+
+
+def _refuse_conditional_edit(ev: Evidence) -> None:
+    if ev.given is not None:
+        raise CaseError(f"evidence '{ev.name}' is stated given '{ev.given}': its table is the "
+                        "margin of its conditional tables; edit those with "
+                        "set_conditional_likelihoods")
+
+
+def _safe_ratio(num: np.ndarray, den: np.ndarray) -> np.ndarray:
+    """num / den with 0 where den is 0 (a hypothesis already ruled out)."""
+    out = np.zeros_like(np.asarray(num, dtype=float))
+    np.divide(num, den, out=out, where=den > 0)
+    return out
+
+
+GROUP_MARGIN_TOL = 1e-6
+"""How far a joint table's margins may sit from the members' own tables."""
+
+
+def _check_group_numbers(g: JointGroup, evidence: Mapping[str, Evidence]) -> None:
+    """Feasible covariances and coherent joint tables, with messages that give the fix."""
+    hyps = g.hypotheses
+    if g.kind == "covariance":
+        a, b = (evidence[m] for m in g.members)
+        for ev in (a, b):
+            if len(ev.states) != 2:
+                raise CaseError(f"joint group '{g.name}' states a covariance, which needs two "
+                                f"items of two states each; '{ev.name}' has {len(ev.states)} "
+                                f"states {list(ev.states)}; give the group a joint table instead")
+        cov = g._covariance
+        lo = -np.minimum(a.table[0] * b.table[0], a.table[1] * b.table[1])
+        hi = np.minimum(a.table[0] * b.table[1], a.table[1] * b.table[0])
+        for j, h in enumerate(hyps):
+            if not (lo[j] - 1e-12 <= cov[j] <= hi[j] + 1e-12):
+                raise CaseError(
+                    f"covariance {cov[j]:.6g} of joint group '{g.name}' under hypothesis '{h}' is "
+                    f"outside its feasible range [{lo[j]:.6g}, {hi[j]:.6g}] (given "
+                    f"P('{a.states[0]}' of '{a.name}' | {h}) = {a.table[0, j]:.6g} and "
+                    f"P('{b.states[0]}' of '{b.name}' | {h}) = {b.table[0, j]:.6g}); "
+                    "choose a covariance in that range")
+        return
+    shape = tuple(len(evidence[m].states) for m in g.members)
+    n = int(np.prod(shape))
+    if g._joint.shape != (n, len(hyps)):
+        raise CaseError(f"joint table of group '{g.name}' has {g._joint.shape[0]} rows; its "
+                        f"members' states combine into {n}")
+    arr = g._joint.reshape(*shape, len(hyps))
+    sums = g._joint.sum(axis=0)
+    for j, h in enumerate(hyps):
+        if abs(sums[j] - 1) > SUM_TOL:
+            raise CaseError(f"joint table of group '{g.name}' under hypothesis '{h}' sums to "
+                            f"{sums[j]:.6g} over the combined states (want 1 within "
+                            f"{SUM_TOL:g}); fix the column")
+    for k, m in enumerate(g.members):
+        ev = evidence[m]
+        other = tuple(i for i in range(len(shape)) if i != k)
+        margin = arr.sum(axis=other)
+        bad = np.abs(margin - ev.table) > GROUP_MARGIN_TOL
+        if bad.any():
+            i, j = (int(x[0]) for x in np.nonzero(bad))
+            raise CaseError(
+                f"joint table of group '{g.name}' gives P('{ev.states[i]}' of '{m}' | "
+                f"{hyps[j]}) = {margin[i, j]:.6g}, but the item's own table says "
+                f"{ev.table[i, j]:.6g}; a joint table's margins must equal its members' "
+                "tables (fix the joint table or the item's likelihoods)")
+
+
+def _per_hypothesis(what: str, value: Any, hyps: tuple[str, ...]) -> np.ndarray:
+    """One finite number per hypothesis from a number or a mapping hypothesis -> number."""
+    if isinstance(value, pd.Series):
+        value = value.to_dict()
+    if isinstance(value, Mapping):
+        _check_keys(what, value, hyps, kind="values")
+        raw = [value[h] for h in hyps]
+    else:
+        raw = [value] * len(hyps)
+    out = []
+    for h, v in zip(hyps, raw, strict=True):
+        if isinstance(v, np.generic):
+            v = v.item()
+        if isinstance(v, bool) or not isinstance(v, numbers.Real):
+            raise CaseTypeError(f"{what} under '{h}' must be a number, got "
+                                f"{type(v).__name__} {v!r:.60}")
+        if not math.isfinite(float(v)):
+            raise CaseError(f"{what} under '{h}' is {v}; give a finite number")
+        out.append(float(v))
+    return np.array(out)
+
+
+def _parse_joint(name: str, spec: Any, members: list[Evidence],
+                 hyps: tuple[str, ...]) -> np.ndarray:
+    """A joint table (combined states row-major x hypotheses) from a DataFrame or mapping."""
+    import itertools
+
+    combos = list(itertools.product(*[m.states for m in members]))
+    if len(combos) > 100_000:
+        raise CaseError(f"joint group '{name}' would have {len(combos):,} combined states; "
+                        "join fewer items")
+    pos = {c: i for i, c in enumerate(combos)}
+    if isinstance(spec, pd.DataFrame):
+        spec = {str(c): {tuple(r) if isinstance(r, tuple) else (r,): spec[c].iloc[i]
+                         for i, r in enumerate(spec.index)} for c in spec.columns}
+    if not isinstance(spec, Mapping):
+        raise CaseTypeError(f"joint table of group '{name}' must be a DataFrame or a mapping "
+                            f"hypothesis -> values, got {type(spec).__name__}")
+    _check_keys(f"joint group '{name}'", spec, hyps, kind="joint table")
+    out = np.empty((len(combos), len(hyps)))
+    for j, h in enumerate(hyps):
+        col = spec[h]
+        if isinstance(col, pd.Series):
+            col = {tuple(k) if isinstance(k, tuple) else (k,): v for k, v in col.items()}
+        if isinstance(col, Mapping):
+            keys = [tuple(k) if isinstance(k, list | tuple) else (k,) for k in col]
+            miss = [c for c in combos if c not in keys]
+            extra = [k for k in keys if k not in pos]
+            if miss or extra:
+                raise CaseError(f"joint table of group '{name}' under '{h}': missing combined "
+                                f"state(s) {miss[:4]}, unknown {extra[:4]}; rows are tuples of "
+                                f"the states of {[m.name for m in members]}")
+            vals = [0.0] * len(combos)
+            for k, v in zip(keys, col.values(), strict=True):
+                vals[pos[k]] = v
+        elif isinstance(col, list | tuple | np.ndarray):
+            vals = list(col)
+            if len(vals) != len(combos):
+                raise CaseError(f"joint table of group '{name}' under '{h}' has {len(vals)} "
+                                f"values for {len(combos)} combined states")
+        else:
+            raise CaseTypeError(f"joint table of group '{name}' under '{h}' must be a list or "
+                                f"a mapping, got {type(col).__name__}")
+        for i, v in enumerate(vals):
+            out[i, j] = _check_probability(
+                f"joint likelihood of {combos[i]} in group '{name}' under '{h}'",
+                v.item() if isinstance(v, np.generic) else v)
+    return out
 
 
 def _short_list(names: Iterable[str], limit: int = 12) -> str:
@@ -1232,6 +2040,7 @@ def _parse_table(name: str, spec: Any, states: Iterable[str] | None,
             spec = spec.loc[list(st)]
         else:
             st = st_from_frame
+        states = st
         spec = {str(c): [spec[c].iloc[i] for i in range(len(st))] for c in spec.columns}
     if not isinstance(spec, Mapping):
         raise CaseTypeError(f"likelihoods of evidence '{name}' must be a dict hypothesis -> "
@@ -1307,6 +2116,6 @@ def _parse_column(ev: Evidence, hyp: str, value: Any) -> np.ndarray:
 
 
 __all__ = [
-    "Case", "Hypothesis", "Evidence", "Source", "Scenario", "UNSOURCED",
+    "Case", "Hypothesis", "Evidence", "JointGroup", "Source", "Scenario", "UNSOURCED",
     "SUM_TOL", "BASE_SCENARIO", "CASE_MIMETYPE",
 ]

@@ -26,6 +26,7 @@ from .case import (
     BASE_SCENARIO,
     Case,
     Evidence,
+    JointGroup,
     Scenario,
     Source,
     _check_name,
@@ -39,9 +40,11 @@ SCHEMA_VERSION = 1
 MAX_FILE_BYTES = 512 * 1024 * 1024
 
 _CASE_KEYS = {"title", "question", "analyst", "notes", "exhaustive", "safety_related",
-              "hypotheses", "evidence", "scenarios", "active_scenario", "assumptions", "extras"}
+              "hypotheses", "evidence", "scenarios", "active_scenario", "assumptions", "extras",
+              "groups"}
 _EVIDENCE_KEYS = {"name", "description", "states", "likelihoods", "observed", "observed_only",
-                  "shared_source", "source", "entry_sources"}
+                  "shared_source", "source", "entry_sources", "given", "conditional_likelihoods"}
+_GROUP_KEYS = {"name", "members", "kind", "covariance", "joint", "source", "note"}
 _SCENARIO_KEYS = {"name", "priors", "source", "note"}
 
 
@@ -283,11 +286,19 @@ def case_from_dict(data: Any) -> Case:
                 raise CaseFileError(f"entry source #{k + 1} of {what} names state {s_!r:.40} / "
                                     f"hypothesis {h_!r:.40}, which the item does not have")
             entry_sources[(s_, h_)] = Source.coerce(_obj(es.get("source", {}), what), what=what)
+        given, parent_states, cond = _conditional_from_dict(e, what, st, names)
         case._evidence[name] = Evidence(
             name, st, names, table, observed=observed,
             description=_check_text(f"description of {what}", e.get("description", "")),
             source=src, shared_source=tag, observed_only=observed_only,
-            entry_sources=entry_sources)
+            entry_sources=entry_sources, given=given, parent_states=parent_states,
+            conditional=cond)
+
+    for i, g in enumerate(_arr(d.get("groups", []), "case 'groups'")):
+        grp = _group_from_dict(g, f"joint group #{i + 1}", names, case)
+        if grp.name in case._groups:
+            raise CaseFileError(f"joint group '{grp.name}' appears twice; names must be unique")
+        case._groups[grp.name] = grp
 
     for i, s in enumerate(_arr(d.get("scenarios", []), "case 'scenarios'")):
         what = f"scenario #{i + 1}"
@@ -319,12 +330,97 @@ def case_from_dict(data: Any) -> Case:
         assumptions.append({k: _check_text(f"assumption #{i + 1} '{k}'", a.get(k, ""))
                             for k in ("kind", "target", "detail")})
     case.assumptions = assumptions
+    case._refresh_conditionals()
+    case._validate()  # evidence structure first: extras validators may rely on it
     extras = _obj(d.get("extras", {}), "case 'extras'")
     case.extras = {}
     for key, value in extras.items():
         case.extras[_check_name("extras key", key)] = validate_extra(key, value, case)
     case._validate()
     return case
+
+
+def _conditional_from_dict(e: Mapping, what: str, st: tuple[str, ...],
+                           names: tuple[str, ...]) -> tuple[Any, tuple[str, ...], Any]:
+    """The ``given`` / ``conditional_likelihoods`` fields of a conditional item."""
+    if "given" not in e and "conditional_likelihoods" not in e:
+        return None, (), None
+    given = _check_name(f"parent of {what}", _req(e, "given", what))
+    tabs = _obj(_req(e, "conditional_likelihoods", what), f"conditional likelihoods of {what}")
+    if not tabs:
+        raise CaseFileError(f"conditional likelihoods of {what} are empty")
+    parent_states = tuple(_check_name(f"state of '{given}'", k) for k in tabs)
+    cond = np.empty((len(parent_states), len(st), len(names)))
+    for i, ps in enumerate(parent_states):
+        lik = _obj(tabs[ps], f"likelihoods of {what} given '{given}' = '{ps}'")
+        missing = [h for h in names if h not in lik]
+        extra = [h for h in lik if h not in names]
+        if missing or extra:
+            raise CaseFileError(f"likelihoods of {what} given '{given}' = '{ps}': missing "
+                                f"hypothesis(es) {missing}, unknown hypothesis(es) {extra}")
+        for j, h in enumerate(names):
+            col = _arr(lik[h], f"likelihoods of {what} given '{given}' = '{ps}' under '{h}'")
+            if len(col) != len(st):
+                raise CaseFileError(f"likelihoods of {what} given '{given}' = '{ps}' under '{h}' "
+                                    f"have {len(col)} values for {len(st)} states")
+            for k, v in enumerate(col):
+                cond[i, k, j] = _check_probability(
+                    f"likelihood of state '{st[k]}' of {what} given '{given}' = '{ps}' under "
+                    f"'{h}'", v)
+    return given, parent_states, cond
+
+
+def _group_from_dict(g: Any, what: str, names: tuple[str, ...], case: Case) -> JointGroup:
+    g = _obj(g, what)
+    _keys(g, _GROUP_KEYS, what)
+    nm = _check_name("joint group", _req(g, "name", what))
+    what = f"joint group '{nm}'"
+    members = tuple(_check_name(f"member of {what}", m)
+                    for m in _arr(_req(g, "members", what), f"members of {what}"))
+    for m in members:
+        if m not in case._evidence:
+            raise CaseFileError(f"{what} names unknown evidence '{m}'")
+    kind = _req(g, "kind", what)
+    src = Source.coerce(_obj(g.get("source", {}), f"source of {what}"), what=f"source of {what}")
+    note = _check_text(f"note of {what}", g.get("note", ""))
+    if kind == "covariance":
+        if "joint" in g:
+            raise CaseFileError(f"{what} is of covariance form but also has a 'joint' table")
+        cov = _obj(_req(g, "covariance", what), f"covariance of {what}")
+        missing = [h for h in names if h not in cov]
+        extra = [h for h in cov if h not in names]
+        if missing or extra:
+            raise CaseFileError(f"covariance of {what}: missing hypothesis(es) {missing}, "
+                                f"unknown hypothesis(es) {extra}")
+        vals = []
+        for h in names:
+            v = cov[h]
+            if isinstance(v, bool) or not isinstance(v, int | float) or not math.isfinite(v):
+                raise CaseFileError(f"covariance of {what} under '{h}' is {v!r:.40}; "
+                                    "it must be a finite number")
+            vals.append(float(v))
+        return JointGroup(nm, members, names, covariance=np.array(vals), source=src, note=note)
+    if kind == "table":
+        if "covariance" in g:
+            raise CaseFileError(f"{what} is of table form but also has a 'covariance'")
+        jt = _obj(_req(g, "joint", what), f"joint table of {what}")
+        missing = [h for h in names if h not in jt]
+        extra = [h for h in jt if h not in names]
+        if missing or extra:
+            raise CaseFileError(f"joint table of {what}: missing hypothesis(es) {missing}, "
+                                f"unknown hypothesis(es) {extra}")
+        n = int(np.prod([len(case._evidence[m].states) for m in members]))
+        arr = np.empty((n, len(names)))
+        for j, h in enumerate(names):
+            col = _arr(jt[h], f"joint table of {what} under '{h}'")
+            if len(col) != n:
+                raise CaseFileError(f"joint table of {what} under '{h}' has {len(col)} values "
+                                    f"for {n} combined states")
+            for k, v in enumerate(col):
+                arr[k, j] = _check_probability(f"joint likelihood #{k + 1} of {what} under "
+                                               f"'{h}'", v)
+        return JointGroup(nm, members, names, joint=arr, source=src, note=note)
+    raise CaseFileError(f"{what} has kind {kind!r:.40}; expected 'covariance' or 'table'")
 
 
 EXTRA_VALIDATORS: dict[str, str] = {
@@ -334,6 +430,28 @@ EXTRA_VALIDATORS: dict[str, str] = {
 """extras key -> "module:function" validating that section: ``fn(value, case) -> value``
 (JSON-ready, normalised) or raise CaseError naming the field. Modules that keep
 inputs on the case register here (e.g. ``"uncertainty": "beliefledger.sensitivity:validate_uncertainty"``)."""
+
+
+EXTRA_HYPOTHESIS_HOOKS: dict[str, str] = {
+    "decision": "beliefledger.value:decision_hypotheses_changed",
+}
+"""extras key -> "module:function" that keeps a section keyed by hypothesis in step
+when hypotheses are renamed, removed or added:
+``fn(value, case, renamed, added) -> value``, where ``renamed`` maps old name ->
+new name (``None``: removed) and ``added`` maps a new name -> the values the
+caller gave for it (``None``: none given; the hook may raise CaseError)."""
+
+
+def hypotheses_changed(key: str, value: Any, case: Case, renamed: Mapping[str, Any],
+                       added: Mapping[str, Any]) -> Any:
+    """Run the hypothesis hook registered for extras section ``key`` (if any)."""
+    target = EXTRA_HYPOTHESIS_HOOKS.get(key)
+    if not target:
+        return value
+    import importlib
+
+    modname, fn = target.split(":")
+    return getattr(importlib.import_module(modname), fn)(value, case, renamed, added)
 
 
 def validate_extra(key: str, value: Any, case: Case) -> Any:
