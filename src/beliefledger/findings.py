@@ -232,10 +232,15 @@ def _check_shared_source(case: Case, trace: Trace) -> Iterator[Finding]:
             groups.setdefault(ev.shared_source, []).append(ev.name)
     w = _step_decibans(trace)
     steps = trace.evidence_steps
+    step_of = {m: s for s, ms in trace.members.items() for m in ms}  # a grouped item -> its step
+    links = case.dependence_links()
     for tag, items in groups.items():
         if len(items) < 2:
             continue
-        idx = [steps.index(s) for s in items if s in applied]
+        if links.get(items[0]) is not None and len({links.get(i) for i in items}) == 1:
+            continue  # one joint group or one conditional chain already states the dependence
+        idx = sorted({steps.index(step_of.get(s, s)) for s in items
+                      if step_of.get(s, s) in applied})
         together = float(np.sum(w[idx])) if idx else 0.0
         yield Finding("shared-source", "warning",
                       f"Evidence {_names(items)} share the source tag '{tag}'. If they stem from "
