@@ -1,0 +1,37 @@
+"""Sealed audit records: seal, verify, diff, sign-off, offline HTML.
+
+Loaded lazily: ``verify`` and ``diff`` read notebooks as plain JSON and
+never import nbformat, nbclient or altair; only ``seal`` starts a kernel.
+"""
+
+from __future__ import annotations
+
+import importlib
+from typing import Any
+
+_EXPORTS = {
+    "seal": "sealer", "SealResult": "sealer", "build_record": "sealer",
+    "verify": "verifier", "VerifyResult": "verifier", "Problem": "verifier", "RESULT_TOL": "verifier",
+    "diff": "differ", "diff_cases": "differ", "CaseDiff": "differ", "load_cases": "differ",
+    "register": "collect", "collect_cases": "collect",
+    "keygen": "signing", "sign": "signing", "make_signoff": "signing",
+    "check_signoff": "signing",
+    "render_html": "html",
+    "RecordError": "nbio", "read_record": "nbio",
+    "fingerprint": "canonical", "digest": "canonical",
+    "load_record": "differ",
+}
+
+__all__ = sorted(_EXPORTS)
+
+
+def __getattr__(name: str) -> Any:
+    if name in _EXPORTS:
+        value = getattr(importlib.import_module(f".{_EXPORTS[name]}", __name__), name)
+        globals()[name] = value
+        return value
+    raise AttributeError(f"module 'beliefledger.record' has no attribute {name!r}")
+
+
+def __dir__() -> list[str]:
+    return sorted(__all__)

@@ -1,0 +1,93 @@
+"""Which cases a notebook worked on: the collection rule.
+
+A case is collected from any cell output carrying the MIME entry
+``application/vnd.beliefledger.case+json`` (what displaying a
+:class:`~beliefledger.Case` emits; a Workbench emits the same, and
+:func:`register` emits it explicitly). Outputs are read in cell order; for
+each case title the **last** such output wins, and cases keep the order in
+which their title first appeared. A notebook with no such output is refused.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping, Sequence
+from typing import Any
+
+from ..case import CASE_MIMETYPE
+from .nbio import RecordError
+
+NO_CASE_HELP = (
+    "no case found in the notebook's outputs. Make a cell end with the case itself "
+    "(a last line `case`), or call `beliefledger.record.register(case)`, so that the "
+    "notebook shows the final state of every case it works on; then seal again")
+
+
+def case_outputs(cells: Sequence[Mapping[str, Any]]) -> list[tuple[int, Any]]:
+    """(cell index, envelope) for every case bundle in the outputs, in order."""
+    found = []
+    for i, cell in enumerate(cells):
+        if cell.get("cell_type") != "code":
+            continue
+        for out in cell.get("outputs", []) or []:
+            data = out.get("data") if isinstance(out, Mapping) else None
+            if isinstance(data, Mapping) and CASE_MIMETYPE in data:
+                found.append((i, data[CASE_MIMETYPE]))
+    return found
+
+
+def collect_envelopes(cells: Sequence[Mapping[str, Any]]) -> list[dict[str, Any]]:
+    """The final envelope of each case: ``[{"title", "envelope", "cell"}]`` (no validation)."""
+    latest: dict[str, dict[str, Any]] = {}
+    for i, env in case_outputs(cells):
+        title = None
+        if isinstance(env, Mapping) and isinstance(env.get("case"), Mapping):
+            title = env["case"].get("title")
+        if not isinstance(title, str):
+            raise RecordError(f"cell {i + 1} shows a case bundle with no title; it is not a "
+                              "beliefledger case (was the output edited?)")
+        if title in latest:
+            latest[title].update(envelope=env, cell=i)
+        else:
+            latest[title] = {"title": title, "envelope": env, "cell": i}
+    return list(latest.values())
+
+
+def collect_cases(cells: Sequence[Mapping[str, Any]]) -> list[dict[str, Any]]:
+    """Collect and validate: ``[{"title", "envelope", "cell", "case"}]``; refuses none."""
+    from ..casefile import from_envelope
+    from ..errors import CaseError
+
+    items = collect_envelopes(cells)
+    if not items:
+        raise RecordError(NO_CASE_HELP)
+    for item in items:
+        try:
+            item["case"] = from_envelope(item["envelope"],
+                                         origin=f"case {item['title']!r} shown in cell "
+                                                f"{item['cell'] + 1}")
+        except CaseError as exc:
+            raise RecordError(str(exc)) from None
+    return items
+
+
+def register(case: Any) -> None:
+    """Show ``case`` in the notebook so that ``beliefledger seal`` collects it.
+
+    Displaying a case (a cell ending in ``case``) does the same; call this
+    where the case is built inside a function or a loop. The last display of
+    a case (by title) is the state the record keeps.
+    """
+    from ..case import Case
+
+    if not isinstance(case, Case):
+        from ..errors import CaseTypeError
+
+        raise CaseTypeError(f"register() takes a beliefledger Case, got {type(case).__name__}")
+    try:
+        from IPython.display import display
+    except ImportError:  # outside IPython there is nothing to collect from
+        return
+    display(case)
+
+
+__all__ = ["collect_cases", "collect_envelopes", "case_outputs", "register", "NO_CASE_HELP"]
