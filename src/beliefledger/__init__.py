@@ -19,6 +19,7 @@ _EXPORTS: dict[str, str] = {
     # model
     "Case": "case", "Hypothesis": "case", "Evidence": "case", "Source": "case",
     "Scenario": "case", "UNSOURCED": "case", "BASE_SCENARIO": "case",
+    "JointGroup": "case",
     "CaseError": "errors", "CaseTypeError": "errors", "CaseFileError": "errors",
     # engine and diagnostics
     "Trace": "engine", "update": "engine",
@@ -41,9 +42,13 @@ _EXPORTS: dict[str, str] = {
     "robustness": "sensitivity", "sweep_prior": "sensitivity",
     "sweep_likelihood": "sensitivity", "break_even_prior": "sensitivity",
     "tornado": "sensitivity", "simulate": "sensitivity",
+    "set_prior_uncertainty": "uncertainty", "set_likelihood_uncertainty": "uncertainty",
+    "clear_uncertainty": "uncertainty", "uncertainty_register": "uncertainty",
     # value of information and decisions
     "rank_next_evidence": "value", "evpi": "value", "evsi": "value",
     "expected_loss": "value", "bayes_action": "value",
+    "set_loss_table": "value", "loss_table": "value", "decision_summary": "value",
+    "decision_threshold": "value", "predictive": "value", "preposterior": "value",
     # batch scoring
     "score_cases": "batch",
     # notebook views (optional dependencies)
