@@ -58,8 +58,10 @@ class _Model:
     hypotheses: tuple[str, ...]
     items: tuple[str, ...]
     states: tuple[tuple[str, ...], ...]
-    # per item: ln P(state | H), (states + 2) x hypotheses; the last two rows are
-    # zeros (row n_states: not observed, row n_states + 1: skipped unknown label)
+    # per item, (states + 2) x (hypotheses + 2): ln P(state | H) in the first columns,
+    # then two count columns (observed, unknown label); row n_states is "not observed"
+    # and row n_states + 1 an unknown label (zeros in the log part). Gathering rows and
+    # adding them up gives the log-likelihoods and both counts in one pass.
     log_tables: tuple[np.ndarray, ...]
     log_prior: np.ndarray
     positive_prior: np.ndarray
@@ -92,8 +94,11 @@ def compile_model(case: Case) -> _Model:
                 raise CaseError(f"likelihoods of evidence '{ev.name}' for hypothesis "
                                 f"'{hyps[j]}' sum to {sums[j]:.6g} over its states, not 1; fix "
                                 "the column before scoring cases with this model")
-        lt = np.zeros((len(ev.states) + 2, len(hyps)))
-        lt[: len(ev.states)] = log_of(t)
+        ns, nh = len(ev.states), len(hyps)
+        lt = np.zeros((ns + 2, nh + 2))
+        lt[:ns, :nh] = log_of(t)
+        lt[:ns, nh] = 1.0
+        lt[ns + 1, nh + 1] = 1.0
         lt.setflags(write=False)
         items.append(ev.name)
         states.append(tuple(ev.states))
@@ -316,6 +321,36 @@ def _default_chunk(n_hyps: int) -> int:
     return int(min(max(_CHUNK_BYTES // (8 * max(n_hyps, 1)), 1024), 1 << 20))
 
 
+_GROUP_ROWS = 1024  # rows of a combined table (fits in a core's L2 cache for ~10 hypotheses)
+
+
+def _groups(model: _Model, present: list[int]) -> list[tuple[list[int], list[int], np.ndarray]]:
+    """Bundle consecutive present items into groups whose combined log table
+    (the outer sum of their tables, one row per joint code) stays small, so one
+    gather and one add per row serve several items.
+
+    Returns ``(positions in present, radices, combined table)`` per group.
+    """
+    out: list[tuple[list[int], list[int], np.ndarray]] = []
+    pos: list[int] = []
+    radix: list[int] = []
+    table = None
+    for i, k in enumerate(present):
+        t = model.log_tables[k]
+        r = t.shape[0]
+        if table is not None and table.shape[0] * r <= _GROUP_ROWS:
+            table = (table[:, None, :] + t[None, :, :]).reshape(-1, t.shape[1])
+            pos.append(i)
+            radix.append(r)
+            continue
+        if table is not None:
+            out.append((pos, radix, table))
+        pos, radix, table = [i], [r], t
+    if table is not None:
+        out.append((pos, radix, table))
+    return out
+
+
 def _score_frame(model: _Model, frame: pd.DataFrame, columns: tuple[tuple[int, Any], ...],
                  names: tuple[str, ...], chunk_size: int | None,
                  on_unknown: str) -> pd.DataFrame:
@@ -331,40 +366,50 @@ def _score_frame(model: _Model, frame: pd.DataFrame, columns: tuple[tuple[int, A
     log_ev = np.empty(n)
     series = [(k, col, frame[col]) for k, col in columns]
     coders = [_Coder(model.states[k], s) for k, _, s in series]
-    acc = np.empty((min(chunk, n), h))
-    tmp = np.empty_like(acc)
+    groups = _groups(model, [k for k, _ in columns])
+    width = min(chunk, n)
+    w = np.empty((width, h + 2))
+    t = np.empty_like(w)
+    joint = np.empty(width, dtype=np.intp)
     for a in range(0, n, chunk):
         b = min(a + chunk, n)
         m = b - a
-        w, t = acc[:m], tmp[:m]
-        w[:] = model.log_prior
-        codes = []
-        for (k, col, s), coder in zip(series, coders, strict=True):
-            c = coder(s, a, b)
-            ns = len(model.states[k])
-            unknown = c == ns + 1
-            if unknown.any():
-                if on_unknown == "raise":
-                    raise _unknown_error(model, k, col, frame, a + int(np.argmax(unknown)))
-                n_unk[a:b] += unknown
-            n_obs[a:b] += c < ns
-            np.take(model.log_tables[k], c, axis=0, out=t)
-            w += t  # -inf (a zero likelihood) stays -inf; no +inf occurs, so no NaN
-            codes.append(c)
-        z = log_normalizer(w, axis=1)
-        bad = ~np.isfinite(z)
+        codes = [coder(s, a, b) for (_, _, s), coder in zip(series, coders, strict=True)]
+        wm, tm, jm = w[:m], t[:m], joint[:m]
+        wm[:, :h] = model.log_prior
+        wm[:, h:] = 0.0
+        for pos, radix, table in groups:
+            jm[:] = codes[pos[0]]
+            for i, r in zip(pos[1:], radix[1:], strict=True):
+                jm *= r
+                jm += codes[i]
+            np.take(table, jm, axis=0, out=tm, mode="clip")  # codes are in range
+            wm += tm  # -inf (a zero likelihood) stays -inf; no +inf occurs, so no NaN
+        n_obs[a:b] = wm[:, h]
+        n_unk[a:b] = wm[:, h + 1]
+        if on_unknown == "raise" and n_unk[a:b].any():
+            r = int(np.flatnonzero(n_unk[a:b])[0])
+            i = next(i for i, (k, _, _) in enumerate(series)
+                     if codes[i][r] == len(model.states[k]) + 1)
+            raise _unknown_error(model, series[i][0], series[i][1], frame, a + r)
+        lw = wm[:, :h]
+        # log-sum-exp per row, fused with the posterior: one exp per entry
+        top = lw.max(axis=1)
+        bad = np.isneginf(top)
         if bad.any():
             rows = np.flatnonzero(bad)
-            w[rows], z[rows], stop[a + rows] = _stop_early(model, series, codes, rows)
+            lw[rows], stop[a + rows] = _stop_early(model, series, codes, rows)
+            top[rows] = lw[rows].max(axis=1)
         out = post[a:b]
-        np.subtract(w, z[:, None], out=out)
+        np.subtract(lw, top[:, None], out=out)
         np.exp(out, out=out)
+        total = out.sum(axis=1)
+        out /= total[:, None]
         map_idx[a:b] = np.argmax(out, axis=1)
-        elim[a:b] = np.count_nonzero(np.isneginf(w) & model.positive_prior, axis=1)
-        log_ev[a:b] = z - model.log_prior_total
+        elim[a:b] = np.count_nonzero(np.isneginf(lw) & model.positive_prior, axis=1)
+        log_ev[a:b] = (top - model.log_prior_total) + np.log(total)
     cols: dict[str, Any] = {}
-    hyp_names = names[:h]
-    for j, name in enumerate(hyp_names):
+    for j, name in enumerate(names[:h]):
         cols[name] = post[:, j]
     cols["map"] = pd.Categorical.from_codes(map_idx, categories=list(model.hypotheses))
     cols["n_observed"] = n_obs
@@ -374,28 +419,27 @@ def _score_frame(model: _Model, frame: pd.DataFrame, columns: tuple[tuple[int, A
     cols["log_evidence"] = log_ev
     if on_unknown == "skip":
         cols[UNKNOWN_COLUMN] = n_unk
-    out = pd.DataFrame(cols, index=frame.index, copy=False)
-    return out
+    return pd.DataFrame(cols, index=frame.index, copy=False)
 
 
 def _stop_early(model: _Model, series: list, codes: list[np.ndarray],
-                rows: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+                rows: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Replay the rows whose evidence is impossible as a whole, item by item in the
     model's order, and stop each before its first impossible item (as the engine does).
 
-    Returns the log weights at the stop, their log normaliser and the item index.
+    Returns the log weights at the stop and the index of the impossible item.
     Vectorised over the rows; the loop runs over evidence items.
     """
     w = np.broadcast_to(model.log_prior, (len(rows), len(model.log_prior))).copy()
     stop = np.full(len(rows), -1, dtype=np.int32)
     live = np.ones(len(rows), dtype=bool)
     for (k, _, _), c in zip(series, codes, strict=True):
-        nxt = w + model.log_tables[k][c[rows]]
+        nxt = w + model.log_tables[k][c[rows], : w.shape[1]]
         dead = live & ~np.isfinite(log_normalizer(nxt, axis=1))
         stop[dead] = k
         live &= ~dead
         w[live] = nxt[live]
-    return w, log_normalizer(w, axis=1), stop
+    return w, stop
 
 
 __all__ = ["score_cases", "compile_model", "RESULT_COLUMNS", "UNKNOWN_COLUMN"]
