@@ -91,7 +91,11 @@ def _check_probability(what: str, value: Any) -> float:
         raise CaseTypeError(
             f"{what} must be a number between 0 and 1, got {type(value).__name__} {value!r:.80}"
         )
-    x = float(value)
+    try:
+        x = float(value)
+    except OverflowError:
+        raise CaseError(f"{what} is an integer too large for a number; enter a "
+                        "probability between 0 and 1") from None
     if math.isnan(x):
         raise CaseError(f"{what} is NaN; enter a probability between 0 and 1")
     if math.isinf(x):

@@ -115,6 +115,8 @@ def loads(text: str | bytes, *, origin: str = "case file") -> Case:
     except json.JSONDecodeError as exc:
         raise CaseFileError(f"{origin} is not valid JSON: {exc.msg} at line {exc.lineno}, "
                             f"column {exc.colno}; was it truncated or edited by hand?") from None
+    except ValueError as exc:  # e.g. an integer longer than Python converts
+        raise CaseFileError(f"{origin} is not valid JSON for a case file: {exc}") from None
     return from_envelope(data, origin=origin)
 
 
@@ -319,7 +321,7 @@ def case_from_dict(data: Any) -> Case:
                                                                 what=f"source of {what}"),
                                        _check_text("note", s.get("note", "")))
     active = d.get("active_scenario", BASE_SCENARIO)
-    if active != BASE_SCENARIO and active not in case._scenarios:
+    if not isinstance(active, str) or (active != BASE_SCENARIO and active not in case._scenarios):
         raise CaseFileError(f"active_scenario {active!r:.60} is not one of the case's scenarios "
                             f"{case.scenario_names}")
     case._active = active
