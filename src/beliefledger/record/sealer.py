@@ -225,7 +225,7 @@ def build_record(nb: dict[str, Any], *, notebook_name: str, sealed_at: str | Non
               "environment": environment()}
     title = _first_heading(cells) or cases[0]["title"]
     all_cells = cells + record_cells(header, cases, title)
-    case_entries = [{"title": c["title"], "cell": c["cell"], "envelope": c["envelope"],
+    case_entries = [{"title": c["title"], "cell": c["cell"], "envelope": copy.deepcopy(c["envelope"]),
                      "results": c["results"]} for c in cases]
     case_digests = [case_digest(e) for e in case_entries]
     covered = hashed_cells(all_cells)
