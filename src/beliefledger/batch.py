@@ -208,7 +208,7 @@ def score_cases(case: Case, observations: Any, *, chunk_size: int | None = None,
     names = _output_names(model, prefix, on_unknown)
     if is_dask:
         meta = _score_frame(model, observations._meta, columns, names, chunk_size, on_unknown)
-        return observations.map_partitions(_score_frame, model, columns=columns, names=names,
+        return observations.map_partitions(_score_partition, model, columns=columns, names=names,
                                            chunk_size=chunk_size, on_unknown=on_unknown,
                                            meta=meta, align_dataframes=False)
     if len(observations) == 0:
@@ -420,6 +420,12 @@ def _score_frame(model: _Model, frame: pd.DataFrame, columns: tuple[tuple[int, A
     if on_unknown == "skip":
         cols[UNKNOWN_COLUMN] = n_unk
     return pd.DataFrame(cols, index=frame.index, copy=False)
+
+
+def _score_partition(frame: pd.DataFrame, model: _Model, *, columns, names, chunk_size,
+                     on_unknown) -> pd.DataFrame:
+    """One Dask partition (``map_partitions`` passes the partition first)."""
+    return _score_frame(model, frame, columns, names, chunk_size, on_unknown)
 
 
 def _stop_early(model: _Model, series: list, codes: list[np.ndarray],

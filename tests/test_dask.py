@@ -1,0 +1,89 @@
+"""score_cases on a Dask DataFrame, on a local two-worker cluster, against the pandas path.
+
+Needs the optional extra ``beliefledger[dask]``; skipped with a message without it.
+The model and observations are invented, seeded test data (see test_batch.py).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+import pytest
+
+dd = pytest.importorskip("dask.dataframe", reason="dask is not installed: "
+                         "pip install 'beliefledger[dask]' to run the Dask tests")
+distributed = pytest.importorskip("distributed", reason="distributed is not installed: "
+                                  "pip install 'beliefledger[dask]' to run the Dask tests")
+
+import beliefledger as bl  # noqa: E402
+from test_batch import random_model, random_observations  # noqa: E402
+
+
+@pytest.fixture(scope="module")
+def client():
+    import dask
+
+    # dask turns object columns and indexes into its own string dtype on the way in;
+    # keep the input as pandas has it so the two paths see the same frame
+    config = dask.config.set({"dataframe.convert-string": False})
+    cluster = distributed.LocalCluster(n_workers=2, threads_per_worker=1, host="127.0.0.1",
+                                       dashboard_address=None, processes=True,
+                                       silence_logs=40)
+    c = distributed.Client(cluster)
+    try:
+        yield c
+    finally:
+        c.close()
+        cluster.close()
+        config.__exit__(None, None, None)
+
+
+@pytest.fixture(scope="module")
+def data():
+    rng = np.random.default_rng(20261201)
+    model = random_model(rng)
+    obs = random_observations(rng, model, 3000)
+    return model, obs
+
+
+def test_dask_path_equals_pandas_path(client, data):
+    model, obs = data
+    ref = bl.score_cases(model, obs)
+    assert ref["impossible"].any() and (ref["eliminated"] > 0).any()
+    ddf = dd.from_pandas(obs, npartitions=5)
+    lazy = bl.score_cases(model, ddf, chunk_size=97)
+    assert isinstance(lazy, dd.DataFrame)
+    assert list(lazy.columns) == list(ref.columns)
+    assert dict(lazy.dtypes) == dict(ref.dtypes)
+    got = client.compute(lazy).result()
+    # the workers are other processes: the model travelled there and back by pickle
+    assert set(client.run(lambda: 1)) and len(client.scheduler_info()["workers"]) == 2
+    pd.testing.assert_frame_equal(got, ref, check_exact=True)
+
+
+def test_dask_categorical_columns_and_skip_option(client, data):
+    model, obs = data
+    frame = obs.copy()
+    frame.iloc[11, 2] = "not a state"
+    cat = frame.astype("category")
+    ref = bl.score_cases(model, frame, on_unknown="skip")
+    got = client.compute(bl.score_cases(model, dd.from_pandas(cat, npartitions=3),
+                                        on_unknown="skip")).result()
+    pd.testing.assert_frame_equal(got, ref, check_exact=True)
+    assert got["n_unknown"].sum() == 1
+
+
+def test_dask_unknown_label_raises_case_error_at_compute(client, data):
+    model, obs = data
+    frame = obs.copy()
+    frame.loc["case-2500", "item 4"] = "typo"
+    lazy = bl.score_cases(model, dd.from_pandas(frame, npartitions=4))
+    with pytest.raises(bl.CaseError, match=r"row 'case-2500', column 'item 4': 'typo'"):
+        client.compute(lazy).result()
+
+
+def test_dask_bad_columns_fail_before_compute(data):
+    model, obs = data
+    ddf = dd.from_pandas(obs.assign(extra=1), npartitions=2)
+    with pytest.raises(bl.CaseError, match=r"column 'extra' of observations is not an evidence"):
+        bl.score_cases(model, ddf)
