@@ -236,6 +236,7 @@ def case_from_dict(data: Any) -> Case:
     case._hyps = {n: replace(h, prior=float(r["prior"]))
                   for (n, h), r in zip(case._hyps.items(), rows, strict=True)}
     names = tuple(case._hyps)
+    name_set = set(names)  # membership tests stay O(1) for 10,000 hypotheses
 
     for i, e in enumerate(_arr(d.get("evidence", []), "case 'evidence'")):
         what = f"evidence #{i + 1}"
@@ -253,7 +254,7 @@ def case_from_dict(data: Any) -> Case:
             raise CaseFileError(f"{what} lists a state twice: {list(st)}")
         lik = _obj(_req(e, "likelihoods", what), f"likelihoods of {what}")
         missing = [h for h in names if h not in lik]
-        extra = [h for h in lik if h not in names]
+        extra = [h for h in lik if h not in name_set]
         if missing or extra:
             raise CaseFileError(f"likelihoods of {what}: missing hypothesis(es) {missing}, "
                                 f"unknown hypothesis(es) {extra}")
@@ -311,7 +312,7 @@ def case_from_dict(data: Any) -> Case:
             raise CaseFileError(f"scenario name '{nm}' is reserved or appears twice")
         pri = _obj(_req(s, "priors", f"scenario '{nm}'"), f"priors of scenario '{nm}'")
         missing = [h for h in names if h not in pri]
-        extra = [h for h in pri if h not in names]
+        extra = [h for h in pri if h not in name_set]
         if missing or extra:
             raise CaseFileError(f"priors of scenario '{nm}': missing {missing}, unknown {extra}")
         vals = {h: _check_probability(f"prior of '{h}' in scenario '{nm}'", pri[h]) for h in names}
