@@ -811,6 +811,8 @@ class Case:
             if len(g.members) < 2:
                 raise CaseError(f"joint group '{g.name}' has {len(g.members)} member(s); "
                                 "a group joins at least two evidence items")
+            if len(set(g.members)) != len(g.members):
+                raise CaseError(f"joint group '{g.name}' lists an item twice: {list(g.members)}")
             for m in g.members:
                 if m not in self._evidence:
                     raise CaseError(f"joint group '{g.name}' names unknown evidence '{m}'; the "
@@ -824,9 +826,6 @@ class Case:
                 if ev.observed_only:
                     raise CaseError(f"evidence '{m}' in joint group '{g.name}' is observed-only; "
                                     "a joint table needs each member's full table over its states")
-            if len(set(g.members)) != len(g.members):
-                raise CaseError(f"joint group '{g.name}' lists an item twice: {list(g.members)}")
-            _check_group_numbers(g, self._evidence)
         for ev in self._evidence.values():
             if ev.given is None:
                 continue
@@ -859,6 +858,8 @@ class Case:
                         f"evidence '{a}' is in joint group '{group_of[a]}' and in a conditional "
                         f"link ('{ev.name}' given '{parent.name}'); use one way of stating the "
                         f"dependence: put both items in the group, or drop the group")
+        for g in self._groups.values():
+            _check_group_numbers(g, self._evidence)
 
     # ------------------------------------------------------------------ listeners
     def on_change(self, callback: Callable[[Case, str], None]) -> Callable[[], None]:
