@@ -341,5 +341,33 @@ def test_hypothesis_named_like_a_result_column_needs_a_prefix():
     assert list(got.columns[:2]) == ["p_map", "p_Other"] and got["map"].iloc[0] == "map"
 
 
+def test_dependent_evidence_is_refused_by_name():
+    case = bl.Case("fire", hypotheses={"kitchen": 0.4, "wiring": 0.6}, exhaustive=True)
+    case.add_evidence("first witness", states=["kitchen", "hall"],
+                      likelihoods={"kitchen": [0.7, 0.3], "wiring": [0.4, 0.6]})
+    case.add_conditional_evidence(
+        "second witness", given="first witness", states=["kitchen", "hall"],
+        likelihoods={"kitchen": {"kitchen": [0.9, 0.1], "wiring": [0.8, 0.2]},
+                     "hall": {"kitchen": [0.3, 0.7], "wiring": [0.1, 0.9]}})
+    case.add_evidence("smoke", states=["black", "white"],
+                      likelihoods={"kitchen": [0.6, 0.4], "wiring": [0.8, 0.2]})
+    case.add_evidence("scorch", states=["yes", "no"],
+                      likelihoods={"kitchen": [0.5, 0.5], "wiring": [0.9, 0.1]})
+    case.add_joint_group("same photo", ["smoke", "scorch"], correlation=0.2)
+    case.add_evidence("breaker", states=["tripped", "on"],
+                      likelihoods={"kitchen": [0.2, 0.8], "wiring": [0.7, 0.3]})
+    with pytest.raises(bl.CaseError, match=r"column 'second witness' is evidence in a stated "
+                                           r"dependence \(conditional chain"):
+        score_cases(case, pd.DataFrame({"second witness": ["hall"]}))
+    with pytest.raises(bl.CaseError, match=r"column 'scorch' .* \(joint group 'same photo'\)"):
+        score_cases(case, pd.DataFrame({"scorch": ["yes"]}))
+    with pytest.raises(bl.CaseError, match=r"column 'first witness' .* \(conditional chain"):
+        score_cases(case, pd.DataFrame({"first witness": ["hall"], "breaker": ["on"]}))
+    # the items outside any stated dependence are still scored
+    frame = pd.DataFrame({"breaker": ["tripped"]})
+    got = score_cases(case, frame).iloc[0]
+    assert got["kitchen"] == pytest.approx(0.4 * 0.2 / (0.4 * 0.2 + 0.6 * 0.7), rel=1e-12)
+
+
 def test_exported_at_top_level():
     assert bl.score_cases is score_cases

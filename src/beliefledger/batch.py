@@ -205,6 +205,7 @@ def score_cases(case: Case, observations: Any, *, chunk_size: int | None = None,
             "one with pandas.DataFrame(...)")
     model = compile_model(case)
     columns = _check_columns(model, observations.columns)
+    _refuse_dependent(case, [c for _, c in columns])
     names = _output_names(model, prefix, on_unknown)
     if is_dask:
         meta = _score_frame(model, observations._meta, columns, names, chunk_size, on_unknown)
@@ -250,6 +251,17 @@ def _check_columns(model: _Model, columns: Sequence[Any]) -> tuple[tuple[int, An
                             "column (keep case identifiers in the index)")
         out.append((pos[c], c))
     return tuple(sorted(out, key=lambda t: t[0]))
+
+
+def _refuse_dependent(case: Case, names: list[str]) -> None:
+    """Batch scoring adds one independent table per item; an observed item of a joint
+    group or a conditional chain needs the sequential engine."""
+    links = case.dependence_links()
+    for name in names:
+        if name in links:
+            raise CaseError(f"column '{name}' is evidence in a stated dependence ({links[name]}); "
+                            "score_cases handles independent evidence items only: drop the "
+                            "column, or score such cases one by one with case.update()")
 
 
 def _output_names(model: _Model, prefix: str, on_unknown: str) -> tuple[str, ...]:
