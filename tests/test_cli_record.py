@@ -11,7 +11,6 @@ import pytest
 import beliefledger as bl
 from beliefledger.cli import main
 from beliefledger.record.sealer import build_record, dumps_notebook
-
 from test_record import executed_notebook, meta_of, reseal_hashes
 
 

@@ -98,7 +98,7 @@ def reseal_hashes(nb: dict) -> dict:
     root = canonical.root_digest(meta["header"], cds, [e["sha256"] for e in entries])
     man = {**meta["manifest"], "cells": entries, "root": root,
            "fingerprint": canonical.fingerprint(root),
-           "cases": [{"title": e["title"], "sha256": d} for e, d in zip(meta["cases"], cds)]}
+           "cases": [{"title": e["title"], "sha256": d} for e, d in zip(meta["cases"], cds, strict=True)]}
     meta["manifest"] = man
     nb["cells"].append(manifest_cell(man))
     return nb
