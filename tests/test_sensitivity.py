@@ -393,6 +393,11 @@ def test_simulate_reproducible_and_seed_recorded(small_case):
     c = bl.simulate(small_case, draws=40_000, seed=124, progress=False)
     assert np.array_equal(a.samples, b.samples)
     assert not np.array_equal(a.samples, c.samples)
+    # chunks carry their own seeds: the number of threads does not change the draws
+    one = bl.simulate(small_case, draws=5 * 1024, seed=7, chunk=1024, workers=1, progress=False)
+    three = bl.simulate(small_case, draws=5 * 1024, seed=7, chunk=1024, workers=3,
+                        progress=False)
+    assert np.array_equal(one.samples, three.samples)
     fresh = bl.simulate(small_case, draws=1_000, progress=False)
     again = bl.simulate(small_case, draws=1_000, seed=fresh.seed, progress=False)
     assert np.array_equal(fresh.samples, again.samples)

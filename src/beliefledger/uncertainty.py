@@ -38,6 +38,7 @@ from __future__ import annotations
 
 import copy
 import math
+import os
 import time
 from collections.abc import Mapping
 from typing import TYPE_CHECKING, Any
@@ -45,7 +46,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 import pandas as pd
 
-from ._logmath import log_of, posterior_from_logs
+from ._logmath import log_of, normalize_log
 from .case import Source, _check_text
 from .elicit import (
     BetaEstimate,
@@ -607,28 +608,32 @@ class _Plan:
         return self.prior_alpha is not None or bool(self.cells)
 
     def run_chunk(self, n: int, seed: np.random.SeedSequence) -> np.ndarray:
+        """Posterior probabilities of ``n`` draws (hypotheses x draws)."""
         rng = np.random.default_rng(seed)
         k = len(self.hypotheses)
-        s = np.broadcast_to(self.const, (n, k)).copy()
+        # hypotheses x draws, so each hypothesis' running sum is contiguous
+        s = np.repeat(self.const[:, None], n, axis=1)
+        g1, g2 = np.empty(n), np.empty(n)
         for a, b, cols in self.cells:
-            g1 = rng.standard_gamma(a, n)
-            g2 = rng.standard_gamma(b, n)
+            rng.standard_gamma(a, out=g1)
+            rng.standard_gamma(b, out=g2)
+            np.add(g1, g2, out=g2)
+            np.divide(g1, g2, out=g2)  # a Beta(a, b) draw of P(observed | H)
             with np.errstate(divide="ignore"):
-                lx = np.log(g1) - np.log(g1 + g2)
-            if len(cols) == 1:
-                s[:, cols[0]] += lx
-            else:
-                s[:, cols] += lx[:, None]
+                np.log(g2, out=g2)
+            for j in cols:
+                s[j] += g2
         if self.prior_alpha is None:
-            log_prior = self.log_prior
+            s += self.log_prior[:, None]
         else:
-            g = np.zeros((n, k))
+            # a Dirichlet draw is g / sum(g); the sum cancels in the posterior
+            g = np.zeros((k, n))
             for j, a in enumerate(self.prior_alpha):
                 if a > 0:
-                    g[:, j] = rng.standard_gamma(a, n)
+                    rng.standard_gamma(a, out=g[j])
             with np.errstate(divide="ignore"):
-                log_prior = np.log(g) - np.log(g.sum(axis=1, keepdims=True))
-        return posterior_from_logs(log_prior, s)
+                s += np.log(g)
+        return normalize_log(s, axis=0)
 
 
 class SimulationResult:
@@ -663,8 +668,9 @@ class SimulationResult:
         self.seconds = seconds
         defined = ~np.isnan(samples[:, 0])
         self.undefined = int(np.sum(~defined))
-        ok = samples[defined]
+        ok = samples if self.undefined == 0 else samples[defined]
         self._ok = ok
+        self._frame: pd.DataFrame | None = None
         if len(ok):
             winners = np.argmax(ok, axis=1)
             share = np.bincount(winners, minlength=len(hypotheses)) / len(ok)
@@ -690,17 +696,19 @@ class SimulationResult:
     def to_frame(self) -> pd.DataFrame:
         """One row per hypothesis: ``base`` posterior, ``mean``, ``median``, ``low``,
         ``high`` (the ``level`` interval) and ``p_map``."""
-        iv = self.interval()
-        if len(self._ok):
-            mean, median = self._ok.mean(axis=0), np.median(self._ok, axis=0)
-        else:
-            mean = median = np.full(len(self.hypotheses), np.nan)
-        frame = pd.DataFrame({"base": self.base_posterior.to_numpy(), "mean": mean,
-                              "median": median, "low": iv["low"].to_numpy(),
-                              "high": iv["high"].to_numpy(),
-                              "p_map": self.map_probability.to_numpy()},
-                             index=pd.Index(self.hypotheses, name="hypothesis"))
-        return frame
+        if self._frame is None:
+            kk = len(self.hypotheses)
+            if len(self._ok):
+                lo, hi = (1 - self.level) / 2, (1 + self.level) / 2
+                q = np.quantile(self._ok, [lo, 0.5, hi], axis=0)  # one sort for all three
+                mean = self._ok.mean(axis=0)
+            else:
+                q, mean = np.full((3, kk), np.nan), np.full(kk, np.nan)
+            self._frame = pd.DataFrame({"base": self.base_posterior.to_numpy(), "mean": mean,
+                                        "median": q[1], "low": q[0], "high": q[2],
+                                        "p_map": self.map_probability.to_numpy()},
+                                       index=pd.Index(self.hypotheses, name="hypothesis"))
+        return self._frame.copy()
 
     @property
     def summary(self) -> str:
@@ -751,9 +759,17 @@ def _seed(seed: Any) -> int:
     return int(seed)
 
 
+def _workers(workers: Any) -> int:
+    if workers is None:
+        return max(1, min(4, os.cpu_count() or 1))
+    if isinstance(workers, bool) or not isinstance(workers, int | np.integer) or workers < 1:
+        raise CaseError(f"workers must be a whole number of at least 1, got {workers!r:.40}")
+    return int(workers)
+
+
 def simulate(case: Case, draws: int = 100_000, seed: int | None = None, *, level: float = 0.9,
              scenario: str | None = None, progress: bool | None = None,
-             chunk: int = DEFAULT_CHUNK) -> SimulationResult:
+             chunk: int = DEFAULT_CHUNK, workers: int | None = None) -> SimulationResult:
     """Propagate the uncertainty on the inputs to the posterior by Monte Carlo.
 
     Each draw takes the priors from their Dirichlet (when set) and each
@@ -776,6 +792,11 @@ def simulate(case: Case, draws: int = 100_000, seed: int | None = None, *, level
     progress : bool or None
         Show a progress bar; ``None`` shows one when the run is expected to
         take longer than a second.
+    chunk : int
+        Draws per chunk (part of what the seed reproduces; keep the default).
+    workers : int, optional
+        Threads drawing chunks in parallel (default: up to 4, at most the
+        number of CPUs); the result is the same for any number.
 
     Returns
     -------
@@ -807,27 +828,44 @@ def simulate(case: Case, draws: int = 100_000, seed: int | None = None, *, level
                         f"{MAX_SAMPLE_CELLS:,}); use fewer draws")
     n_chunks = -(-n // chunk)
     children = np.random.SeedSequence(sd).spawn(n_chunks)
-    out = np.empty((n, k))
-    t0 = time.perf_counter()
-    bar = None
-    try:
-        for c in range(n_chunks):
-            lo, hi = c * chunk, min(n, (c + 1) * chunk)
-            out[lo:hi] = plan.run_chunk(hi - lo, children[c])
-            if c == 0 and n_chunks > 1 and progress is not False:
-                expected = (time.perf_counter() - t0) * n_chunks
-                if progress or expected > PROGRESS_AFTER:
-                    from tqdm.auto import tqdm
+    out = np.empty((k, n))  # hypotheses x draws; the result holds its transpose
+    nw = _workers(workers)
 
-                    bar = tqdm(total=n, initial=hi, unit="draw", desc="simulate",
-                               leave=False)
-            elif bar is not None:
-                bar.update(hi - lo)
+    def fill(c: int) -> int:
+        lo, hi = c * chunk, min(n, (c + 1) * chunk)
+        out[:, lo:hi] = plan.run_chunk(hi - lo, children[c])
+        return hi - lo
+
+    t0 = time.perf_counter()
+    done = fill(0)
+    bar = None
+    if n_chunks > 1 and progress is not False:
+        expected = (time.perf_counter() - t0) * n_chunks / min(nw, n_chunks - 1)
+        if progress or expected > PROGRESS_AFTER:
+            from tqdm.auto import tqdm
+
+            bar = tqdm(total=n, initial=done, unit="draw", desc="simulate", leave=False)
+    try:
+        if nw == 1 or n_chunks <= 2:
+            for c in range(1, n_chunks):
+                m = fill(c)
+                if bar is not None:
+                    bar.update(m)
+        else:
+            from concurrent.futures import ThreadPoolExecutor, as_completed
+
+            # numpy's generators release the GIL, so chunks run in parallel;
+            # each chunk has its own seed, so the result does not depend on nw
+            with ThreadPoolExecutor(max_workers=nw) as pool:
+                for fut in as_completed([pool.submit(fill, c) for c in range(1, n_chunks)]):
+                    m = fut.result()
+                    if bar is not None:
+                        bar.update(m)
     finally:
         if bar is not None:
             bar.close()
     return SimulationResult(title=case.title, scenario=sc, hypotheses=plan.hypotheses,
-                            samples=out, base_posterior=trace.posterior,
+                            samples=out.T, base_posterior=trace.posterior,
                             base_map=trace.map_hypothesis, seed=sd, draws=n, level=lv,
                             inputs=plan.inputs, seconds=time.perf_counter() - t0)
 
