@@ -157,38 +157,35 @@ def waterfall_data(trace: Trace, focus: str | None = None) -> pd.DataFrame:
     span = float(np.max(np.abs(finite))) if finite.size else 10.0
     cap = max(span, 10.0) + MAX_INF_PAD_DB
 
-    def clip(x: float) -> float:
-        return float(np.clip(x, -cap, cap)) if math.isinf(x) else float(x)
-
     labels = _unique_step_labels(list(w.index))
-    rows: list[dict[str, Any]] = [{
-        "order": 0, "step": PRIOR_LABEL, "kind": "prior", "start_db": 0.0,
-        "end_db": clip(lo_db[0]), "decibans": float(lo_db[0]), "verbal": "",
-        "probability": float(p_focus[0]),
-        "label": _lines("", _fmt_db(lo_db[0]), _fmt_p(p_focus[0])),
-        "clipped": bool(math.isinf(lo_db[0])),
-    }]
-    for k, (label, (_, r)) in enumerate(zip(labels, w.iterrows(), strict=True), start=1):
-        db = float(r["decibans"])
-        kind = r["direction"] if r["direction"] in ("for", "against") else "neutral"
-        rows.append({
-            "order": k, "step": label, "kind": kind, "start_db": clip(lo_db[k - 1]),
-            "end_db": clip(lo_db[k]), "decibans": db, "verbal": str(r["verbal"]),
-            "probability": float(p_focus[k]),
-            "label": _lines(_fmt_db(db), *_wrap(str(r["verbal"]))),
-            "clipped": bool(math.isinf(lo_db[k]) or math.isinf(lo_db[k - 1])),
-        })
-    n = len(rows)
-    rows.append({
-        "order": n, "step": POSTERIOR_LABEL, "kind": "posterior", "start_db": 0.0,
-        "end_db": clip(lo_db[-1]), "decibans": float(lo_db[-1]), "verbal": "",
-        "probability": float(p_focus[-1]),
-        "label": _lines("", _fmt_db(lo_db[-1]), _fmt_p(p_focus[-1])),
-        "clipped": bool(math.isinf(lo_db[-1])),
+    n = len(labels)
+    kinds = ["prior"] + [d if d in ("for", "against") else "neutral" for d in w["direction"]] \
+        + ["posterior"]
+    db = w["decibans"].to_numpy(dtype=float)
+    verbal = [str(v) for v in w["verbal"]]
+    start = np.concatenate([[0.0], lo_db[:-1], [0.0]])
+    end = np.concatenate([lo_db, [lo_db[-1]]])
+    clipped = np.concatenate([[np.isinf(lo_db[0])],
+                              np.isinf(lo_db[1:]) | np.isinf(lo_db[:-1]),
+                              [np.isinf(lo_db[-1])]])
+    start_c = np.where(np.isinf(start), np.clip(start, -cap, cap), start)
+    end_c = np.where(np.isinf(end), np.clip(end, -cap, cap), end)
+    frame = pd.DataFrame({
+        "order": np.arange(n + 2),
+        "step": [PRIOR_LABEL, *labels, POSTERIOR_LABEL],
+        "kind": kinds,
+        "start_db": start_c,
+        "end_db": end_c,
+        "decibans": np.concatenate([[lo_db[0]], db, [lo_db[-1]]]),
+        "verbal": ["", *verbal, ""],
+        "probability": np.concatenate([p_focus, [p_focus[-1]]]),
+        "label": ([_lines("", _fmt_db(lo_db[0]), _fmt_p(p_focus[0]))]
+                  + [_lines(_fmt_db(d), *_wrap(v)) for d, v in zip(db, verbal, strict=True)]
+                  + [_lines("", _fmt_db(lo_db[-1]), _fmt_p(p_focus[-1]))]),
+        "clipped": clipped.astype(bool),
     })
-    frame = pd.DataFrame(rows)
-    frame["top_db"] = frame[["start_db", "end_db"]].max(axis=1)
-    frame["bottom_db"] = frame[["start_db", "end_db"]].min(axis=1)
+    frame["top_db"] = np.maximum(start_c, end_c)
+    frame["bottom_db"] = np.minimum(start_c, end_c)
     return frame
 
 

@@ -1,0 +1,266 @@
+"""Shared pieces of the notebook views: the trace feed, the status area, styles.
+
+A :class:`TraceFeed` is the one place where a case is recomputed. It
+listens to ``case.on_change`` once, runs ``case.update()`` once per
+successful edit (plus the per-scenario MAPs for the robustness line), and
+hands the new trace to every view that subscribed. Views never call the
+engine themselves, so one user action costs exactly one recompute however
+many views are on screen; ``feed.recomputes`` counts them.
+
+Views edit the case only through its own methods, inside
+:meth:`CaseView._apply`, which catches a rejected edit
+(:class:`~beliefledger.errors.CaseError` or ``CaseTypeError``), shows its
+message in the visible :class:`StatusArea` and re-syncs the view from the
+unchanged case.
+"""
+
+from __future__ import annotations
+
+import time
+import traceback
+from collections.abc import Callable
+from typing import TYPE_CHECKING, Any
+
+import ipywidgets as W
+
+from ..display import esc
+from ..engine import update
+from ..errors import CaseError, CaseTypeError
+
+if TYPE_CHECKING:  # pragma: no cover
+    from ..case import Case
+    from ..engine import Trace
+
+STYLE = """<style>
+.bl-w { font-family: "DejaVu Sans", Verdana, sans-serif; font-size: 13px; }
+.bl-status { min-height: 1.6em; }
+.bl-status .bl-msg { padding: 3px 8px; border-radius: 3px; display: inline-block; }
+.bl-status .bl-msg-error { background: #fde3d8; color: #7a2600; border-left: 4px solid #D55E00; }
+.bl-status .bl-msg-ok { background: #e2f0fa; color: #00395c; border-left: 4px solid #0072B2; }
+.bl-status .bl-msg-info { color: #444; }
+.bl-banner { font-size: 12px; line-height: 1.25; }
+.bl-banner .bl-error { color: #7a2600; font-weight: bold; }
+.bl-banner .bl-warning { color: #8a4b00; }
+.bl-sum-bad { color: #7a2600; font-weight: bold; }
+.bl-sum-ok { color: #00395c; }
+.bl-head { font-weight: bold; color: #333; }
+.bl-table { border-collapse: collapse; font-size: 12px; }
+.bl-table th, .bl-table td { padding: 2px 6px; border-bottom: 1px solid #ddd; text-align: right; }
+.bl-table th:first-child, .bl-table td:first-child { text-align: left; }
+.bl-findings { margin: 2px 0; padding-left: 1.2em; font-size: 12px; }
+.bl-finding.bl-error { color: #7a2600; }
+.bl-finding.bl-warning { color: #6b3b00; }
+.bl-caution { font-size: 12px; color: #444; border-left: 4px solid #999; padding-left: 6px; }
+.bl-posterior b { font-size: 14px; }
+.bl-robustness { font-size: 12px; }
+</style>"""
+
+
+def style_widget() -> W.HTML:
+    """The shared stylesheet as an HTML widget (CSS only, no script)."""
+    return W.HTML(STYLE, layout=W.Layout(height="0px", margin="0", padding="0"))
+
+
+class StatusArea(W.HTML):
+    """The visible place where an edit's outcome (or a refused edit's error) is shown."""
+
+    def __init__(self, **kwargs: Any) -> None:
+        super().__init__(value="", **kwargs)
+        self.add_class("bl-status")
+        self.message = ""
+        self.kind = ""
+
+    def show(self, message: str, kind: str = "info") -> None:
+        self.message, self.kind = message, kind
+        prefix = {"error": "Edit refused: ", "ok": "", "info": ""}[kind]
+        self.value = f'<span class="bl-msg bl-msg-{kind}">{esc(prefix + message)}</span>'
+
+    def clear(self) -> None:
+        self.message, self.kind = "", ""
+        self.value = ""
+
+    def __repr__(self) -> str:
+        return f"StatusArea({self.kind or 'empty'}: {self.message!r})"
+
+
+def check_case(case: Any, who: str) -> None:
+    """Refuse anything but a Case with a message that says how to get one."""
+    from ..case import Case
+
+    if not isinstance(case, Case):
+        raise CaseTypeError(f"{who} needs a beliefledger Case, got {type(case).__name__}; "
+                            "build one with bl.Case(...) or bl.load_case(path)")
+
+
+class TraceFeed:
+    """Recomputes a case's trace once per successful edit and tells the views.
+
+    Parameters
+    ----------
+    case : Case
+        The case to follow.
+    status : StatusArea, optional
+        Where an unexpected error while refreshing a view is shown.
+
+    Attributes
+    ----------
+    trace : Trace
+        The trace of the case as it is now (under its active scenario).
+    scenario_maps : dict
+        Scenario name -> MAP hypothesis under it, for the robustness line.
+    recomputes : int
+        How many times the case has been recomputed (one per edit).
+    last_seconds : float
+        Wall time of the last recompute and view refresh.
+    """
+
+    def __init__(self, case: Case, status: StatusArea | None = None) -> None:
+        check_case(case, "TraceFeed")
+        self.case = case
+        self.status = status if status is not None else StatusArea()
+        self._subscribers: list[Callable[[Trace], None]] = []
+        self.recomputes = 0
+        self.last_seconds = 0.0
+        self.last_error: str | None = None
+        self.trace: Trace = None  # type: ignore[assignment]
+        self.scenario_maps: dict[str, str] = {}
+        self.scenario_traces: dict[str, Trace] = {}
+        self._compute()
+        self._unsubscribe = case.on_change(self._on_change)
+
+    def subscribe(self, callback: Callable[[Trace], None]) -> None:
+        self._subscribers.append(callback)
+
+    def _compute(self) -> None:
+        self.trace = update(self.case)
+        self.scenario_traces = {}
+        for name in self.case.scenario_names:
+            if name == self.trace.scenario:
+                self.scenario_traces[name] = self.trace
+            else:
+                self.scenario_traces[name] = update(self.case, scenario=name,
+                                                    diagnose_findings=False)
+        self.scenario_maps = {n: t.map_hypothesis for n, t in self.scenario_traces.items()}
+        self.recomputes += 1
+
+    def _on_change(self, case: Case, what: str) -> None:
+        t0 = time.perf_counter()
+        try:
+            self._compute()
+            for cb in list(self._subscribers):
+                cb(self.trace)
+            self.last_error = None
+        except Exception as exc:  # a bug in a view must be seen, never swallowed
+            self.last_error = "".join(traceback.format_exception_only(type(exc), exc)).strip()
+            self.status.show(f"internal error while refreshing the view ({self.last_error}); "
+                             "the case itself was updated", "error")
+        self.last_seconds = time.perf_counter() - t0
+
+    def robustness_line(self) -> str:
+        """'MAP unchanged under k of n scenarios', naming the scenarios that differ."""
+        ref = self.trace.map_hypothesis
+        maps = self.scenario_maps
+        same = [n for n, m in maps.items() if m == ref]
+        differ = [f"'{n}' gives '{m}'" for n, m in maps.items() if m != ref]
+        line = (f"MAP '{ref}' unchanged under {len(same)} of {len(maps)} prior scenarios")
+        return line + ("; " + "; ".join(differ) if differ else "")
+
+    def close(self) -> None:
+        self._unsubscribe()
+        self._subscribers.clear()
+
+    def __repr__(self) -> str:
+        return (f"TraceFeed({self.case.title!r}: {self.recomputes} recomputes, "
+                f"{len(self._subscribers)} views)")
+
+
+class CaseView(W.VBox):
+    """Base of every beliefledger view: a VBox bound to a case through a feed."""
+
+    def __init__(self, case: Case, *, feed: TraceFeed | None = None,
+                 status: StatusArea | None = None, **kwargs: Any) -> None:
+        check_case(case, type(self).__name__)
+        super().__init__(**kwargs)
+        self.case = case
+        self._own_feed = feed is None
+        self.status = status if status is not None else (
+            feed.status if feed is not None else StatusArea())
+        self.feed = feed if feed is not None else TraceFeed(case, self.status)
+        self._syncing = False
+        self.add_class("bl-w")
+        self.feed.subscribe(self._on_trace)
+
+    @property
+    def trace(self) -> Trace:
+        """The trace this view currently shows."""
+        return self.feed.trace
+
+    # editing ------------------------------------------------------------
+    def _apply(self, what: str, fn: Callable[..., Any], *args: Any, **kwargs: Any) -> bool:
+        """Run one case edit; show the outcome; on refusal re-sync from the unchanged case."""
+        try:
+            fn(*args, **kwargs)
+        except (CaseError, CaseTypeError) as exc:
+            self.status.show(str(exc), "error")
+            self.sync()
+            return False
+        if self.feed.last_error is None:
+            self.status.show(what, "ok")
+        return True
+
+    def _guarded(self, handler: Callable[[dict], None]) -> Callable[[dict], None]:
+        """Wrap a ``names='value'`` observer so programmatic syncs do not edit the case."""
+        def observer(change: dict) -> None:
+            if self._syncing:
+                return
+            handler(change)
+        return observer
+
+    def sync(self) -> None:
+        """Refresh every control from the case (no edit, no recompute)."""
+        self._syncing = True
+        try:
+            with self.hold_sync():
+                self._render(self.feed.trace)
+        finally:
+            self._syncing = False
+
+    def _on_trace(self, trace: Trace) -> None:
+        self.sync()
+
+    def _render(self, trace: Trace) -> None:  # pragma: no cover - abstract
+        raise NotImplementedError
+
+    def close(self) -> None:
+        feed = getattr(self, "feed", None)
+        if feed is not None and getattr(self, "_own_feed", False):
+            feed.close()
+        super().close()
+
+    # display --------------------------------------------------------------
+    def _repr_mimebundle_(self, **kwargs: Any) -> dict[str, Any]:
+        data = super()._repr_mimebundle_(**kwargs) or {}
+        data["text/plain"] = repr(self)
+        data["text/html"] = self._repr_html_()
+        return data
+
+    def _repr_html_(self) -> str:  # pragma: no cover - overridden
+        return f"<pre>{esc(repr(self))}</pre>"
+
+
+def set_if_changed(widget: W.Widget, **values: Any) -> None:
+    """Assign traits only when they differ (saves front-end messages on refresh)."""
+    for k, v in values.items():
+        if getattr(widget, k) != v:
+            setattr(widget, k, v)
+
+
+def fmt_p(p: float) -> str:
+    """A probability for display: four decimals, or scientific when tiny."""
+    if p != 0 and (p < 1e-4 or p > 1 - 1e-4) and p != 1:
+        return f"{p:.3e}"
+    return f"{p:.4f}"
+
+
+__all__ = ["TraceFeed", "StatusArea", "CaseView", "STYLE", "style_widget", "set_if_changed",
+           "fmt_p", "check_case"]

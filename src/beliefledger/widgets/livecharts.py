@@ -1,0 +1,269 @@
+"""Fast SVG drawings of the three charts for the live workbench.
+
+The altair charts of :mod:`beliefledger.charts` are the reference pictures
+(records store them as SVG made by vl-convert), but rendering one takes a
+few hundred milliseconds, too slow to repaint on every dropdown change.
+These painters draw the same tidy tables (``charts.waterfall_data`` and
+friends) in the same visual language straight to SVG text in a millisecond
+or two. Everything is static markup: no script, no external reference, and
+every piece of user text is escaped. Each mark carries a ``<title>`` so a
+browser shows its value on hover.
+"""
+
+from __future__ import annotations
+
+import math
+from html import escape
+
+import numpy as np
+import pandas as pd
+
+from .. import charts as C
+
+FONT = f"{C.FONT}, Verdana, sans-serif"
+
+
+def _t(text: object) -> str:
+    return escape(str(text), quote=True)
+
+
+def _short(text: object, limit: int) -> str:
+    s = str(text)
+    return s if len(s) <= limit else s[: limit - 1] + "\u2026"
+
+
+def _svg(width: float, height: float, body: list[str], label: str) -> str:
+    return (f'<svg xmlns="http://www.w3.org/2000/svg" class="bl-live-chart" role="img" '
+            f'aria-label="{_t(label)}" width="{width:.0f}" height="{height:.0f}" '
+            f'viewBox="0 0 {width:.0f} {height:.0f}" font-family="{_t(FONT)}" font-size="11">'
+            + "".join(body) + "</svg>")
+
+
+def _title(x: float, y: float, title: str, subtitle: str) -> list[str]:
+    return [f'<text x="{x}" y="{y}" font-size="14" font-weight="bold">{_t(title)}</text>',
+            f'<text x="{x}" y="{y + 16}" font-size="11" fill="#444">{_t(subtitle)}</text>']
+
+
+def nice_ticks(lo: float, hi: float, target: int = 6) -> list[float]:
+    """Round tick values covering [lo, hi] (steps of 1, 2 or 5 times a power of ten)."""
+    span = hi - lo
+    if not np.isfinite(span) or span <= 0:
+        return [lo]
+    raw = span / max(target, 1)
+    mag = 10 ** math.floor(math.log10(raw))
+    step = next(m * mag for m in (1, 2, 5, 10) if m * mag >= raw)
+    first = math.ceil(lo / step) * step
+    n = int(math.floor((hi - first) / step + 1e-9)) + 1
+    return [round(first + i * step, 10) for i in range(n)]
+
+
+# --------------------------------------------------------------------------- waterfall
+
+
+def waterfall_svg(data: pd.DataFrame, *, focus: str, subtitle: str = "",
+                  plot_width: float = 700) -> str:
+    """Draw :func:`beliefledger.charts.waterfall_data` output as SVG text."""
+    colours = {"prior": C.ENDPOINT_COLOUR, "posterior": C.ENDPOINT_COLOUR,
+               "for": C.SUPPORT_COLOUR, "against": C.AGAINST_COLOUR, "neutral": C.NEUTRAL_COLOUR}
+    n = len(data)
+    slot = min(96.0, max(14.0, plot_width / max(n, 1)))
+    left, right, top, plot_h = 64.0, 70.0, 74.0, 230.0
+    label_h = 120.0
+    width = left + slot * n + right
+    height = top + plot_h + label_h
+    lo, hi = float(data["bottom_db"].min()), float(data["top_db"].max())
+    pad = max(3.0, 0.12 * (hi - lo))
+    d0, d1 = min(lo, 0.0) - pad, max(hi, 0.0) + 2.5 * pad
+
+    def y(v: float) -> float:
+        return top + plot_h * (d1 - v) / (d1 - d0)
+
+    body = _title(8, 18, f"Weight of evidence for '{_short(focus, 60)}'", subtitle)
+    body.append(f'<g font-size="11"><rect x="{left}" y="40" width="10" height="10" '
+                f'fill="{C.SUPPORT_COLOUR}"/><text x="{left + 14}" y="49">for the focus</text>'
+                f'<rect x="{left + 110}" y="40" width="10" height="10" fill="{C.AGAINST_COLOUR}"/>'
+                f'<text x="{left + 124}" y="49">against the focus</text></g>')
+    x_end = left + slot * n
+    for v in nice_ticks(d0, d1):
+        yy = y(v)
+        body.append(f'<line x1="{left}" x2="{x_end}" y1="{yy:.1f}" y2="{yy:.1f}" '
+                    f'stroke="#e6e6e6"/><text x="{left - 6}" y="{yy + 4:.1f}" '
+                    f'text-anchor="end">{v:g}</text>')
+    for p in C.PROBABILITY_TICKS:
+        v = 10 * math.log10(p / (1 - p))
+        if d0 <= v <= d1:
+            yy = y(v)
+            body.append(f'<line x1="{x_end}" x2="{x_end + 4}" y1="{yy:.1f}" y2="{yy:.1f}" '
+                        f'stroke="#888"/><text x="{x_end + 7}" y="{yy + 4:.1f}">{p:g}</text>')
+    body.append(f'<line x1="{left}" x2="{left}" y1="{top}" y2="{top + plot_h}" stroke="#888"/>'
+                f'<line x1="{x_end}" x2="{x_end}" y1="{top}" y2="{top + plot_h}" stroke="#888"/>')
+    body.append(f'<text transform="translate(14,{top + plot_h / 2:.0f}) rotate(-90)" '
+                f'text-anchor="middle" font-weight="bold">log-odds vs the rest (dB)</text>')
+    body.append(f'<text transform="translate({width - 8:.0f},{top + plot_h / 2:.0f}) rotate(90)" '
+                f'text-anchor="middle" font-weight="bold">P({_t(_short(focus, 30))})</text>')
+    body.append(f'<line x1="{left}" x2="{x_end}" y1="{y(0):.1f}" y2="{y(0):.1f}" stroke="#666" '
+                f'stroke-dasharray="3,3"/>')
+    bar_w = max(4.0, min(28.0, slot * 0.6))
+    every = max(1, math.ceil(12 / slot))
+    for k, r in enumerate(data.itertuples(index=False)):
+        cx = left + slot * (k + 0.5)
+        y_top, y_bot = y(r.top_db), y(r.bottom_db)
+        tip = (f"{r.step}: {r.decibans:+.2f} dB" + (f", {r.verbal}" if r.verbal else "")
+               + f"; P(focus) after = {r.probability:.4g}")
+        body.append(f'<rect class="bl-bar bl-{_t(r.kind)}" x="{cx - bar_w / 2:.1f}" '
+                    f'y="{y_top:.1f}" width="{bar_w:.1f}" height="{max(1.0, y_bot - y_top):.1f}" '
+                    f'fill="{colours[r.kind]}" stroke="#222" stroke-width="0.5">'
+                    f"<title>{_t(tip)}</title></rect>")
+        lines = r.label.split("\n")
+        if slot < 90:
+            lines = [ln for ln in lines if "dB" in ln or "P=" in ln] if slot >= 30 else []
+        lines = [ln for ln in lines if ln]
+        for i, ln in enumerate(reversed(lines)):
+            body.append(f'<text x="{cx:.1f}" y="{y_top - 4 - 11 * i:.1f}" text-anchor="middle" '
+                        f'font-size="10">{_t(ln)}</text>')
+        if k % every == 0 or k == n - 1:
+            ly = top + plot_h + 12
+            body.append(f'<text transform="translate({cx:.1f},{ly:.1f}) rotate(-35)" '
+                        f'text-anchor="end">{_t(_short(r.step, 28))}</text>')
+    return _svg(width, height, body, f"waterfall for {focus}")
+
+
+# --------------------------------------------------------------------------- probability path
+
+
+def path_svg(data: pd.DataFrame, *, subtitle: str = "", plot_width: float = 560) -> str:
+    """Draw :func:`beliefledger.charts.probability_path_data` output as SVG text."""
+    steps = list(dict.fromkeys(data["step"]))
+    hyps = list(dict.fromkeys(data["hypothesis"]))
+    n = len(steps)
+    slot = min(96.0, max(8.0, plot_width / max(n, 1)))
+    left, top, plot_h, label_h, legend_w = 48.0, 40.0, 220.0, 110.0, 230.0
+    x_end = left + slot * n
+    width = x_end + legend_w
+    height = top + plot_h + label_h
+
+    def x(k: int) -> float:
+        return left + slot * (k + 0.5)
+
+    def y(p: float) -> float:
+        return top + plot_h * (1 - p)
+
+    body = _title(8, 18, "Probability of each hypothesis, step by step", subtitle)
+    for v in (0, 0.2, 0.4, 0.6, 0.8, 1.0):
+        body.append(f'<line x1="{left}" x2="{x_end}" y1="{y(v):.1f}" y2="{y(v):.1f}" '
+                    f'stroke="#e6e6e6"/><text x="{left - 6}" y="{y(v) + 4:.1f}" '
+                    f'text-anchor="end">{v:.1f}</text>')
+    body.append(f'<line x1="{left}" x2="{left}" y1="{top}" y2="{top + plot_h}" stroke="#888"/>')
+    every = max(1, math.ceil(12 / slot))
+    for k, s in enumerate(steps):
+        if k % every == 0 or k == n - 1:
+            body.append(f'<text transform="translate({x(k):.1f},{top + plot_h + 12:.1f}) '
+                        f'rotate(-35)" text-anchor="end">{_t(_short(s, 28))}</text>')
+    groups: dict[str, list[tuple]] = {h: [] for h in hyps}
+    for row in zip(data["hypothesis"], data["order"].astype(int), data["probability"],
+                   data["eliminated"], data["eliminated_here"], data["step"], strict=True):
+        groups[row[0]].append(row[1:])
+    for rows in groups.values():
+        rows.sort(key=lambda r: r[0])
+    for i, h in enumerate(hyps):
+        colour = C.OKABE_ITO[i % len(C.OKABE_ITO)]
+        dash = C.DASHES[(i // len(C.OKABE_ITO)) % len(C.DASHES)]
+        dash_attr = "" if dash == [1, 0] else f' stroke-dasharray="{",".join(map(str, dash))}"'
+        rows = groups[h]
+        live = [r for r in rows if not r[2] or r[3]]
+        dead = [r for r in rows if r[2]]
+        pts = " ".join(f"{x(o):.1f},{y(p):.1f}" for o, p, *_ in live)
+        body.append(f'<g class="bl-path" data-hypothesis="{_t(h)}"><title>{_t(h)}</title>'
+                    f'<polyline points="{pts}" fill="none" stroke="{colour}" stroke-width="2"'
+                    f"{dash_attr}/>")
+        if slot >= 14:
+            for o, p, _e, _eh, s in live:
+                body.append(f'<circle cx="{x(o):.1f}" cy="{y(p):.1f}" r="2.5" '
+                            f'fill="{colour}"><title>{_t(h)} after {_t(s)}: {p:.4f}</title>'
+                            "</circle>")
+        if len(dead) > 1:
+            dpts = " ".join(f"{x(r[0]):.1f},{y(0):.1f}" for r in dead)
+            body.append(f'<polyline points="{dpts}" fill="none" stroke="{C.NEUTRAL_COLOUR}" '
+                        f'stroke-width="1.5" stroke-dasharray="2,3"/>')
+        for o in [r[0] for r in rows if r[3]]:
+            cx, cy = x(o), y(0)
+            body.append(f'<path class="bl-eliminated" d="M{cx - 5:.1f},{cy - 5:.1f}L{cx + 5:.1f},'
+                        f'{cy + 5:.1f}M{cx - 5:.1f},{cy + 5:.1f}L{cx + 5:.1f},{cy - 5:.1f}" '
+                        f'stroke="{colour}" stroke-width="2.5"/><text x="{cx + 8:.1f}" '
+                        f'y="{cy - 8:.1f}" font-size="10">eliminated</text>')
+        body.append("</g>")
+        ly = top + 14 * i
+        body.append(f'<line x1="{x_end + 16}" x2="{x_end + 36}" y1="{ly:.1f}" y2="{ly:.1f}" '
+                    f'stroke="{colour}" stroke-width="3"{dash_attr}/><text x="{x_end + 42}" '
+                    f'y="{ly + 4:.1f}">{_t(_short(h, 30))}</text>')
+    return _svg(width, max(height, top + 14 * len(hyps) + 10), body, "probability path")
+
+
+# --------------------------------------------------------------------------- prior vs posterior
+
+_SHAPES = {
+    "diamond": "M0,-5L5,0L0,5L-5,0Z", "triangle-up": "M0,-5L5,4L-5,4Z",
+    "square": "M-4,-4L4,-4L4,4L-4,4Z", "cross": "M-5,-1.5H-1.5V-5H1.5V-1.5H5V1.5H1.5V5H-1.5V1.5H-5Z",
+    "triangle-down": "M0,5L5,-4L-5,-4Z", "circle": "M-4,0A4,4 0 1,0 4,0A4,4 0 1,0 -4,0",
+}
+
+
+def prior_posterior_svg(data: pd.DataFrame, *, map_hypothesis: str, subtitle: str = "") -> str:
+    """Draw :func:`beliefledger.charts.prior_posterior_data` output as SVG text."""
+    hyps = list(dict.fromkeys(data["hypothesis"]))
+    scen = [s for s in dict.fromkeys(data["series"]) if s.startswith("scenario: ")]
+    left, top, plot_w, row_h = 200.0, 62.0, 300.0, 26.0
+    width = left + plot_w + 90
+    height = top + row_h * len(hyps) + 40 + (18 * len(scen) + 10 if scen else 0)
+    by = {(r.hypothesis, r.series): r for r in data.itertuples(index=False)}
+
+    def x(p: float) -> float:
+        return left + plot_w * p
+
+    body = _title(8, 18, f"Prior and posterior (MAP: '{_short(map_hypothesis, 50)}')", subtitle)
+    body.append(f'<rect x="{left}" y="40" width="10" height="10" fill="{C.PRIOR_COLOUR}"/>'
+                f'<text x="{left + 14}" y="49">prior</text><rect x="{left + 60}" y="40" '
+                f'width="10" height="10" fill="{C.SUPPORT_COLOUR}"/>'
+                f'<text x="{left + 74}" y="49">posterior</text>')
+    bottom = top + row_h * len(hyps)
+    for v in (0, 0.2, 0.4, 0.6, 0.8, 1.0):
+        body.append(f'<line x1="{x(v):.1f}" x2="{x(v):.1f}" y1="{top}" y2="{bottom}" '
+                    f'stroke="#e6e6e6"/><text x="{x(v):.1f}" y="{bottom + 14}" '
+                    f'text-anchor="middle">{v:.1f}</text>')
+    for i, h in enumerate(hyps):
+        y0 = top + row_h * i
+        is_map = h == map_hypothesis
+        weight = ' font-weight="bold"' if is_map else ""
+        body.append(f'<text x="{left - 8}" y="{y0 + row_h / 2 + 4:.1f}" text-anchor="end"'
+                    f"{weight}>{_t(_short(h, 32))}</text>")
+        outline = ' stroke="#000" stroke-width="1.5"' if is_map else ""
+        for j, (series, colour) in enumerate((("prior", C.PRIOR_COLOUR),
+                                              ("posterior", C.SUPPORT_COLOUR))):
+            r = by.get((h, series))
+            if r is None:
+                continue
+            yy = y0 + 4 + 9 * j
+            body.append(f'<rect class="bl-{series}" x="{left}" y="{yy:.1f}" '
+                        f'width="{max(0.5, plot_w * r.probability):.1f}" height="8" '
+                        f'fill="{colour}"{outline}><title>{_t(h)}: {series} '
+                        f"{r.probability:.4f}</title></rect>")
+            if series == "posterior":
+                body.append(f'<text x="{x(r.probability) + 4:.1f}" y="{yy + 8:.1f}" '
+                            f'font-size="10"{weight}>{_t(r.label)}</text>')
+        for k, s in enumerate(scen):
+            r = by.get((h, s))
+            if r is not None:
+                shape = _SHAPES[C.SCENARIO_SHAPES[k % len(C.SCENARIO_SHAPES)]]
+                body.append(f'<path d="{shape}" transform="translate({x(r.probability):.1f},'
+                            f'{y0 + row_h / 2:.1f})" fill="#000" opacity="0.8"><title>'
+                            f"{_t(h)}: posterior under {_t(s[10:])} {r.probability:.4f}"
+                            "</title></path>")
+    for k, s in enumerate(scen):
+        shape = _SHAPES[C.SCENARIO_SHAPES[k % len(C.SCENARIO_SHAPES)]]
+        ly = bottom + 34 + 18 * k
+        body.append(f'<path d="{shape}" transform="translate({left + 6},{ly})" fill="#000"/>'
+                    f'<text x="{left + 16}" y="{ly + 4}">posterior under {_t(s[10:])}</text>')
+    return _svg(width, height, body, "prior and posterior")
+
+
+__all__ = ["waterfall_svg", "path_svg", "prior_posterior_svg", "nice_ticks"]
