@@ -313,7 +313,9 @@ def evpi(case: Case, loss: Any = None, *, kind: str = "loss",
     """
     arr, _, _ = _resolve(case, loss, kind)
     p = _posterior(case, scenario)
-    return _clip_zero(float(np.min(arr @ p) - p @ arr.min(axis=0)), arr)
+    a_now = int(np.argmin(arr @ p))
+    # sum_H P(H) (loss(a_now, H) - min_a loss(a, H)): each term >= 0
+    return float(p @ (arr[a_now] - arr.min(axis=0)))
 
 
 def decision_threshold(case: Case, loss: Any = None, *, kind: str = "loss",
@@ -378,13 +380,9 @@ def decision_threshold(case: Case, loss: Any = None, *, kind: str = "loss",
 # --------------------------------------------------------------------------- value of information
 
 
-def _clip_zero(x: float | np.ndarray, scale_of: np.ndarray | None = None):
+def _clip_zero(x: np.ndarray) -> np.ndarray:
     """Round tiny negative results of a non-negative quantity (rounding noise) to 0."""
-    scale = 1.0 if scale_of is None else max(1.0, float(np.max(np.abs(scale_of))))
-    tol = 1e-12 * scale
-    if isinstance(x, np.ndarray):
-        return np.where((x < 0) & (x > -tol), 0.0, x)
-    return 0.0 if -tol < x < 0 else x
+    return np.where((x < 0) & (x > -1e-12), 0.0, x)
 
 
 def _pending(case: Case, evidence: Any) -> list[str]:
@@ -435,9 +433,13 @@ def _voi(lik: np.ndarray, p: np.ndarray, losses: np.ndarray | None) -> dict[str,
     out = {"pred": pred, "post": post, "info": info,
            "p_map": np.minimum((pred * changes).sum(axis=1), 1.0)}
     if losses is not None:
-        now = float(np.min(losses @ p))
+        a_now = int(np.argmin(losses @ p))
         risk = joint @ losses.T  # (items, states, actions): P(x) * E[loss(a) | e, x]
-        out["evsi"] = _clip_zero(now - risk.min(axis=2).sum(axis=1), losses)
+        # EVSI = sum_x P(x) (E[loss(a_now) | x] - min_a E[loss(a) | x]): the same
+        # quantity as min_a E[loss(a)] - sum_x P(x) min_a E[loss(a) | x] (because
+        # sum_x P(x, H) = P(H)), written so each term is >= 0 and exactly 0 when
+        # a_now stays best after outcome x.
+        out["evsi"] = (risk[:, :, a_now] - risk.min(axis=2)).sum(axis=1)
         out["best_after"] = risk.argmin(axis=2)
     return out
 
