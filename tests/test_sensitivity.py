@@ -257,13 +257,13 @@ def test_uncertainty_input_errors(small_case):
     with pytest.raises(CaseError, match="not a whole number"):
         bl.set_likelihood_uncertainty(small_case, "E1", "H1", counts={"present": 2.5,
                                                                        "absent": 3})
-    with pytest.raises(CaseError, match=r"missing state\(s\) \['absent'\]"):
+    with pytest.raises(CaseError, match=r"missing states \['absent'\]"):
         bl.set_likelihood_uncertainty(small_case, "E1", "H1", counts={"present": 2})
     with pytest.raises(CaseError, match="strictly between 0 and 1"):
         bl.set_likelihood_uncertainty(small_case, "E1", "H1", low=0.8, high=0.95, level=1.5)
     with pytest.raises(CaseError, match="concentration is -3"):
         bl.set_prior_uncertainty(small_case, concentration=-3)
-    with pytest.raises(CaseError, match=r"missing hypothesis\(es\) \['Other'\]"):
+    with pytest.raises(CaseError, match=r"missing hypotheses \['Other'\]"):
         bl.set_prior_uncertainty(small_case, alpha={"H1": 2, "H2": 3})
     with pytest.raises(CaseError, match="no evidence named 'E9'"):
         bl.set_likelihood_uncertainty(small_case, "E9", "H1", concentration=5)
@@ -279,12 +279,16 @@ def test_validator_rejects_raw_sections(small_case):
         e = {"evidence": "E1", "hypothesis": "H1", "kind": "concentration",
              "concentration": 4}
         small_case.set_extra("uncertainty", {"likelihoods": [e, dict(e)]})
+    assert "uncertainty" not in small_case.extras
+    # tied entries must agree; a raw section is accepted and refused when used
+    small_case.set_extra("uncertainty", {"likelihoods": [
+        {"evidence": "E1", "hypothesis": "H1", "kind": "concentration",
+         "concentration": 4, "tie": "t"},
+        {"evidence": "E1", "hypothesis": "H2", "kind": "concentration",
+         "concentration": 4, "tie": "t"}]})
     with pytest.raises(CaseError, match="tied as 't'"):
-        small_case.set_extra("uncertainty", {"likelihoods": [
-            {"evidence": "E1", "hypothesis": "H1", "kind": "concentration",
-             "concentration": 4, "tie": "t"},
-            {"evidence": "E1", "hypothesis": "H2", "kind": "concentration",
-             "concentration": 4, "tie": "t"}]})
+        bl.simulate(small_case, draws=10, seed=1)
+    bl.clear_uncertainty(small_case)
     assert "uncertainty" not in small_case.extras
 
 
@@ -308,14 +312,23 @@ def test_section_round_trip_and_register(small_case, tmp_path):
     assert reg.loc[2, "parameters"] == "alpha high: 6.5, low: 4.5"
 
 
-def test_stale_entry_is_reported_and_clearable(small_case):
+def test_stale_entry_is_reported_and_clearable(small_case, tmp_path):
     bl.set_likelihood_uncertainty(small_case, "E2", "H1", concentration=10)
+    bl.set_likelihood_uncertainty(small_case, "E1", "H2", concentration=10)
     small_case.remove_evidence("E2")
-    with pytest.raises(CaseError, match="names evidence 'E2'.*clear_uncertainty"):
-        bl.simulate(small_case, draws=10, seed=1)
-    bl.clear_uncertainty(small_case, evidence="E2")
-    assert "uncertainty" not in small_case.extras
-    assert bl.simulate(small_case, draws=10, seed=1).inputs == []
+    # a saved file with a stale entry still loads: nothing saved is lost
+    loaded = bl.load_case(small_case.save(tmp_path / "stale.json"))
+    assert loaded.extras == small_case.extras
+    for c in (small_case, loaded):
+        with pytest.raises(CaseError, match="names evidence 'E2'.*clear_uncertainty"):
+            bl.simulate(c, draws=10, seed=1)
+        with pytest.raises(CaseError, match="names evidence 'E2'"):
+            bl.uncertainty_register(c)
+        with pytest.raises(CaseError, match="names evidence 'E2'"):
+            bl.set_prior_uncertainty(c, concentration=5)
+        bl.clear_uncertainty(c, evidence="E2")
+        assert [e["evidence"] for e in c.extras["uncertainty"]["likelihoods"]] == ["E1"]
+        assert bl.simulate(c, draws=10, seed=1).inputs == ["likelihood of 'E1' under 'H2'"]
 
 
 # --- Monte Carlo ------------------------------------------------------------------------

@@ -145,7 +145,36 @@ def _source_dict(value: Any, what: str) -> dict[str, str]:
         raise CaseError(str(exc)) from None
 
 
-def _validate_prior(p: Any, case: Case) -> dict[str, Any]:
+def _name(what: str, value: Any) -> str:
+    if not isinstance(value, str) or not value.strip():
+        raise CaseError(f"{what} must be a non-empty name, got {value!r:.60}")
+    return value
+
+
+def _alpha(what: str, alpha: Any, names: list[str] | None, kind: str,
+           allow_zero: bool) -> dict[str, float]:
+    """Parameters keyed by name; against ``names`` (in their order) when given."""
+    if not isinstance(alpha, Mapping) or not alpha:
+        raise CaseError(f"{what} of kind 'dirichlet' needs 'alpha': an object {kind} -> "
+                        "parameter")
+    if names is not None:
+        missing = [n for n in names if n not in alpha]
+        unknown = [n for n in alpha if n not in names]
+        if missing or unknown:
+            plural = "hypotheses" if kind == "hypothesis" else f"{kind}s"
+            raise CaseError(f"{what}: alpha is missing {plural} {missing} and names unknown "
+                            f"{plural} {unknown}; give one parameter per {kind} (the "
+                            f"{plural} are {names[:12]})")
+        keys = names
+    else:
+        keys = [_name(f"{what}: alpha key", k) for k in alpha]
+    vals = {k: _num(f"{what}: alpha of '{k}'", alpha[k], allow_zero=allow_zero) for k in keys}
+    if sum(vals.values()) <= 0:
+        raise CaseError(f"{what}: every alpha is 0; give at least one positive parameter")
+    return vals
+
+
+def _validate_prior(p: Any, case: Case, strict: bool) -> dict[str, Any]:
     what = "uncertainty section 'prior'"
     if not isinstance(p, Mapping):
         raise CaseError(f"{what} must be an object, got {type(p).__name__}")
@@ -156,18 +185,11 @@ def _validate_prior(p: Any, case: Case) -> dict[str, Any]:
     kind = p.get("kind")
     out: dict[str, Any] = {"kind": kind}
     if kind == "dirichlet":
-        alpha = p.get("alpha")
-        if not isinstance(alpha, Mapping):
-            raise CaseError(f"{what} of kind 'dirichlet' needs 'alpha': an object hypothesis -> "
-                            "parameter")
         names = case.hypothesis_names
-        missing = [h for h in names if h not in alpha]
-        unknown = [h for h in alpha if h not in names]
-        if missing or unknown:
-            raise CaseError(f"{what}: alpha is missing hypothesis(es) {missing} and names unknown "
-                            f"hypothesis(es) {unknown}; give one parameter per hypothesis of the "
-                            "case (re-estimate it after adding, removing or renaming one)")
-        out["alpha"] = {h: _num(f"{what} alpha of '{h}'", alpha[h]) for h in names}
+        alpha = p.get("alpha")
+        matches = isinstance(alpha, Mapping) and set(alpha) == set(names)
+        out["alpha"] = _alpha(what, alpha, names if (strict or matches) else None,
+                              "hypothesis", allow_zero=False)
     elif kind == "concentration":
         out["concentration"] = _num(f"{what} concentration", p.get("concentration"))
     else:
@@ -177,7 +199,7 @@ def _validate_prior(p: Any, case: Case) -> dict[str, Any]:
     return out
 
 
-def _validate_entry(i: int, e: Any, case: Case) -> dict[str, Any]:
+def _validate_entry(i: int, e: Any, case: Case, strict: bool) -> dict[str, Any]:
     what = f"uncertainty entry #{i + 1}"
     if not isinstance(e, Mapping):
         raise CaseError(f"{what} must be an object, got {type(e).__name__}")
@@ -185,38 +207,30 @@ def _validate_entry(i: int, e: Any, case: Case) -> dict[str, Any]:
     if extra:
         raise CaseError(f"{what} has unknown field(s) {sorted(map(str, extra))}; allowed: "
                         f"{sorted(_ENTRY_KEYS)}")
-    ev_name, h = e.get("evidence"), e.get("hypothesis")
-    if ev_name not in case.evidence:
+    ev_name = _name(f"{what} 'evidence'", e.get("evidence"))
+    h = _name(f"{what} 'hypothesis'", e.get("hypothesis"))
+    ev = case.evidence.get(ev_name)
+    if strict and ev is None:
         raise CaseError(f"{what} names evidence {ev_name!r:.60}, which the case does not have "
                         f"(its items are {case.evidence_names[:12]}); remove the entry with "
-                        "bl.clear_uncertainty(case, evidence=...)")
-    if h not in case.hypotheses:
+                        f"bl.clear_uncertainty(case, evidence={ev_name!r:.60})")
+    if strict and h not in case.hypotheses:
         raise CaseError(f"{what} names hypothesis {h!r:.60}, which the case does not have; "
-                        "remove the entry with bl.clear_uncertainty(case, evidence=..., "
-                        "hypothesis=...)")
+                        f"remove the entry with bl.clear_uncertainty(case, evidence="
+                        f"{ev_name!r:.60}, hypothesis={h!r:.60})")
+    known = ev is not None and h in case.hypotheses
     what = f"uncertainty of evidence '{ev_name}' under '{h}'"
-    ev = case.evidence[ev_name]
     kind = e.get("kind")
     out: dict[str, Any] = {"evidence": ev_name, "hypothesis": h, "kind": kind}
     if kind == "dirichlet":
-        if ev.observed_only:
+        if known and ev.observed_only:
             raise CaseError(f"{what}: evidence '{ev_name}' is a likelihood vector (observed only), "
                             "so it has no column to put a Dirichlet on; give a range or a "
                             "concentration instead")
         alpha = e.get("alpha")
-        if not isinstance(alpha, Mapping):
-            raise CaseError(f"{what} of kind 'dirichlet' needs 'alpha': an object state -> "
-                            "parameter")
-        missing = [s for s in ev.states if s not in alpha]
-        unknown = [s for s in alpha if s not in ev.states]
-        if missing or unknown:
-            raise CaseError(f"{what}: alpha is missing state(s) {missing} and names unknown "
-                            f"state(s) {unknown}; the states are {list(ev.states)}")
-        vals = {s: _num(f"{what}: alpha of state '{s}'", alpha[s], allow_zero=True)
-                for s in ev.states}
-        if sum(vals.values()) <= 0:
-            raise CaseError(f"{what}: every alpha is 0; give at least one positive parameter")
-        out["alpha"] = vals
+        matches = known and isinstance(alpha, Mapping) and set(alpha) == set(ev.states)
+        out["alpha"] = _alpha(what, alpha, list(ev.states) if (strict or matches) else None,
+                              "state", allow_zero=True)
     elif kind == "concentration":
         out["concentration"] = _num(f"{what}: concentration", e.get("concentration"))
         fit = e.get("fit")
@@ -228,10 +242,10 @@ def _validate_entry(i: int, e: Any, case: Case) -> dict[str, Any]:
             for k in _FIT_KEYS - {"state"}:
                 if k in fit:
                     f[k] = _num(f"{what}: fit {k}", fit[k], allow_zero=True)
-            if fit.get("state") not in ev.states:
-                raise CaseError(f"{what}: fit state {fit.get('state')!r:.40} is not among the "
+            f["state"] = _name(f"{what}: fit state", fit.get("state"))
+            if (strict or known) and f["state"] not in ev.states:
+                raise CaseError(f"{what}: fit state {f['state']!r:.40} is not among the "
                                 f"states {list(ev.states)}")
-            f["state"] = fit["state"]
             out["fit"] = {k: f[k] for k in sorted(f)}
     else:
         raise CaseError(f"{what} has kind {kind!r}; use one of {list(KINDS)}")
@@ -244,11 +258,17 @@ def _validate_entry(i: int, e: Any, case: Case) -> dict[str, Any]:
     return out
 
 
-def validate_uncertainty(value: Any, case: Case) -> dict[str, Any]:
+def validate_uncertainty(value: Any, case: Case, *, strict: bool = False) -> dict[str, Any]:
     """Validate and normalise the ``uncertainty`` section of ``case.extras``.
 
-    Raises :class:`~beliefledger.errors.CaseError` naming the field; runs on
-    ``case.set_extra("uncertainty", ...)`` and when a case file is loaded.
+    Runs on ``case.set_extra("uncertainty", ...)`` and when a case file is
+    loaded; raises :class:`~beliefledger.errors.CaseError` naming the field.
+    Structure, kinds and numbers are always checked. Entries that name an
+    item, hypothesis or state the case no longer has (it was removed or
+    renamed after the entry was set) are kept, so a saved file still loads;
+    with ``strict=True`` (used by the helpers and before every analysis)
+    they are refused with the call that removes them, and tied entries must
+    agree.
     """
     if not isinstance(value, Mapping):
         raise CaseError(f"uncertainty section must be an object, got {type(value).__name__}")
@@ -258,21 +278,22 @@ def validate_uncertainty(value: Any, case: Case) -> dict[str, Any]:
                         "allowed: ['likelihoods', 'prior']")
     out: dict[str, Any] = {}
     if value.get("prior") is not None:
-        out["prior"] = _validate_prior(value["prior"], case)
+        out["prior"] = _validate_prior(value["prior"], case, strict)
     entries = value.get("likelihoods", [])
     if not isinstance(entries, list):
         raise CaseError("uncertainty section 'likelihoods' must be a list of entries")
     seen: dict[tuple[str, str], int] = {}
     checked = []
     for i, e in enumerate(entries):
-        ent = _validate_entry(i, e, case)
+        ent = _validate_entry(i, e, case, strict)
         key = (ent["evidence"], ent["hypothesis"])
         if key in seen:
             raise CaseError(f"uncertainty of evidence '{key[0]}' under '{key[1]}' is given twice "
                             f"(entries #{seen[key] + 1} and #{i + 1}); keep one")
         seen[key] = i
         checked.append(ent)
-    _check_ties(checked, case)
+    if strict:
+        _check_ties(checked, case)
     out["likelihoods"] = checked
     return out
 
@@ -307,8 +328,10 @@ def _section(case: Case) -> dict[str, Any]:
     return copy.deepcopy(sec) if sec else {"likelihoods": []}
 
 
-def _store(case: Case, sec: dict[str, Any]) -> None:
+def _store(case: Case, sec: dict[str, Any], *, strict: bool = True) -> None:
     empty = not sec.get("likelihoods") and sec.get("prior") is None
+    if not empty and strict:
+        validate_uncertainty(sec, case, strict=True)
     case.set_extra(SECTION, None if empty else sec)
 
 
@@ -475,7 +498,8 @@ def clear_uncertainty(case: Case, *, prior: bool | None = None, evidence: str | 
                       hypothesis: str | None = None) -> None:
     """Remove uncertainty: with no arguments, all of it; ``prior=True`` the priors';
     ``evidence=`` (and optionally ``hypothesis=``) that item's entries. Names of
-    items the case no longer has are accepted, so stale entries can be removed."""
+    items the case no longer has are accepted, so stale entries can be removed;
+    nothing else is dropped."""
     if prior is None and evidence is None and hypothesis is None:
         if SECTION in case.extras:
             case.set_extra(SECTION, None)
@@ -490,13 +514,7 @@ def clear_uncertainty(case: Case, *, prior: bool | None = None, evidence: str | 
         sec["likelihoods"] = [e for e in sec.get("likelihoods", [])
                               if not (e["evidence"] == evidence and
                                       (hypothesis is None or e["hypothesis"] == hypothesis))]
-    # stale entries (an item since removed) would fail validation: drop those too
-    sec["likelihoods"] = [e for e in sec.get("likelihoods", [])
-                          if e["evidence"] in case.evidence and e["hypothesis"] in case.hypotheses]
-    if "prior" in sec and sec["prior"]["kind"] == "dirichlet" and \
-            set(sec["prior"]["alpha"]) != set(case.hypothesis_names):
-        sec.pop("prior")
-    _store(case, sec)
+    _store(case, sec, strict=False)  # other stale entries stay, reported when used
 
 
 def current_uncertainty(case: Case) -> dict[str, Any]:
@@ -508,7 +526,7 @@ def current_uncertainty(case: Case) -> dict[str, Any]:
     sec = case.extras.get(SECTION)
     if not sec:
         return {"likelihoods": []}
-    return validate_uncertainty(sec, case)
+    return validate_uncertainty(sec, case, strict=True)
 
 
 def _params_text(kind: str, e: Mapping[str, Any]) -> str:
