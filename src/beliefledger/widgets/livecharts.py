@@ -61,12 +61,12 @@ def nice_ticks(lo: float, hi: float, target: int = 6) -> list[float]:
 
 
 def waterfall_svg(data: pd.DataFrame, *, focus: str, subtitle: str = "",
-                  plot_width: float = 700) -> str:
+                  plot_width: float = 800) -> str:
     """Draw :func:`beliefledger.charts.waterfall_data` output as SVG text."""
     colours = {"prior": C.ENDPOINT_COLOUR, "posterior": C.ENDPOINT_COLOUR,
                "for": C.SUPPORT_COLOUR, "against": C.AGAINST_COLOUR, "neutral": C.NEUTRAL_COLOUR}
     n = len(data)
-    slot = min(96.0, max(14.0, plot_width / max(n, 1)))
+    slot = min(112.0, max(14.0, plot_width / max(n, 1)))
     left, right, top, plot_h = 64.0, 70.0, 74.0, 230.0
     label_h = 120.0
     width = left + slot * n + right
@@ -115,7 +115,7 @@ def waterfall_svg(data: pd.DataFrame, *, focus: str, subtitle: str = "",
                     f'fill="{colours[r.kind]}" stroke="#222" stroke-width="0.5">'
                     f"<title>{_t(tip)}</title></rect>")
         lines = r.label.split("\n")
-        if slot < 90:
+        if slot < 100:
             lines = [ln for ln in lines if "dB" in ln or "P=" in ln] if slot >= 30 else []
         lines = [ln for ln in lines if ln]
         for i, ln in enumerate(reversed(lines)):
