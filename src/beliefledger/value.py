@@ -85,7 +85,9 @@ def _rows_from(table: Any) -> dict[Any, Any]:
         if not table.index.is_unique:
             dup = sorted({str(a) for a in table.index[table.index.duplicated()]})
             raise CaseError(f"the loss table lists action(s) {dup} twice; each action is one row")
-        return {a: {c: table.loc[a, c] for c in table.columns} for a in table.index}
+        cols = list(table.columns)
+        vals = table.to_numpy(dtype=object)
+        return {a: dict(zip(cols, vals[i], strict=True)) for i, a in enumerate(table.index)}
     if isinstance(table, Mapping):
         return {a: (r.to_dict() if isinstance(r, pd.Series) else r) for a, r in table.items()}
     raise CaseTypeError("a loss table must be a DataFrame (actions as rows, one column per "
@@ -404,7 +406,11 @@ def _pending(case: Case, evidence: Any) -> list[str]:
 def _stack(case: Case, names: list[str]) -> np.ndarray:
     """P(state | H, other observed evidence) for each item, padded with zero rows:
     shape (items, most states, hypotheses)."""
-    tabs = [case._predictive_array(n) for n in names]
+    evs = case._evidence
+    if not case._groups and all(e.given is None for e in evs.values()):
+        tabs = [evs[n].table for n in names]  # no stated dependence: each item's own table
+    else:
+        tabs = [case._predictive_array(n) for n in names]
     n_h = len(case.hypothesis_names)
     s_max = max((t.shape[0] for t in tabs), default=1)
     out = np.zeros((len(tabs), s_max, n_h))
@@ -580,34 +586,38 @@ def rank_next_evidence(case: Case, loss: Any = None, *, kind: str = "loss",
     now_action = None
     if use_loss:
         now_action = actions[int(np.argmin(losses @ p))]
-    rows = []
-    for i, n in enumerate(names):
-        ev = case.evidence[n]
-        ns = len(ev.states)
-        pred = res["pred"][i, :ns]
-        k = int(np.argmax(pred))
-        row: dict[str, Any] = {
-            "states": ns,
-            "expected_entropy_reduction": float(res["info"][i]),
-            "p_map_changes": float(res["p_map"][i]),
-            "most_likely_state": ev.states[k],
-            "p_most_likely": float(pred[k]),
-        }
+    evs = case.evidence
+    n_states = np.array([len(evs[n].states) for n in names])
+    # padded states have probability 0, so argmax finds a real state
+    k_best = res["pred"].argmax(axis=1)
+    columns: dict[str, Any] = {
+        "states": n_states,
+        "expected_entropy_reduction": res["info"],
+        "p_map_changes": res["p_map"],
+        "most_likely_state": [evs[n].states[k] for n, k in zip(names, k_best, strict=True)],
+        "p_most_likely": res["pred"][np.arange(len(names)), k_best],
+    }
+    if use_loss:
+        columns["evsi"] = res["evsi"]
+        columns["cost"] = costs
+        columns["net_value"] = res["evsi"] - costs
+    reasons = []
+    for i in range(len(names)):
+        row = {c: v[i] for c, v in columns.items()}
+        switch = []
         if use_loss:
-            row["evsi"] = float(res["evsi"][i])
-            row["cost"] = float(costs[i])
-            row["net_value"] = float(res["evsi"][i] - costs[i])
-            switch = sorted({actions[a] for a, q in zip(res["best_after"][i, :ns], pred,
-                                                        strict=True) if q > 0} - {now_action})
-        else:
-            switch = []
-        row["reason"] = _reason(row, h_now, cur, now_action, switch)
-        rows.append(row)
-    frame = pd.DataFrame(rows, index=pd.Index(names, name="evidence"))
-    order = np.argsort(-frame[by].to_numpy(), kind="stable")
-    frame = frame.iloc[order]
-    frame.insert(0, "rank", np.arange(1, len(frame) + 1))
-    return frame[cols]
+            ns = n_states[i]
+            switch = sorted({actions[a] for a, q in zip(res["best_after"][i, :ns],
+                                                        res["pred"][i, :ns], strict=True)
+                             if q > 0} - {now_action})
+        reasons.append(_reason(row, h_now, cur, now_action, switch))
+    columns["reason"] = reasons
+    order = np.argsort(-np.asarray(columns[by], dtype=float), kind="stable")
+    data = {"rank": np.arange(1, len(names) + 1)}
+    for c in cols[1:]:
+        v = columns[c]
+        data[c] = v[order] if isinstance(v, np.ndarray) else [v[i] for i in order]
+    return pd.DataFrame(data, index=pd.Index([names[i] for i in order], name="evidence"))
 
 
 def _reason(row: dict[str, Any], h_now: float, cur: str, action: str | None,
