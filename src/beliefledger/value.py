@@ -330,9 +330,22 @@ def decision_threshold(case: Case, loss: Any = None, *, kind: str = "loss",
     posterior shares; prior shares if the posterior leaves them nothing,
     equal shares if those are zero too). Expected losses are straight lines
     in t, so the best action is constant on intervals; each row is one
-    interval: ``from_probability``, ``to_probability``, ``action`` and
-    ``current`` (the interval holding today's posterior). The thresholds are
-    the interval edges inside (0, 1).
+    interval: ``hypothesis``, ``from_probability``, ``to_probability``,
+    ``action`` and ``current`` (the interval holding today's posterior). The
+    thresholds are the interval edges inside (0, 1).
+
+    Examples
+    --------
+    >>> import beliefledger as bl
+    >>> case = bl.Case("Tank alarm", hypotheses={"leak": 0.2, "no leak": 0.8},
+    ...                exhaustive=True)
+    >>> bl.set_loss_table(case, {"drain tank": {"leak": 1, "no leak": 5},
+    ...                          "carry on": {"leak": 21, "no leak": 0}})
+    >>> t = bl.decision_threshold(case, hypothesis="leak")
+    >>> [(round(a, 6), act) for a, act in zip(t["from_probability"], t["action"])]
+    [(0.0, 'carry on'), (0.2, 'drain tank')]
+
+    (carry on costs 21t, draining 5 - 4t: equal at t = 0.2.)
     """
     arr, actions, _ = _resolve(case, loss, kind)
     hyps = case.hypothesis_names
@@ -371,11 +384,12 @@ def decision_threshold(case: Case, loss: Any = None, *, kind: str = "loss",
         else:
             segs.append([lo, hi, best])
     now = float(p[j])
-    rows = [{"from_probability": lo, "to_probability": hi, "action": act,
+    rows = [{"hypothesis": focus, "from_probability": lo, "to_probability": hi, "action": act,
              "current": bool(lo <= now <= hi and (now < hi or hi == 1.0))}
             for lo, hi, act in segs]
-    out = pd.DataFrame(rows, columns=["from_probability", "to_probability", "action", "current"])
-    out.index.name = f"P({focus})"
+    out = pd.DataFrame(rows, columns=["hypothesis", "from_probability", "to_probability",
+                                      "action", "current"])
+    out.index.name = "interval"
     return out
 
 
