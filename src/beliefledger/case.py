@@ -1041,6 +1041,10 @@ class Case:
         if p >= 1 and self._hyps:
             raise CaseError(f"prior of new hypothesis '{nm}' is {p:g}; it must be below 1 "
                             "so the others keep some belief")
+        for arg, value in (("likelihoods", likelihoods), ("scenario_priors", scenario_priors)):
+            if value is not None and not isinstance(value, Mapping):
+                raise CaseTypeError(f"{arg} of new hypothesis '{nm}' must be a dict (evidence or "
+                                    f"scenario name -> value), got {type(value).__name__}")
         likelihoods = dict(likelihoods or {})
         missing = [e for e in self._evidence if e not in likelihoods]
         if missing:
@@ -1460,9 +1464,9 @@ class Case:
         if nm in self._groups:
             raise CaseError(f"joint group '{nm}' already exists; remove it first or choose "
                             "another name")
-        if isinstance(members, str):
+        if isinstance(members, str) or not isinstance(members, Iterable):
             raise CaseTypeError(f"members of joint group '{nm}' must be a list of evidence "
-                                "names, not one string")
+                                f"names, got {type(members).__name__} {members!r:.60}")
         mem = tuple(self._get_ev(m).name for m in members)
         given = [x is not None for x in (covariance, correlation, joint)]
         if sum(given) != 1:
