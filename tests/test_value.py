@@ -369,3 +369,10 @@ def test_missing_table_and_bad_stored_section():
     data["case"]["extras"] = {"decision": {"kind": "loss", "table": {"a1": {"A": 1, "B": 2}}}}
     with pytest.raises(CaseFileError, match=r"under hypothesis\(es\) \['C'\]"):
         loads(json.dumps(data))
+
+
+def test_docstring_examples_run():
+    import doctest
+
+    result = doctest.testmod(value, optionflags=doctest.NORMALIZE_WHITESPACE)
+    assert result.attempted >= 4 and result.failed == 0
