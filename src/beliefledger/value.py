@@ -350,10 +350,7 @@ def decision_threshold(case: Case, loss: Any = None, *, kind: str = "loss",
     arr, actions, _ = _resolve(case, loss, kind)
     hyps = case.hypothesis_names
     p = _posterior(case, scenario)
-    from .engine import update
-
-    focus = update(case, scenario=scenario, diagnose_findings=False).map_hypothesis \
-        if hypothesis is None else hypothesis
+    focus = hyps[int(np.argmax(p))] if hypothesis is None else hypothesis  # MAP as the engine
     if focus not in hyps:
         raise CaseError(f"no hypothesis named {focus!r}; the hypotheses are {hyps}")
     j = hyps.index(focus)
