@@ -186,27 +186,42 @@ def _render_any(obj: Any) -> str:
     return f"<pre>{esc(repr(obj))}</pre>"
 
 
-def _optional(modname: str, fname: str):
-    if importlib.util.find_spec(f"beliefledger.{modname}") is None:
-        return None
-    try:
-        mod = importlib.import_module(f"beliefledger.{modname}")
-    except ImportError:
-        return None
-    return getattr(mod, fname, None)
+def _optional(modnames: tuple[str, ...], fname: str):
+    """The function ``fname`` from the first of ``modnames`` that has it, or None."""
+    for modname in modnames:
+        if importlib.util.find_spec(f"beliefledger.{modname}") is None:
+            continue
+        try:
+            mod = importlib.import_module(f"beliefledger.{modname}")
+        except ImportError:
+            continue
+        fn = getattr(mod, fname, None)
+        if callable(fn):
+            return fn
+    return None
+
+
+SIMULATION_DRAWS = 20_000
+SEED = 20261201
+"""Fixed seed of any Monte Carlo run in a record, so two seals agree."""
 
 
 def _call_seeded(fn, *args):
-    """Call an analysis with a fixed seed where it takes one, so two seals agree."""
+    """Call an analysis with a fixed seed (and a modest draw count) where it takes them,
+    so two seals of the same inputs agree."""
     try:
         params = inspect.signature(fn).parameters
     except (TypeError, ValueError):
         params = {}
-    kwargs = {}
+    kwargs: dict[str, Any] = {}
     for name in ("seed", "random_state", "rng"):
         if name in params:
-            kwargs[name] = 20261201
+            kwargs[name] = SEED
             break
+    if "draws" in params:
+        kwargs["draws"] = SIMULATION_DRAWS
+    if "progress" in params:
+        kwargs["progress"] = False
     return fn(*args, **kwargs)
 
 
@@ -216,18 +231,20 @@ def analyses(case) -> list[tuple[str, str]]:
     case lacks is left out, and a part that fails says so instead of stopping the seal."""
     plans = []
     if case.scenarios:
-        plans.append(("Robustness across prior scenarios", "sensitivity", "robustness"))
+        plans.append(("Robustness across prior scenarios", ("sensitivity",), "robustness"))
     if "uncertainty" in case.extras:
-        plans.append(("Uncertainty register", "sensitivity", "uncertainty_register"))
-        plans.append(("Monte Carlo over uncertain inputs", "sensitivity", "simulate"))
+        plans.append(("Uncertainty register", ("uncertainty", "sensitivity"),
+                      "uncertainty_register"))
+        plans.append((f"Monte Carlo over uncertain inputs ({SIMULATION_DRAWS:,} draws, "
+                      f"seed {SEED})", ("uncertainty", "sensitivity"), "simulate"))
     if any(not ev.is_observed for ev in case.evidence.values()):
-        plans.append(("Value of information: which evidence to examine next", "value",
+        plans.append(("Value of information: which evidence to examine next", ("value",),
                       "rank_next_evidence"))
     if "decision" in case.extras:
-        plans.append(("Decision summary (expected loss)", "value", "decision_summary"))
+        plans.append(("Decision summary (expected loss)", ("value",), "decision_summary"))
     out = []
-    for heading, mod, fname in plans:
-        fn = _optional(mod, fname)
+    for heading, mods, fname in plans:
+        fn = _optional(mods, fname)
         if fn is None:
             continue
         try:
