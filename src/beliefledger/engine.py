@@ -154,31 +154,46 @@ def update(case: Case, *, scenario: str | None = None, diagnose_findings: bool =
     steps_in = case.observed_steps()
     names = [s[0] for s in steps_in]
     members = {s[0]: tuple(s[1]) for s in steps_in}
+    n_h = len(hyps)
+    # One buffer: row 0 the log prior, then ln P(observed | H) per step, computed in
+    # place; the running sum down the rows is the unnormalised log posterior.
+    buf = np.empty((len(steps_in) + 1, n_h))
+    buf[0] = log_prior
+    loglik = buf[1:]
     if steps_in:
-        lik = np.vstack([s[2] for s in steps_in])
-    else:
-        lik = np.empty((0, len(hyps)))
-    loglik = log_of(lik)
-    cum = np.vstack([log_prior[None, :], log_prior[None, :] + np.cumsum(loglik, axis=0)])
-    z = log_normalizer(cum, axis=1)
+        np.stack([s[2] for s in steps_in], out=loglik)
+        with np.errstate(divide="ignore"):
+            np.log(loglik, out=loglik)
+    cum = np.cumsum(buf, axis=0)
+    # log-sum-exp per row, fused with the probabilities (one exp per entry). Once a
+    # row is all -inf every later row is too: the update stops before that step.
+    top = cum.max(axis=1)
     stop = None
     n_ok = len(cum)
     if total > 0:
-        dead = np.flatnonzero(~np.isfinite(z))
+        dead = np.flatnonzero(np.isneginf(top))
         if dead.size:
             n_ok = int(dead[0])
             stop = names[n_ok - 1]
+        live = cum[:n_ok]
+        probs = np.subtract(live, top[:n_ok, None])
+        np.exp(probs, out=probs)
+        sums = probs.sum(axis=1)
+        probs /= sums[:, None]
+        z = top[:n_ok] + np.log(sums)
+        log_steps = np.subtract(live, z[:, None])
+        probs[0] = p / total  # the prior row exactly as entered, not via exp(log)
     else:
         n_ok = 1  # no usable prior: report the zero row, apply nothing
-    log_steps = cum[:n_ok] - z[:n_ok, None] if total > 0 else cum[:1]
-    with np.errstate(invalid="ignore"):
-        probs = np.exp(log_steps)
-    if total > 0:
-        probs[0] = p / total  # the prior row exactly as entered, not via exp(log)
+        log_steps = cum[:1]
+        probs = np.zeros((1, n_h))
+        z = np.full(1, -np.inf)
     step_index = pd.Index([PRIOR_STEP, *names[: n_ok - 1]], name="step")
-    steps = pd.DataFrame(probs, index=step_index, columns=pd.Index(hyps, name="hypothesis"))
+    # the arrays are fresh and not shared, so the frames may hold them without a copy
+    steps = pd.DataFrame(probs, index=step_index, columns=pd.Index(hyps, name="hypothesis"),
+                         copy=False)
     ll = pd.DataFrame(loglik[: n_ok - 1], index=step_index[1:],
-                      columns=pd.Index(hyps, name="hypothesis"))
+                      columns=pd.Index(hyps, name="hypothesis"), copy=False)
     ev_prob = pd.Series(np.exp(np.diff(z[:n_ok])), index=step_index[1:],
                         name="evidence_probability", dtype=float)
     map_h = hyps[int(np.argmax(probs[-1]))] if total > 0 else hyps[0]
