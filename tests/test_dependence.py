@@ -45,6 +45,8 @@ def test_covariance_group_worked_by_hand():
     assert tr.posterior["weep"] == pytest.approx(0.231 / 0.343, rel=1e-12)
     assert tr.step_names == ["prior", "same sample"]
     assert tr.members["same sample"] == ("dye test", "sniffer")
+    step = tr.to_dict()["steps"][1]  # what a record shows: one step, its members listed
+    assert step["step"] == "same sample" and step["members"] == ["dye test", "sniffer"]
     # the other cells keep each test's own table as its margin:
     # P(pos, neg | weep) = 0.9*0.2 - 0.05 = 0.13; P(neg, pos | weep) = 0.1*0.8 - 0.05 = 0.03;
     # P(neg, neg | weep) = 0.1*0.2 + 0.05 = 0.07
