@@ -450,3 +450,81 @@ def test_simulate_under_a_scenario(demo_case):
     assert res.base_posterior.to_numpy() == pytest.approx(
         bl.update(demo_case, scenario="uniform").posterior.to_numpy())
     assert demo_case.active_scenario == "base"
+
+
+# --- the exact-sum sampler (simulate's default for independent entries) -------------
+
+@pytest.mark.parametrize("a, b", [(8.0, 12.0), (0.5, 30.0), (2.0, 1e4), (40.0, 60.0)])
+def test_log_beta_sum_single_term_matches_scipy(a, b):
+    # scipy.stats.beta as the reference: S = log B, so F_S(x) = I_{e^x}(a, b)
+    from beliefledger.uncertainty import LogBetaSum
+
+    s = LogBetaSum(np.array([a]), np.array([b]))
+    assert s.ok, s.reason
+    assert np.max(np.abs(stats.beta.cdf(np.exp(s.x), a, b) - s.cdf)) < 1e-10
+    u = np.random.default_rng(4).random(50_000)
+    assert np.max(np.abs(stats.beta.cdf(np.exp(s.draw(u)), a, b) - u)) < 2e-6
+
+
+def test_log_beta_sum_two_terms_matches_quadrature():
+    # reference: the convolution F_S(x) = int F_1(x - y) f_2(y) dy by scipy quadrature,
+    # with f_2 the density of log B_2 (B_2 ~ Beta(a2, b2))
+    from scipy import integrate
+
+    from beliefledger.uncertainty import LogBetaSum
+
+    (a1, b1), (a2, b2) = (6.0, 3.0), (2.5, 9.0)
+    s = LogBetaSum(np.array([a1, a2]), np.array([b1, b2]))
+    assert s.ok, s.reason
+
+    def exact(x):
+        def f(y):
+            return stats.beta.cdf(np.exp(x - y), a1, b1) * stats.beta.pdf(np.exp(y), a2,
+                                                                          b2) * np.exp(y)
+        return integrate.quad(f, -60, 0, epsabs=1e-14, epsrel=1e-12, limit=800, points=[x])[0]
+
+    for x in (-4.0, -2.5, -1.8, -1.0, -0.5):  # between grid points (linear interpolation)
+        assert np.interp(x, s.x, s.cdf) == pytest.approx(exact(x), abs=5e-8)
+    for i in np.linspace(0, len(s.x) - 1, 7).astype(int)[1:-1]:  # on the grid
+        assert s.cdf[i] == pytest.approx(exact(s.x[i]), abs=1e-11)
+
+
+def test_log_beta_sum_refuses_what_it_cannot_tabulate():
+    from beliefledger.uncertainty import LogBetaSum
+
+    s = LogBetaSum(np.array([1.0]), np.array([1.0]))  # density with a jump at 0
+    assert not s.ok and "characteristic function" in s.reason
+
+
+def random_uncertain_case(seed: int, n_hyp: int = 5, n_ev: int = 8) -> bl.Case:
+    """Random invented case, a concentration on every observed column."""
+    r = np.random.default_rng(seed)
+    hyps = [f"H{i}" for i in range(n_hyp)]
+    case = bl.Case("random", hypotheses=dict(zip(hyps, r.dirichlet(np.full(n_hyp, 3.0)),
+                                                 strict=True)), normalize=True)
+    for e in range(n_ev):
+        cols = np.clip(r.dirichlet([2.0, 2.0, 2.0], size=n_hyp), 0.02, None)
+        cols /= cols.sum(axis=1, keepdims=True)
+        case.add_evidence(f"E{e}", states=["x", "y", "z"],
+                          likelihoods={h: list(cols[j]) for j, h in enumerate(hyps)},
+                          observed="xyz"[e % 3])
+        for j, h in enumerate(hyps):
+            bl.set_likelihood_uncertainty(case, f"E{e}", h, concentration=float(5 + 7 * j))
+    bl.set_prior_uncertainty(case, concentration=15.0)
+    return case
+
+
+def test_simulate_sum_and_direct_agree():
+    # Same distribution two ways: two-sample Kolmogorov-Smirnov on every
+    # hypothesis' posterior (scipy.stats.ks_2samp), seeds fixed.
+    case = random_uncertain_case(21)
+    auto = bl.simulate(case, draws=30_000, seed=1, progress=False)
+    direct = bl.simulate(case, draws=30_000, seed=2, progress=False, method="direct")
+    assert set(auto.methods.values()) == {"sum"}
+    assert set(direct.methods.values()) == {"direct"}
+    for j in range(5):
+        assert stats.ks_2samp(auto.samples[:, j], direct.samples[:, j]).pvalue > 1e-4
+    ma, md = auto.map_probability, direct.map_probability
+    assert np.all(np.abs(ma - md) < 2 * dkw(30_000))
+    with pytest.raises(CaseError, match="method 'fast' is not known"):
+        bl.simulate(case, draws=10, method="fast")
