@@ -8,6 +8,7 @@ these tests fast; tests/test_record_seal.py runs real kernels.
 from __future__ import annotations
 
 import copy
+import importlib.util
 import json
 import re
 from html.parser import HTMLParser
@@ -468,3 +469,34 @@ def test_inline_svg_keeps_case_sensitive_attributes_and_drops_scripts():
     assert 'viewBox="0 0 10 10"' in out
     assert "script" not in out and "onload" not in out and "example.com" not in out
     assert 'aria-label="test chart"' in out
+
+
+def test_a_plain_case_gets_the_general_caution_only(no_charts):
+    case = bl.Case("Printer jam", hypotheses={"worn roller": 0.6, "Other cause": 0.4})
+    rec = build_record(executed_notebook(case), notebook_name="t.ipynb", sealed_at=SEALED_AT)
+    text = json.dumps(rec)
+    assert "does not replace it" in text
+    assert "licensed professionals prevail" not in text
+    assert "No evidence items." in text
+    assert verify_notebook(rec, meta_of(rec)).ok
+
+
+def test_analyses_are_included_when_the_case_has_their_inputs(record):
+    text = json.dumps(record)
+    if importlib.util.find_spec("beliefledger.sensitivity"):
+        assert "Robustness across prior scenarios" in text
+    if importlib.util.find_spec("beliefledger.value"):
+        assert "Value of information: which evidence to examine next" in text
+        assert "suction pressure trend" in text
+
+
+def test_a_failing_analysis_is_noted_not_fatal(monkeypatch, no_charts):
+    from beliefledger.record import sections
+
+    def boom(case):
+        raise RuntimeError("solver diverged")
+
+    monkeypatch.setattr(sections, "_optional", lambda mods, fname: boom)
+    rec = build_record(executed_notebook(bl.example_case()), notebook_name="t.ipynb",
+                       sealed_at=SEALED_AT)
+    assert "Not computed: RuntimeError: solver diverged" in json.dumps(rec)
