@@ -332,7 +332,8 @@ def _brute_force(case):
 
     p_e = sum(v for c, v in joint.items() if match(c, obs))
     prior = case.priors.to_numpy()
-    post = prior * p_e / np.sum(prior * p_e)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        post = prior * p_e / np.sum(prior * p_e)
     pred = {}
     for n in names:
         if n in obs:
@@ -340,7 +341,8 @@ def _brute_force(case):
         rows = []
         for k in range(len(ev[n].states)):
             rows.append(sum(v for c, v in joint.items() if match(c, {**obs, n: k})))
-        pred[n] = np.vstack(rows) / p_e
+        with np.errstate(divide="ignore", invalid="ignore"):
+            pred[n] = np.vstack(rows) / p_e
     return post, pred, p_e
 
 
@@ -360,6 +362,34 @@ def test_dependent_update_matches_brute_force_enumeration(seed):
     for n, ref in pred.items():
         np.testing.assert_allclose(case.predictive_likelihoods(n).to_numpy(), ref, rtol=1e-9,
                                    atol=1e-12)
+    assert dumps(loads(dumps(case))) == dumps(case)
+
+
+@given(seed=st.integers(0, 2**32 - 1), frac=st.floats(0, 1), obs=st.integers(0, 7))
+def test_covariance_group_matches_brute_force(seed, frac, obs):
+    rng = np.random.default_rng(seed)
+    hyps = ["H0", "H1", "H2"]
+    case = bl.Case("cov", hypotheses=dict(zip(hyps, rng.dirichlet(np.ones(3)).tolist(),
+                                              strict=True)), normalize=True, exhaustive=True)
+    for n in ("a", "b", "c"):
+        case.add_evidence(n, states=["t", "f"],
+                          likelihoods={h: rng.dirichlet(np.ones(2)).tolist() for h in hyps})
+    ta, tb = case.evidence["a"].table, case.evidence["b"].table
+    lo = -np.minimum(ta[0] * tb[0], ta[1] * tb[1])
+    hi = np.minimum(ta[0] * tb[1], ta[1] * tb[0])
+    cov = lo + frac * (hi - lo)  # anywhere in the feasible range, edges included
+    case.add_joint_group("ab", ["a", "b"], covariance=dict(zip(hyps, cov.tolist(), strict=True)))
+    for k, n in enumerate(("a", "b", "c")):
+        if obs >> k & 1:
+            case.observe(n, "t" if rng.random() < 0.5 else "f")
+    post, pred, _ = _brute_force(case)
+    tr = case.update()
+    if tr.stopped_at is None:
+        np.testing.assert_allclose(tr.posterior.to_numpy(), post, rtol=1e-9, atol=1e-12)
+    for n, ref in pred.items():
+        got = case.predictive_likelihoods(n).to_numpy()
+        ok = np.isfinite(ref).all(axis=0)  # columns the observed evidence does not rule out
+        np.testing.assert_allclose(got[:, ok], ref[:, ok], rtol=1e-9, atol=1e-12)
 
 
 def test_chain_with_an_unobserved_middle_item():
