@@ -60,16 +60,32 @@ def test_scenario_change_recomputes_once_and_matches_the_engine(wb, demo_case, m
     before = wb.recomputes
     paints = wb.charts.paints
     wb.scenarios.dropdown.value = "uniform"
-    assert counter.calls == 1
+    # a scenario switch changes no number: the feed reuses the scenario traces it
+    # already holds (no engine run) and recomputes the findings once
+    assert counter.calls == 0
     assert wb.recomputes == before + 1
     assert wb.charts.paints == paints + 1
     assert demo_case.active_scenario == "uniform"
     ref = engine.update(demo_case, scenario="uniform")
     pd.testing.assert_series_equal(wb.trace.posterior, ref.posterior)
+    assert wb.trace.findings == ref.findings
+    pd.testing.assert_frame_equal(wb.trace.steps, ref.steps)
     assert wb.trace.scenario == "uniform"
     assert f">{ref.map_hypothesis}<" in wb.scenarios.summary.value
     assert "| scenario uniform" in wb.charts.waterfall.value
     assert wb.status.kind == "ok" and "uniform" in wb.status.message
+
+
+def test_scenario_switch_after_an_edit_uses_fresh_numbers(wb, demo_case):
+    wb.scenarios.dropdown.value = "uniform"
+    wb.hypotheses.rebalance.value = True
+    wb.hypotheses.row_for("other cause").prior.value = 0.3  # edits the base priors
+    wb.scenarios.dropdown.value = "base"
+    ref = engine.update(demo_case)
+    pd.testing.assert_series_equal(wb.trace.posterior, ref.posterior)
+    assert wb.trace.findings == ref.findings
+    assert wb.feed.scenario_traces["uniform"].posterior.equals(
+        engine.update(demo_case, scenario="uniform").posterior)
 
 
 def test_observed_state_change_recomputes_once(wb, demo_case, monkeypatch):

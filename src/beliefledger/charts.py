@@ -34,6 +34,7 @@ References
 
 from __future__ import annotations
 
+import functools
 import math
 from typing import TYPE_CHECKING, Any
 
@@ -110,11 +111,13 @@ LABEL_LINES = 3
 LINE_HEIGHT = 11
 
 
-def _wrap(text: str, width: int = 21) -> list[str]:
+@functools.lru_cache(maxsize=256)
+def _wrap(text: str, width: int = 21) -> tuple[str, ...]:
     """Break a label into at most two lines of about ``width`` characters."""
     import textwrap
 
-    return textwrap.wrap(text, width=width, max_lines=LABEL_LINES - 1, placeholder="...")
+    return tuple(textwrap.wrap(text, width=width, max_lines=LABEL_LINES - 1,
+                               placeholder="..."))
 
 
 def _lines(*parts: str) -> str:
@@ -159,10 +162,10 @@ def waterfall_data(trace: Trace, focus: str | None = None) -> pd.DataFrame:
 
     labels = _unique_step_labels(list(w.index))
     n = len(labels)
-    kinds = ["prior"] + [d if d in ("for", "against") else "neutral" for d in w["direction"]] \
-        + ["posterior"]
+    kinds = ["prior"] + [d if d in ("for", "against") else "neutral"
+                         for d in w["direction"].tolist()] + ["posterior"]
     db = w["decibans"].to_numpy(dtype=float)
-    verbal = [str(v) for v in w["verbal"]]
+    verbal = [str(v) for v in w["verbal"].tolist()]
     start = np.concatenate([[0.0], lo_db[:-1], [0.0]])
     end = np.concatenate([lo_db, [lo_db[-1]]])
     clipped = np.concatenate([[np.isinf(lo_db[0])],
@@ -183,9 +186,9 @@ def waterfall_data(trace: Trace, focus: str | None = None) -> pd.DataFrame:
                   + [_lines(_fmt_db(d), *_wrap(v)) for d, v in zip(db, verbal, strict=True)]
                   + [_lines("", _fmt_db(lo_db[-1]), _fmt_p(p_focus[-1]))]),
         "clipped": clipped.astype(bool),
+        "top_db": np.maximum(start_c, end_c),
+        "bottom_db": np.minimum(start_c, end_c),
     })
-    frame["top_db"] = np.maximum(start_c, end_c)
-    frame["bottom_db"] = np.minimum(start_c, end_c)
     return frame
 
 
@@ -293,30 +296,40 @@ def probability_path_data(trace: Trace, *, max_lines: int = 8) -> pd.DataFrame:
         peak = probs.max(axis=0)
         idx = sorted(np.argsort(-peak, kind="stable")[: max_lines - 1])
         keep = [hyps[i] for i in idx]
-        rest = [h for h in hyps if h not in set(keep)]
+        kept = set(keep)
+        rest = [h for h in hyps if h not in kept]
     elim = set(trace.eliminated)
-    rows = []
+    n = len(labels)
+    cols: dict[str, list] = {"order": [], "step": [], "hypothesis": [], "probability": [],
+                             "eliminated": [], "eliminated_here": []}
+
+    def add(name: str, values: np.ndarray, first_zero: int | None) -> None:
+        k = np.arange(n)
+        cols["order"] += k.tolist()
+        cols["step"] += labels
+        cols["hypothesis"] += [name] * n
+        cols["probability"] += values.tolist()
+        if first_zero is None:
+            cols["eliminated"] += [False] * n
+            cols["eliminated_here"] += [False] * n
+        else:
+            cols["eliminated"] += (k >= first_zero).tolist()
+            cols["eliminated_here"] += (k == first_zero).tolist()
+
+    keep_set = set(keep)
     for j, h in enumerate(hyps):
-        if h not in keep:
+        if h not in keep_set:
             continue
         col = probs[:, j]
         first_zero = None
         if h in elim:
             nz = np.flatnonzero(col > 0)
             first_zero = int(nz[-1]) + 1 if nz.size else 0
-        for k, lab in enumerate(labels):
-            rows.append({"order": k, "step": lab, "hypothesis": h, "probability": float(col[k]),
-                         "eliminated": first_zero is not None and k >= first_zero,
-                         "eliminated_here": first_zero is not None and k == first_zero})
+        add(h, col, first_zero)
     if rest:
-        cols = [hyps.index(h) for h in rest]
-        summed = probs[:, cols].sum(axis=1)
-        name = f"({len(rest)} others)"
-        for k, lab in enumerate(labels):
-            rows.append({"order": k, "step": lab, "hypothesis": name,
-                         "probability": float(min(1.0, summed[k])),
-                         "eliminated": False, "eliminated_here": False})
-    return pd.DataFrame(rows, columns=["order", "step", "hypothesis", "probability",
+        rest_idx = [hyps.index(h) for h in rest]
+        add(f"({len(rest)} others)", np.minimum(1.0, probs[:, rest_idx].sum(axis=1)), None)
+    return pd.DataFrame(cols, columns=["order", "step", "hypothesis", "probability",
                                        "eliminated", "eliminated_here"])
 
 
@@ -384,35 +397,39 @@ def prior_posterior_data(trace: Trace, scenarios: dict[str, Trace] | None = None
     the hypotheses with the largest prior or posterior are kept (the MAP
     always).
     """
-    hyps = list(trace.hypotheses)
-    prior = trace.steps.iloc[0]
-    post = trace.posterior
-    if max_bars is not None and len(hyps) > max_bars:
-        score = np.maximum(prior.to_numpy(), post.to_numpy())
-        idx = set(np.argsort(-score, kind="stable")[:max_bars].tolist())
-        idx.add(hyps.index(trace.map_hypothesis))
-        hyps = [h for i, h in enumerate(hyps) if i in idx]
-    rows = []
-    for k, h in enumerate(hyps):
-        is_map = h == trace.map_hypothesis
-        rows.append({"hypothesis": h, "order": k, "series": "prior",
-                     "probability": float(prior[h]), "is_map": is_map,
-                     "label": f"{float(prior[h]):.3f}"})
-        rows.append({"hypothesis": h, "order": k, "series": "posterior",
-                     "probability": float(post[h]), "is_map": is_map,
-                     "label": f"{float(post[h]):.3f}" + ("  MAP" if is_map else "")})
+    all_hyps = list(trace.hypotheses)
+    table = trace.steps.to_numpy(dtype=float)
+    prior, post = table[0], table[-1]
+    idx = np.arange(len(all_hyps))
+    if max_bars is not None and len(all_hyps) > max_bars:
+        score = np.maximum(prior, post)
+        keep = set(np.argsort(-score, kind="stable")[:max_bars].tolist())
+        keep.add(all_hyps.index(trace.map_hypothesis))
+        idx = np.array(sorted(keep))
+    hyps = [all_hyps[i] for i in idx]
+    n = len(hyps)
+    is_map = [h == trace.map_hypothesis for h in hyps]
+    cols: dict[str, list] = {
+        "hypothesis": hyps * 2, "order": list(range(n)) * 2,
+        "series": ["prior"] * n + ["posterior"] * n,
+        "probability": prior[idx].tolist() + post[idx].tolist(), "is_map": is_map * 2,
+        "label": [f"{p:.3f}" for p in prior[idx]]
+        + [f"{p:.3f}" + ("  MAP" if m else "") for p, m in zip(post[idx], is_map, strict=True)],
+    }
     for name, tr in (scenarios or {}).items():
-        if list(tr.hypotheses) != list(trace.hypotheses):
+        if list(tr.hypotheses) != all_hyps:
             from .errors import CaseError
 
             raise CaseError(f"scenario trace {name!r} has hypotheses {tr.hypotheses[:5]}..., "
                             "not those of the main trace; pass traces of the same case")
-        sp = tr.posterior
-        for k, h in enumerate(hyps):
-            rows.append({"hypothesis": h, "order": k, "series": f"scenario: {name}",
-                         "probability": float(sp[h]), "is_map": h == tr.map_hypothesis,
-                         "label": ""})
-    return pd.DataFrame(rows, columns=["hypothesis", "order", "series", "probability",
+        sp = tr.steps.to_numpy(dtype=float)[-1]
+        cols["hypothesis"] += hyps
+        cols["order"] += list(range(n))
+        cols["series"] += [f"scenario: {name}"] * n
+        cols["probability"] += sp[idx].tolist()
+        cols["is_map"] += [h == tr.map_hypothesis for h in hyps]
+        cols["label"] += [""] * n
+    return pd.DataFrame(cols, columns=["hypothesis", "order", "series", "probability",
                                        "is_map", "label"])
 
 

@@ -26,6 +26,7 @@ import ipywidgets as W
 from ..display import esc
 from ..engine import update
 from ..errors import CaseError, CaseTypeError
+from ..findings import diagnose
 
 if TYPE_CHECKING:  # pragma: no cover
     from ..case import Case
@@ -131,22 +132,37 @@ class TraceFeed:
     def subscribe(self, callback: Callable[[Trace], None]) -> None:
         self._subscribers.append(callback)
 
-    def _compute(self) -> None:
-        self.trace = update(self.case)
-        self.scenario_traces = {}
-        for name in self.case.scenario_names:
-            if name == self.trace.scenario:
-                self.scenario_traces[name] = self.trace
-            else:
-                self.scenario_traces[name] = update(self.case, scenario=name,
-                                                    diagnose_findings=False)
+    def _compute(self, what: str | None = None) -> None:
+        """Recompute the trace (and each scenario's, for the robustness line).
+
+        Switching the active scenario changes no number in the case, so on a
+        ``what == "scenario"`` edit the scenario traces already computed are
+        reused: the new active trace is the stored one for that scenario,
+        given its findings by :func:`beliefledger.findings.diagnose`.
+        """
+        case = self.case
+        names = case.scenario_names
+        active = case.active_scenario
+        cached = self.scenario_traces
+        if what == "scenario" and set(cached) == set(names) and active in cached:
+            trace = cached[active]
+            if not trace.findings and trace is not self.trace:
+                trace.findings = diagnose(case, trace)
+            self.trace = trace
+            self.scenario_traces = {n: cached[n] for n in names}
+        else:
+            self.trace = update(case)
+            self.scenario_traces = {
+                n: self.trace if n == active else update(case, scenario=n,
+                                                         diagnose_findings=False)
+                for n in names}
         self.scenario_maps = {n: t.map_hypothesis for n, t in self.scenario_traces.items()}
         self.recomputes += 1
 
     def _on_change(self, case: Case, what: str) -> None:
         t0 = time.perf_counter()
         try:
-            self._compute()
+            self._compute(what)
             for cb in list(self._subscribers):
                 cb(self.trace)
             self.last_error = None

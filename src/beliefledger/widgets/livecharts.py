@@ -71,7 +71,7 @@ def waterfall_svg(data: pd.DataFrame, *, focus: str, subtitle: str = "",
     label_h = 120.0
     width = left + slot * n + right
     height = top + plot_h + label_h
-    lo, hi = float(data["bottom_db"].min()), float(data["top_db"].max())
+    lo, hi = float(np.min(data["bottom_db"].to_numpy())), float(np.max(data["top_db"].to_numpy()))
     pad = max(3.0, 0.12 * (hi - lo))
     d0, d1 = min(lo, 0.0) - pad, max(hi, 0.0) + 2.5 * pad
 
@@ -105,16 +105,20 @@ def waterfall_svg(data: pd.DataFrame, *, focus: str, subtitle: str = "",
                 f'stroke-dasharray="3,3"/>')
     bar_w = max(4.0, min(28.0, slot * 0.6))
     every = max(1, math.ceil(12 / slot))
-    for k, r in enumerate(data.itertuples(index=False)):
+    cols = {c: data[c].tolist() for c in ("step", "kind", "top_db", "bottom_db", "decibans",
+                                          "verbal", "probability", "label")}
+    for k in range(n):
+        step, kind, label = cols["step"][k], cols["kind"][k], cols["label"][k]
+        verbal, db, prob = cols["verbal"][k], cols["decibans"][k], cols["probability"][k]
         cx = left + slot * (k + 0.5)
-        y_top, y_bot = y(r.top_db), y(r.bottom_db)
-        tip = (f"{r.step}: {r.decibans:+.2f} dB" + (f", {r.verbal}" if r.verbal else "")
-               + f"; P(focus) after = {r.probability:.4g}")
-        body.append(f'<rect class="bl-bar bl-{_t(r.kind)}" x="{cx - bar_w / 2:.1f}" '
+        y_top, y_bot = y(cols["top_db"][k]), y(cols["bottom_db"][k])
+        tip = (f"{step}: {db:+.2f} dB" + (f", {verbal}" if verbal else "")
+               + f"; P(focus) after = {prob:.4g}")
+        body.append(f'<rect class="bl-bar bl-{_t(kind)}" x="{cx - bar_w / 2:.1f}" '
                     f'y="{y_top:.1f}" width="{bar_w:.1f}" height="{max(1.0, y_bot - y_top):.1f}" '
-                    f'fill="{colours[r.kind]}" stroke="#222" stroke-width="0.5">'
+                    f'fill="{colours[kind]}" stroke="#222" stroke-width="0.5">'
                     f"<title>{_t(tip)}</title></rect>")
-        lines = r.label.split("\n")
+        lines = label.split("\n")
         if slot < 100:
             lines = [ln for ln in lines if "dB" in ln or "P=" in ln] if slot >= 30 else []
         lines = [ln for ln in lines if ln]
@@ -124,7 +128,7 @@ def waterfall_svg(data: pd.DataFrame, *, focus: str, subtitle: str = "",
         if k % every == 0 or k == n - 1:
             ly = top + plot_h + 12
             body.append(f'<text transform="translate({cx:.1f},{ly:.1f}) rotate(-35)" '
-                        f'text-anchor="end">{_t(_short(r.step, 28))}</text>')
+                        f'text-anchor="end">{_t(_short(step, 28))}</text>')
     return _svg(width, height, body, f"waterfall for {focus}")
 
 
@@ -133,8 +137,10 @@ def waterfall_svg(data: pd.DataFrame, *, focus: str, subtitle: str = "",
 
 def path_svg(data: pd.DataFrame, *, subtitle: str = "", plot_width: float = 560) -> str:
     """Draw :func:`beliefledger.charts.probability_path_data` output as SVG text."""
-    steps = list(dict.fromkeys(data["step"]))
-    hyps = list(dict.fromkeys(data["hypothesis"]))
+    cols = {c: data[c].tolist() for c in ("hypothesis", "order", "probability", "eliminated",
+                                          "eliminated_here", "step")}
+    steps = list(dict.fromkeys(cols["step"]))
+    hyps = list(dict.fromkeys(cols["hypothesis"]))
     n = len(steps)
     slot = min(96.0, max(8.0, plot_width / max(n, 1)))
     left, top, plot_h, label_h, legend_w = 48.0, 40.0, 220.0, 110.0, 230.0
@@ -160,8 +166,8 @@ def path_svg(data: pd.DataFrame, *, subtitle: str = "", plot_width: float = 560)
             body.append(f'<text transform="translate({x(k):.1f},{top + plot_h + 12:.1f}) '
                         f'rotate(-35)" text-anchor="end">{_t(_short(s, 28))}</text>')
     groups: dict[str, list[tuple]] = {h: [] for h in hyps}
-    for row in zip(data["hypothesis"], data["order"].astype(int), data["probability"],
-                   data["eliminated"], data["eliminated_here"], data["step"], strict=True):
+    for row in zip(cols["hypothesis"], cols["order"], cols["probability"], cols["eliminated"],
+                   cols["eliminated_here"], cols["step"], strict=True):
         groups[row[0]].append(row[1:])
     for rows in groups.values():
         rows.sort(key=lambda r: r[0])
@@ -210,12 +216,15 @@ _SHAPES = {
 
 def prior_posterior_svg(data: pd.DataFrame, *, map_hypothesis: str, subtitle: str = "") -> str:
     """Draw :func:`beliefledger.charts.prior_posterior_data` output as SVG text."""
-    hyps = list(dict.fromkeys(data["hypothesis"]))
-    scen = [s for s in dict.fromkeys(data["series"]) if s.startswith("scenario: ")]
+    cols = {c: data[c].tolist() for c in ("hypothesis", "series", "probability", "label")}
+    hyps = list(dict.fromkeys(cols["hypothesis"]))
+    scen = [s for s in dict.fromkeys(cols["series"]) if s.startswith("scenario: ")]
     left, top, plot_w, row_h = 200.0, 62.0, 300.0, 26.0
     width = left + plot_w + 90
     height = top + row_h * len(hyps) + 40 + (18 * len(scen) + 10 if scen else 0)
-    by = {(r.hypothesis, r.series): r for r in data.itertuples(index=False)}
+    by = {(h, sr): (p, lab) for h, sr, p, lab in zip(cols["hypothesis"], cols["series"],
+                                                     cols["probability"], cols["label"],
+                                                     strict=True)}
 
     def x(p: float) -> float:
         return left + plot_w * p
@@ -242,21 +251,22 @@ def prior_posterior_svg(data: pd.DataFrame, *, map_hypothesis: str, subtitle: st
             r = by.get((h, series))
             if r is None:
                 continue
+            prob, label = r
             yy = y0 + 4 + 9 * j
             body.append(f'<rect class="bl-{series}" x="{left}" y="{yy:.1f}" '
-                        f'width="{max(0.5, plot_w * r.probability):.1f}" height="8" '
+                        f'width="{max(0.5, plot_w * prob):.1f}" height="8" '
                         f'fill="{colour}"{outline}><title>{_t(h)}: {series} '
-                        f"{r.probability:.4f}</title></rect>")
+                        f"{prob:.4f}</title></rect>")
             if series == "posterior":
-                body.append(f'<text x="{x(r.probability) + 4:.1f}" y="{yy + 8:.1f}" '
-                            f'font-size="10"{weight}>{_t(r.label)}</text>')
+                body.append(f'<text x="{x(prob) + 4:.1f}" y="{yy + 8:.1f}" '
+                            f'font-size="10"{weight}>{_t(label)}</text>')
         for k, s in enumerate(scen):
             r = by.get((h, s))
             if r is not None:
                 shape = _SHAPES[C.SCENARIO_SHAPES[k % len(C.SCENARIO_SHAPES)]]
-                body.append(f'<path d="{shape}" transform="translate({x(r.probability):.1f},'
+                body.append(f'<path d="{shape}" transform="translate({x(r[0]):.1f},'
                             f'{y0 + row_h / 2:.1f})" fill="#000" opacity="0.8"><title>'
-                            f"{_t(h)}: posterior under {_t(s[10:])} {r.probability:.4f}"
+                            f"{_t(h)}: posterior under {_t(s[10:])} {r[0]:.4f}"
                             "</title></path>")
     for k, s in enumerate(scen):
         shape = _SHAPES[C.SCENARIO_SHAPES[k % len(C.SCENARIO_SHAPES)]]

@@ -6,6 +6,7 @@ import math
 from typing import TYPE_CHECKING, Any
 
 import ipywidgets as W
+import numpy as np
 
 from .. import charts as C
 from ..display import esc, findings_html
@@ -18,9 +19,10 @@ if TYPE_CHECKING:  # pragma: no cover
 
 def posterior_html(trace: Trace, robustness: str = "", *, top: int = 10) -> str:
     """MAP line and the leading posterior probabilities (escaped static HTML)."""
-    post = trace.posterior.sort_values(ascending=False, kind="stable")
-    rows = "".join(f"<tr><td>{esc(h)}</td><td>{fmt_p(float(p))}</td></tr>"
-                   for h, p in list(post.items())[:top])
+    post = trace.steps.to_numpy(dtype=float)[-1]
+    order = np.argsort(-post, kind="stable")
+    rows = "".join(f"<tr><td>{esc(trace.hypotheses[i])}</td><td>{fmt_p(float(post[i]))}</td></tr>"
+                   for i in order[:top])
     more = (f"<tr><td>... {len(post) - top} more</td><td></td></tr>" if len(post) > top else "")
     m = trace.map_hypothesis
     stop = (f"<p class='bl-banner'><span class='bl-error'>update stopped at "
@@ -29,7 +31,8 @@ def posterior_html(trace: Trace, robustness: str = "", *, top: int = 10) -> str:
     rob = f'<p class="bl-robustness">{esc(robustness)}</p>' if robustness else ""
     return (f'<div class="bl-posterior" data-map="{esc(m)}">'
             f"<p>MAP under scenario '{esc(trace.scenario)}': <b class='bl-map'>{esc(m)}</b> "
-            f"<span class='bl-map-p'>P = {fmt_p(float(trace.posterior[m]))}</span></p>"
+            f"<span class='bl-map-p'>P = {fmt_p(float(post[trace.hypotheses.index(m)]))}"
+            "</span></p>"
             f"{rob}{stop}<table class='bl-table'><thead><tr><th>hypothesis</th><th>posterior"
             f"</th></tr></thead><tbody>{rows}{more}</tbody></table></div>")
 
@@ -139,19 +142,18 @@ class TraceTable(CaseView):
         self.page = min(max(0, int(page)), self.page_count - 1)
         self.sync()
 
-    def _columns(self, trace: Trace) -> list[str]:
-        post = trace.posterior.sort_values(ascending=False, kind="stable")
-        return list(post.index[: self.max_columns])
-
     def table_html(self, trace: Trace) -> str:
-        cols = self._columns(trace)
+        table = trace.steps.to_numpy(dtype=float)
+        idx = np.argsort(-table[-1], kind="stable")[: self.max_columns]
+        cols = [trace.hypotheses[i] for i in idx]
         self.page = min(self.page, self.page_count - 1)
         start = self.page * self.rows_per_page
-        part = trace.steps.iloc[start:start + self.rows_per_page][cols]
+        names = trace.step_names[start:start + self.rows_per_page]
+        part = table[start:start + self.rows_per_page][:, idx]
         head = "".join(f"<th>{esc(c)}</th>" for c in cols)
-        body = "".join(f"<tr><td>{esc(s)}</td>" + "".join(f"<td>{fmt_p(float(v))}</td>"
+        body = "".join(f"<tr><td>{esc(s)}</td>" + "".join(f"<td>{fmt_p(v)}</td>"
                                                          for v in row) + "</tr>"
-                       for s, row in zip(part.index, part.to_numpy(), strict=True))
+                       for s, row in zip(names, part.tolist(), strict=True))
         more = (f"<p class='bl-banner'>showing the {len(cols)} leading of "
                 f"{len(trace.hypotheses)} hypotheses</p>" if len(trace.hypotheses) > len(cols)
                 else "")
@@ -199,6 +201,7 @@ class ChartPanel(CaseView):
             w.add_class(cls)
             w.layout = W.Layout(overflow="auto", max_width="100%")
         self.paints = 0
+        self._memo: dict[tuple, tuple] = {}
         self.children = [self.focus, W.HBox([self.waterfall, self.prior_posterior],
                                             layout=W.Layout(flex_flow="row wrap")), self.path]
         self.sync()
@@ -209,8 +212,24 @@ class ChartPanel(CaseView):
             else f
 
     def chart_data(self, trace: Trace) -> dict[str, Any]:
-        """The tidy tables the three charts draw for ``trace`` (what the bench times)."""
+        """The tidy tables the three charts draw for ``trace``.
+
+        Tables are kept for the traces the feed currently holds, so flipping
+        back to a scenario already shown repaints without rebuilding them.
+        """
         focus = self.focus_hypothesis(trace)
+        held = self.feed.scenario_traces
+        key = (id(trace), focus, tuple(id(t) for t in held.values()))
+        hit = self._memo.get(key)
+        if hit is not None and hit[0] is trace:
+            return hit[1]
+        data = self._chart_data(trace, focus)
+        live = {id(t) for t in held.values()}
+        self._memo = {k: v for k, v in self._memo.items() if k[0] in live and k[2] == key[2]}
+        self._memo[key] = (trace, data)
+        return data
+
+    def _chart_data(self, trace: Trace, focus: str) -> dict[str, Any]:
         scen = self.feed.scenario_traces if len(self.feed.scenario_traces) > 1 else None
         return {
             "focus": focus,
