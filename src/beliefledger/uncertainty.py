@@ -637,7 +637,7 @@ class LogBetaSum:
         t = 2 * math.pi * k / period
         w = np.exp(log_cf(t) - 1j * t * lo) / (-1j * t)
         # at least POINTS_PER_SD grid points per standard deviation (linear
-        # interpolation between them is then good to a few 1e-8 in probability)
+        # interpolation between them is then good to about 1e-7 in probability)
         g = 1 << max(12, math.ceil(math.log2(max(4 * m, self.POINTS_PER_SD * period / sd))))
         if g > self.MAX_GRID:
             self.reason = "grid too fine"
