@@ -500,3 +500,18 @@ def test_a_failing_analysis_is_noted_not_fatal(monkeypatch, no_charts):
     rec = build_record(executed_notebook(bl.example_case()), notebook_name="t.ipynb",
                        sealed_at=SEALED_AT)
     assert "Not computed: RuntimeError: solver diverged" in json.dumps(rec)
+
+
+def test_uncertainty_and_simulation_sections_are_seeded_and_stable(no_charts):
+    uncertainty = pytest.importorskip("beliefledger.uncertainty")
+    case = bl.example_case()
+    est = bl.prior_from_counts(dict(zip(case.hypothesis_names, [7, 4, 5, 2, 0], strict=True)),
+                               pseudo=1.0, data="invented counts for a test")
+    uncertainty.set_prior_uncertainty(case, est)
+    a = build_record(executed_notebook(case), notebook_name="t.ipynb", sealed_at=SEALED_AT)
+    b = build_record(executed_notebook(case), notebook_name="t.ipynb", sealed_at=SEALED_AT)
+    text = json.dumps(a)
+    assert "Uncertainty register" in text and "Monte Carlo over uncertain inputs" in text
+    assert "seed 20261201" in text
+    assert dumps_notebook(a) == dumps_notebook(b)
+    assert verify_notebook(a, meta_of(a)).ok
