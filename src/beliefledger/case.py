@@ -1218,9 +1218,10 @@ class Case:
         return ev
 
     def _build_evidence(self, name, *, likelihoods, states, observed, source, description,
-                        shared_source, observed_only, normalize) -> Evidence:
+                        shared_source, observed_only, normalize,
+                        replacing: bool = False) -> Evidence:
         nm = _check_name("evidence", name)
-        if nm in self._evidence:
+        if nm in self._evidence and not replacing:
             raise CaseError(f"evidence '{nm}' already exists; choose another name or edit it")
         hyps = tuple(self._hyps)
         if observed_only:
@@ -1385,11 +1386,11 @@ class Case:
         ev = self._get_ev(evidence)
         _refuse_conditional_edit(ev)
         if ev.observed_only:
-            new = self._build_evidence("\x00tmp", likelihoods=likelihoods, states=None,
+            new = self._build_evidence(ev.name, replacing=True, likelihoods=likelihoods, states=None,
                                        observed=ev.observed, source=None, description="",
                                        shared_source=None, observed_only=True, normalize=False)
         else:
-            new = self._build_evidence("\x00tmp", likelihoods=likelihoods, states=None,
+            new = self._build_evidence(ev.name, replacing=True, likelihoods=likelihoods, states=None,
                                        observed=None, source=None, description="",
                                        shared_source=None, observed_only=False,
                                        normalize=normalize)

@@ -80,6 +80,8 @@ def trace_html(trace: Trace, max_cols: int = 30) -> str:
         f'<div class="bl-trace"><h4>{esc(trace.title)}: trace under scenario '
         f"{esc(trace.scenario)}</h4>"
         + _table(header, rows)
+        + "".join(f"<p>{esc(s)}: one step combining {esc(', '.join(m))}</p>"
+                  for s, m in trace.members.items() if len(m) > 1 or m != (s,))
         + f"<p>MAP: <b>{esc(trace.map_hypothesis)}</b> "
         f"({trace.posterior[trace.map_hypothesis]:.4f}); maximum likelihood: "
         f"{esc(trace.ml_hypothesis or 'n/a')}</p>"
@@ -100,6 +102,9 @@ def trace_text(trace: Trace, max_cols: int = 12) -> str:
             f"{row[c]:.4f}".rjust(w) for c, w in zip(cols, col_w, strict=True)))
     if len(trace.hypotheses) > max_cols:
         lines.append(f"... {len(trace.hypotheses) - max_cols} more hypotheses not shown")
+    grouped = [(s, m) for s, m in trace.members.items() if len(m) > 1 or m != (s,)]
+    for step, members in grouped:
+        lines.append(f"  {visible(step)}: one step combining {', '.join(map(visible, members))}")
     lines.append("")
     lines.append(f"MAP: {visible(trace.map_hypothesis)} "
                  f"({trace.posterior[trace.map_hypothesis]:.4f})   maximum likelihood: "
