@@ -96,7 +96,8 @@ def reseal_hashes(nb: dict) -> dict:
     entries = [{"index": i, "cell_type": c["cell_type"], "sha256": canonical.cell_digest(c)}
                for i, c in cells]
     cds = [case_digest(e) for e in meta["cases"]]
-    root = canonical.root_digest(meta["header"], cds, [e["sha256"] for e in entries])
+    root = canonical.root_digest(meta["header"], cds, [e["sha256"] for e in entries],
+                                 canonical.notebook_frame(nb))
     man = {**meta["manifest"], "cells": entries, "root": root,
            "fingerprint": canonical.fingerprint(root),
            "cases": [{"title": e["title"], "sha256": d} for e, d in zip(meta["cases"], cds, strict=True)]}
@@ -515,3 +516,47 @@ def test_uncertainty_and_simulation_sections_are_seeded_and_stable(no_charts):
     assert "seed 20261201" in text
     assert dumps_notebook(a) == dumps_notebook(b)
     assert verify_notebook(a, meta_of(a)).ok
+
+
+def _leaves(obj, path=()):
+    if isinstance(obj, dict):
+        for k, v in obj.items():
+            yield from _leaves(v, (*path, k))
+    elif isinstance(obj, list):
+        for i, v in enumerate(obj):
+            yield from _leaves(v, (*path, i))
+    else:
+        yield path, obj
+
+
+def _mutated(value, rng):
+    if isinstance(value, bool):
+        return not value
+    if isinstance(value, int):
+        return value + int(rng.integers(1, 5))
+    if isinstance(value, float):
+        return value * (1 + float(rng.uniform(1e-6, 0.5)))
+    if isinstance(value, str):
+        return value + "x" if value == "" or rng.random() < 0.5 else value[:-1]
+    return 0  # None -> a number
+
+
+def test_random_single_value_edits_never_pass_unnoticed(record, tmp_path, rng):
+    """Change one value anywhere in the record: verify must report it (exit 1) or refuse
+    the file (exit 2); it must never say intact, and never crash."""
+    leaves = list(_leaves(record))
+    picks = rng.choice(len(leaves), size=120, replace=False)
+    path = tmp_path / "m.ipynb"
+    for k in picks:
+        where, value = leaves[int(k)]
+        nb = copy.deepcopy(record)
+        target = nb
+        for step in where[:-1]:
+            target = target[step]
+        target[where[-1]] = _mutated(value, rng)
+        path.write_text(json.dumps(nb, ensure_ascii=False), encoding="utf-8")
+        try:
+            res = verify(path)
+        except RecordError:
+            continue
+        assert not res.ok, f"edit at {where!r} ({value!r:.60}) passed verify"

@@ -88,6 +88,7 @@ def normalize_output(output: Mapping[str, Any]) -> dict[str, Any]:
         data = {k: join_text(v) for k, v in dict(output.get("data", {})).items()
                 if k != WIDGET_VIEW_MIME}
         out["data"] = data
+        out["metadata"] = output.get("metadata", {})
         if kind == "execute_result":
             out["execution_count"] = output.get("execution_count")
     elif kind == "error":
@@ -104,6 +105,7 @@ def cell_content(cell: Mapping[str, Any]) -> dict[str, Any]:
     meta = cell.get("metadata") or {}
     content: dict[str, Any] = {
         "cell_type": cell.get("cell_type"),
+        "id": cell.get("id"),
         "source": join_text(cell.get("source", "")),
         "metadata": {k: meta[k] for k in KEPT_CELL_METADATA if k in meta},
     }
@@ -130,12 +132,21 @@ def hashed_cells(cells: Iterable[Mapping[str, Any]]) -> list[tuple[int, Mapping[
     return [(i, c) for i, c in enumerate(cells) if cell_role(c) != MANIFEST_ROLE]
 
 
+def notebook_frame(nb: Mapping[str, Any]) -> dict[str, Any]:
+    """The notebook-level fields the root covers: nbformat version and the notebook
+    metadata (kernel, language), the record's own metadata excluded."""
+    meta = {k: v for k, v in (nb.get("metadata") or {}).items() if k != META_KEY}
+    return {"nbformat": nb.get("nbformat"), "nbformat_minor": nb.get("nbformat_minor"),
+            "metadata": meta}
+
+
 def root_digest(header: Mapping[str, Any], case_digests: list[str],
-                cell_digests: list[str]) -> str:
+                cell_digests: list[str], frame: Mapping[str, Any]) -> str:
     """The root digest: over the record header (version, seal time, tool,
-    environment) and, in order, every case digest and every cell digest."""
-    return digest({"header": dict(header), "cases": list(case_digests),
-                   "cells": list(cell_digests)})
+    environment), the notebook frame (:func:`notebook_frame`) and, in order,
+    every case digest and every cell digest."""
+    return digest({"header": dict(header), "notebook": dict(frame),
+                   "cases": list(case_digests), "cells": list(cell_digests)})
 
 
 def is_fingerprint(text: str) -> bool:
@@ -143,5 +154,5 @@ def is_fingerprint(text: str) -> bool:
 
 
 __all__ = ["canonical_bytes", "digest", "fingerprint", "normalize_fingerprint", "cell_content",
-           "cell_digest", "normalize_output", "hashed_cells", "root_digest", "cell_role",
+           "cell_digest", "normalize_output", "hashed_cells", "root_digest", "cell_role", "notebook_frame",
            "RECORD_FORMAT", "RECORD_VERSION", "META_KEY", "MANIFEST_ROLE", "RECORD_ROLE"]

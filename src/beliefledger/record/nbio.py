@@ -112,9 +112,10 @@ def record_meta(nb: Mapping[str, Any], label: str) -> dict[str, Any]:
     ver = meta.get("record_version")
     if isinstance(ver, bool) or not isinstance(ver, int):
         raise RecordError(f"{label}: record_version {ver!r:.40} is not an integer")
-    if ver > RECORD_VERSION:
-        raise RecordError(f"{label} is record version {ver}, newer than this tool reads "
-                          f"({RECORD_VERSION}); upgrade beliefledger")
+    if ver != RECORD_VERSION:
+        hint = "upgrade beliefledger" if ver > RECORD_VERSION else "no reader for it exists"
+        raise RecordError(f"{label} is record version {ver}; this tool reads version "
+                          f"{RECORD_VERSION} ({hint})")
     man = meta.get("manifest")
     if not isinstance(man, dict):
         raise RecordError(f"{label}: the record has no manifest (malformed record)")

@@ -38,11 +38,14 @@ from .canonical import (
     digest,
     fingerprint,
     hashed_cells,
+    notebook_frame,
     root_digest,
 )
 from .nbio import MAX_OUTPUT_BYTES, RecordError, read_notebook
 
 DEFAULT_CELL_TIMEOUT = 600
+ALGORITHM = "sha256"
+CANONICAL_JSON = "sort_keys, compact, UTF-8"
 KEPT_NOTEBOOK_METADATA = ("kernelspec", "language_info", "title", "authors")
 
 
@@ -231,8 +234,9 @@ def build_record(nb: dict[str, Any], *, notebook_name: str, sealed_at: str | Non
     covered = hashed_cells(all_cells)
     cell_entries = [{"index": i, "cell_type": c["cell_type"], "sha256": cell_digest(c)}
                     for i, c in covered]
-    root = root_digest(header, case_digests, [e["sha256"] for e in cell_entries])
-    manifest = {"algorithm": "sha256", "canonical_json": "sort_keys, compact, UTF-8",
+    root = root_digest(header, case_digests, [e["sha256"] for e in cell_entries],
+                       notebook_frame(nb))
+    manifest = {"algorithm": ALGORITHM, "canonical_json": CANONICAL_JSON,
                 "cells": cell_entries,
                 "cases": [{"title": e["title"], "sha256": d}
                           for e, d in zip(case_entries, case_digests, strict=True)],

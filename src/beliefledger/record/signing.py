@@ -192,7 +192,14 @@ def check_signoff(index: int, entry: Any, root: str) -> SignoffStatus:
         return st("broken", "the record changed after this sign-off (its root digest "
                             f"{str(entry.get('root'))[:16]}... is not the record's "
                             f"{root[:16]}...)")
+    if entry.get("fingerprint") != fingerprint(root):
+        return st("broken", "the fingerprint written in the sign-off is not the root's")
+    if set(entry) - {*SIGNED_FIELDS, "fingerprint", "public_key", "key_id", "signature",
+                     "algorithm"}:
+        return st("broken", "the sign-off has fields no signer writes")
     if not signed:
+        if {"public_key", "key_id", "algorithm"} & set(entry):
+            return st("broken", "the sign-off carries key fields but no signature")
         return st("valid", "covers the current root digest (unsigned: proves no identity)")
     ed25519, _, invalid = _crypto()
     try:
@@ -201,6 +208,8 @@ def check_signoff(index: int, entry: Any, root: str) -> SignoffStatus:
         pub = ed25519.Ed25519PublicKey.from_public_bytes(raw)
     except (ValueError, TypeError):
         return st("broken", "the public key or signature is not valid base64 Ed25519 data")
+    if entry.get("algorithm") != "ed25519":
+        return st("broken", f"unknown signature algorithm {entry.get('algorithm')!r}")
     if key_id(raw) != kid:
         return st("broken", "the key id does not match the embedded public key")
     try:
@@ -210,8 +219,6 @@ def check_signoff(index: int, entry: Any, root: str) -> SignoffStatus:
     return st("valid", "Ed25519 signature over the current root digest checks")
 
 
-__all__ = ["sign", "RecordNotIntact", "keygen", "make_signoff", "check_signoff", "SignoffStatus", "key_id",
-           "load_public_key_raw", "load_private_key", "signed_bytes"]
 
 
 def sign(path: str | Path, reviewer: str, comment: str = "", *, key: str | Path | None = None,
@@ -243,3 +250,7 @@ def sign(path: str | Path, reviewer: str, comment: str = "", *, key: str | Path 
 
 class RecordNotIntact(Exception):
     """Signing was refused because the record fails its integrity check (exit code 1)."""
+
+
+__all__ = ["sign", "RecordNotIntact", "keygen", "make_signoff", "check_signoff", "SignoffStatus", "key_id",
+           "load_public_key_raw", "load_private_key", "signed_bytes"]

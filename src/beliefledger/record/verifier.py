@@ -28,6 +28,7 @@ from .canonical import (
     fingerprint,
     hashed_cells,
     normalize_fingerprint,
+    notebook_frame,
     root_digest,
 )
 from .nbio import RecordError, read_record
@@ -301,7 +302,7 @@ def verify_notebook(nb: dict[str, Any], meta: dict[str, Any], *, path: str = "re
                     reproduce_results: bool = True) -> VerifyResult:
     """Verify an already-read record (see :func:`verify`)."""
     from .collect import collect_envelopes
-    from .sealer import case_digest
+    from .sealer import ALGORITHM, CANONICAL_JSON, case_digest
     from .sections import manifest_cell
     from .signing import check_signoff, key_id
 
@@ -333,7 +334,7 @@ def verify_notebook(nb: dict[str, Any], meta: dict[str, Any], *, path: str = "re
                                 "is in the manifest but not embedded"))
     # the embedded cases must be the ones the cells show
     try:
-        shown = {e["title"]: e["envelope"] for e in collect_envelopes(
+        shown = {e["title"]: (e["envelope"], e["cell"]) for e in collect_envelopes(
             [c for c in cells if cell_role(c) is None])}
     except RecordError:
         shown = {}
@@ -344,22 +345,37 @@ def verify_notebook(nb: dict[str, Any], meta: dict[str, Any], *, path: str = "re
         if t not in shown:
             problems.append(Problem("case-not-as-shown", f"case {t!r}",
                                     "no cell output shows this case any more"))
-        elif digest(shown[t]) != digest(entry.get("envelope")):
+        elif digest(shown[t][0]) != digest(entry.get("envelope")):
             problems.append(Problem("case-not-as-shown", f"case {t!r}",
                                     "the embedded case differs from the last display of it in "
                                     "the notebook"))
+        elif shown[t][1] != entry.get("cell"):
+            problems.append(Problem("case-not-as-shown", f"case {t!r}",
+                                    f"the record says cell {entry.get('cell')!r} shows it last, "
+                                    f"the notebook says cell {shown[t][1]}"))
     # root
     cur_cells = [cell_digest(c) for _, c in hashed_cells(cells)]
     try:
-        root = root_digest(header, case_digests, cur_cells)
+        root = root_digest(header, case_digests, cur_cells, notebook_frame(nb))
     except (TypeError, ValueError):
         root = "0" * 64
     sealed_root = man["root"]
     structural = [p for p in problems if p.kind.startswith(("cell-", "case-"))]
     if root != sealed_root and not structural:
         problems.append(Problem("header-changed", "record header",
-                                "seal time, tool version or environment differ from what the "
-                                "root digest covers"))
+                                "the root digest in the manifest does not match the record: the "
+                                "seal time, tool version, environment, notebook metadata or the "
+                                "root itself was edited"))
+    expected_cells = [{"index": i, "cell_type": c.get("cell_type"), "sha256": d}
+                      for (i, c), d in zip(hashed_cells(cells), cur_cells, strict=True)]
+    if not structural and man["cells"] != expected_cells:
+        problems.append(Problem("manifest-cell", "manifest",
+                                "the manifest's cell list (positions or types) does not match "
+                                "the notebook"))
+    if man.get("algorithm") != ALGORITHM or man.get("canonical_json") != CANONICAL_JSON:
+        problems.append(Problem("manifest-cell", "manifest",
+                                f"algorithm {man.get('algorithm')!r} / canonical form "
+                                f"{man.get('canonical_json')!r} is not what this tool writes"))
     try:
         claimed_fp = fingerprint(sealed_root)
     except ValueError:
