@@ -133,6 +133,10 @@ def test_robustness_line_names_a_scenario_that_changes_the_map():
     assert picker.trace.map_hypothesis == "A"
     assert picker.feed.robustness_line() == (
         "MAP 'A' unchanged under 1 of 2 prior scenarios; 'B favoured' gives 'B'")
+    # the same MAPs as the sensitivity module's own scenario comparison
+    rob = bl.robustness(case)
+    assert rob.to_frame()["map"].to_dict() == picker.feed.scenario_maps
+    assert rob.changed_under == ["B favoured"]
 
 
 def test_workbench_display_carries_the_case_for_the_sealer(wb, demo_case):
@@ -401,3 +405,36 @@ def test_chart_panel_focus_and_reference_charts(wb, demo_case):
     charts = wb.altair_charts()
     assert set(charts) == {"waterfall", "path", "prior_posterior"}
     assert charts["waterfall"].to_dict()["title"]["text"].endswith("'relief valve lifted'")
+
+
+# --------------------------------------------------------------------------- the template
+
+
+def test_workbench_template_executes_and_emits_the_case(tmp_path):
+    """The template run by nbclient (as the sealer re-runs it): the workbench output
+    carries the case's JSON, the static chart is SVG, and nothing needs a script."""
+    from pathlib import Path
+
+    import nbformat
+    from nbclient import NotebookClient
+
+    path = Path(__file__).resolve().parents[1] / "templates_nb" / "workbench.ipynb"
+    nb = nbformat.read(path, as_version=4)
+    NotebookClient(nb, kernel_name="python3", timeout=300,
+                   resources={"metadata": {"path": str(tmp_path)}}).execute()
+    outputs = [(c.source, o) for c in nb.cells if c.cell_type == "code" for o in c.outputs]
+    errors = [o for _, o in outputs if o.output_type == "error"]
+    assert not errors, errors
+    wb_out = [o for src, o in outputs if src.startswith("wb = bl.Workbench(case)")]
+    assert len(wb_out) == 1
+    data = wb_out[0]["data"]
+    assert data[CASE_MIMETYPE] == envelope(bl.example_case())
+    assert "application/vnd.jupyter.widget-view+json" in data
+    assert data["text/plain"].startswith("Workbench('Ammonia odour at the Eastgate cold store'")
+    assert any("image/svg+xml" in o.get("data", {}) for _, o in outputs)
+    last = [o for src, o in outputs if src.rstrip().endswith("\ncase")]
+    assert last and last[-1]["data"][CASE_MIMETYPE]["case"]["title"] == bl.example_case().title
+    for _, o in outputs:
+        for mime, value in o.get("data", {}).items():
+            if mime in ("text/html", "image/svg+xml"):
+                assert "<script" not in value

@@ -207,8 +207,6 @@ class HypothesisEditor(CaseView):
         have no neutral value, so a case with any of them refuses the add
         from here (use ``case.add_hypothesis(..., likelihoods=...)``).
         """
-        from ..errors import CaseError
-
         evidence = self.case.evidence
         vec = [e.name for e in evidence.values() if e.observed_only]
         if vec:
@@ -219,12 +217,9 @@ class HypothesisEditor(CaseView):
         cols = {e.name: [1.0 / len(e.states)] * len(e.states) for e in evidence.values()}
         note = (f"; its likelihood for each of the {len(cols)} evidence items is neutral (equal "
                 "over the states): enter real numbers in the evidence editor") if cols else ""
-        try:
-            ok = self._apply(f"added '{str(name).strip()}' with prior {prior:g}; the other "
-                             f"priors rescaled (recorded){note}", self.case.add_hypothesis,
-                             name, prior, likelihoods=cols)
-        except CaseError:  # pragma: no cover - _apply catches it
-            ok = False
+        ok = self._apply(f"added '{str(name).strip()}' with prior {prior:g}; the other "
+                         f"priors rescaled (recorded){note}", self.case.add_hypothesis,
+                         name, prior, likelihoods=cols)
         if ok:
             self._syncing = True
             self.new_name.value = ""
