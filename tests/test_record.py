@@ -560,3 +560,21 @@ def test_random_single_value_edits_never_pass_unnoticed(record, tmp_path, rng):
         except RecordError:
             continue
         assert not res.ok, f"edit at {where!r} ({value!r:.60}) passed verify"
+
+
+def test_a_workbench_output_is_kept_as_static_html_and_its_case_collected(no_charts):
+    case = bl.example_case()
+    case.observe("suction pressure trend", "step drop")
+    bundle = {"application/vnd.jupyter.widget-view+json": {"model_id": "beef", "version_major": 2,
+                                                           "version_minor": 0},
+              "text/plain": "Workbench(...)", "text/html": "<div class='wb'>static view</div>",
+              CASE_MIMETYPE: bl.casefile.envelope(case)}
+    nb = executed_notebook(bl.example_case(), extra_cells=[
+        ("bl.Workbench(case)", [{"output_type": "display_data", "metadata": {}, "data": bundle}])])
+    rec = build_record(nb, notebook_name="t.ipynb", sealed_at=SEALED_AT)
+    out = rec["cells"][2]["outputs"][0]["data"]
+    assert "application/vnd.jupyter.widget-view+json" not in out
+    assert out["text/html"] == "<div class='wb'>static view</div>"
+    (entry,) = meta_of(rec)["cases"]
+    assert entry["cell"] == 2  # the workbench's display is the last one of the case
+    assert "static view" in render_html(rec)
