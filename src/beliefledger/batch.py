@@ -286,29 +286,31 @@ def _short(names: Sequence[str], limit: int = 10) -> str:
 
 class _Coder:
     """Turns one column of state labels into row codes: the state index, ``n_states``
-    for not observed, ``n_states + 1`` for an unknown label."""
+    for not observed, ``n_states + 1`` for an unknown label.
+
+    Categorical columns map their categories once; other columns are factorised
+    chunk by chunk (one hash pass per cell), so memory stays bounded either way.
+    """
 
     def __init__(self, states: tuple[str, ...], column: pd.Series) -> None:
         self.n = len(states)
         self.index = pd.Index(states, dtype=object)
         self.codes = None
         if isinstance(column.dtype, pd.CategoricalDtype):
-            cats = column.cat.categories
-            lut = self.index.get_indexer(cats) if len(cats) else np.empty(0, dtype=np.intp)
-            lut = np.where(lut < 0, self.n + 1, lut)
-            # codes == -1 (missing) picks the last entry: not observed
-            self.lut = np.append(lut, self.n).astype(np.int16 if self.n < 32000 else np.int64)
-            self.codes = column.cat.codes.to_numpy()
+            self.lut = self._lut(column.cat.categories)
+            self.codes = column.array.codes  # a read-only view (cat.codes copies)
+
+    def _lut(self, labels: Any) -> np.ndarray:
+        lut = self.index.get_indexer(labels) if len(labels) else np.empty(0, dtype=np.intp)
+        lut = np.where(lut < 0, self.n + 1, lut)
+        # code -1 (missing) picks the last entry: not observed
+        return np.append(lut, self.n).astype(np.int16 if self.n < 32000 else np.int64)
 
     def __call__(self, column: pd.Series, a: int, b: int) -> np.ndarray:
         if self.codes is not None:
             return self.lut[self.codes[a:b]]
-        values = column.iloc[a:b]
-        idx = self.index.get_indexer(values.to_numpy(dtype=object, na_value=None))
-        missing = pd.isna(values).to_numpy()
-        out = np.where(idx < 0, self.n + 1, idx)
-        out[missing] = self.n
-        return out
+        codes, labels = pd.factorize(column.iloc[a:b], use_na_sentinel=True)
+        return self._lut(labels)[codes]
 
 
 def _unknown_error(model: _Model, k: int, col: Any, frame: pd.DataFrame, where: int) -> CaseError:
@@ -370,11 +372,12 @@ def _score_frame(model: _Model, frame: pd.DataFrame, columns: tuple[tuple[int, A
     n, h = len(frame), len(model.hypotheses)
     chunk = chunk_size or _default_chunk(h)
     post = np.empty((n, h))
-    map_idx = np.empty(n, dtype=np.int32)
+    # category codes in the dtype pandas would pick, so the categoricals take them as is
+    map_idx = np.empty(n, dtype=_code_dtype(h))
+    stop = np.full(n, -1, dtype=_code_dtype(len(model.items)))
     n_obs = np.zeros(n, dtype=np.int32)
-    n_unk = np.zeros(n, dtype=np.int32)
+    n_unk = np.zeros(n if on_unknown == "skip" else 0, dtype=np.int32)
     elim = np.empty(n, dtype=np.int32)
-    stop = np.full(n, -1, dtype=np.int32)
     log_ev = np.empty(n)
     series = [(k, col, frame[col]) for k, col in columns]
     coders = [_Coder(model.states[k], s) for k, _, s in series]
@@ -398,9 +401,10 @@ def _score_frame(model: _Model, frame: pd.DataFrame, columns: tuple[tuple[int, A
             np.take(table, jm, axis=0, out=tm, mode="clip")  # codes are in range
             wm += tm  # -inf (a zero likelihood) stays -inf; no +inf occurs, so no NaN
         n_obs[a:b] = wm[:, h]
-        n_unk[a:b] = wm[:, h + 1]
-        if on_unknown == "raise" and n_unk[a:b].any():
-            r = int(np.flatnonzero(n_unk[a:b])[0])
+        if on_unknown == "skip":
+            n_unk[a:b] = wm[:, h + 1]
+        elif wm[:, h + 1].any():
+            r = int(np.flatnonzero(wm[:, h + 1])[0])
             i = next(i for i, (k, _, _) in enumerate(series)
                      if codes[i][r] == len(model.states[k]) + 1)
             raise _unknown_error(model, series[i][0], series[i][1], frame, a + r)
@@ -420,18 +424,30 @@ def _score_frame(model: _Model, frame: pd.DataFrame, columns: tuple[tuple[int, A
         map_idx[a:b] = np.argmax(out, axis=1)
         elim[a:b] = np.count_nonzero(np.isneginf(lw) & model.positive_prior, axis=1)
         log_ev[a:b] = (top - model.log_prior_total) + np.log(total)
-    cols: dict[str, Any] = {}
-    for j, name in enumerate(names[:h]):
-        cols[name] = post[:, j]
-    cols["map"] = pd.Categorical.from_codes(map_idx, categories=list(model.hypotheses))
-    cols["n_observed"] = n_obs
-    cols["eliminated"] = elim
-    cols["impossible"] = stop >= 0
-    cols["stopped_at"] = pd.Categorical.from_codes(stop, categories=list(model.items))
-    cols["log_evidence"] = log_ev
+    # The posterior block goes in as it is (no copy); the other columns are added one at
+    # a time, each array dropped once it is in, so the peak stays near the result's size.
+    result = pd.DataFrame(post, index=frame.index, columns=list(names[:h]), copy=False)
+    del post
+    result["map"] = pd.Categorical.from_codes(map_idx, categories=list(model.hypotheses))
+    del map_idx
+    result["n_observed"] = n_obs
+    del n_obs
+    result["eliminated"] = elim
+    del elim
+    result["impossible"] = stop >= 0
+    result["stopped_at"] = pd.Categorical.from_codes(stop, categories=list(model.items))
+    del stop
+    result["log_evidence"] = log_ev
     if on_unknown == "skip":
-        cols[UNKNOWN_COLUMN] = n_unk
-    return pd.DataFrame(cols, index=frame.index, copy=False)
+        result[UNKNOWN_COLUMN] = n_unk
+    return result
+
+
+def _code_dtype(n_categories: int) -> type:
+    for dt in (np.int8, np.int16, np.int32):
+        if n_categories < np.iinfo(dt).max:
+            return dt
+    return np.int64
 
 
 def _score_partition(frame: pd.DataFrame, model: _Model, *, columns, names, chunk_size,
