@@ -6,6 +6,7 @@ internet (a CDN script, a font) fails and is reported instead of passing
 unnoticed. Usage::
 
     python tests/browser/harness.py --out RESULT.json [--screenshot PNG] [--repaints N]
+                                    [--case template|bench]
 
 Steps: copy ``templates_nb/workbench.ipynb`` into a fresh folder, start
 JupyterLab from this Python on 127.0.0.1 at a free port, open the notebook
@@ -13,7 +14,9 @@ in Debian's chromium through Playwright, wait for the kernel, run all
 cells, wait for the workbench, read the posterior it shows, pick the
 "uniform" prior scenario, read again, set the relief-valve tell-tale to
 "burst" in the evidence editor, read again, time a few chart repaints, save
-a screenshot and write everything as JSON. Exit 0 when the run completed
+a screenshot and write everything as JSON. With ``--case bench`` the page
+shows the benchmark's invented 20 x 30 case instead and only the repaints
+are timed. Exit 0 when the run completed
 (the test decides pass or fail from the JSON), 2 when it could not.
 """
 
@@ -120,14 +123,33 @@ def dropdown(page, label: str):
         has=page.locator("label", has_text=label)).first.locator("select")
 
 
+def bench_notebook(path: Path) -> None:
+    """A notebook showing the workbench on the benchmark's invented 20 x 30 case."""
+    import nbformat
+
+    bench_dir = ROOT / "tests" / "benchmarks"
+    nb = nbformat.v4.new_notebook()
+    nb.cells = [nbformat.v4.new_code_cell(
+        f"import sys\nsys.path.insert(0, {str(bench_dir)!r})\nimport beliefledger as bl\n"
+        "from bench_widgets import synthetic_case\ncase = synthetic_case(20, 30)\n"
+        "wb = bl.Workbench(case)\nwb")]
+    nb.metadata["kernelspec"] = {"name": "python3", "display_name": "Python 3",
+                                 "language": "python"}
+    nbformat.write(nb, path)
+
+
 def run(args) -> dict:
     from playwright.sync_api import sync_playwright
 
-    result: dict = {"ok": False, "steps": [], "external_requests": [], "console_errors": []}
+    result: dict = {"ok": False, "steps": [], "external_requests": [], "console_errors": [],
+                    "case": args.case}
     work = Path(tempfile.mkdtemp(prefix="bl-browser-"))
     folder = work / "nb"
     folder.mkdir()
-    shutil.copy(TEMPLATE, folder / "workbench.ipynb")
+    if args.case == "bench":
+        bench_notebook(folder / "workbench.ipynb")
+    else:
+        shutil.copy(TEMPLATE, folder / "workbench.ipynb")
     port, token = free_port(), os.urandom(16).hex()
     log = open(work / "server.log", "w")  # noqa: SIM115 - closed in finally
     proc = start_server(folder, port, token, log)
@@ -161,61 +183,15 @@ def run(args) -> dict:
             page.evaluate("() => { window.jupyterapp.commands.execute('notebook:run-all-cells'); }")
             page.wait_for_selector(".bl-workbench .bl-posterior .bl-map", timeout=90_000)
             step("workbench shown")
-            page.wait_for_selector(".jp-RenderedSVG, .jp-RenderedImage", timeout=90_000)
+            if args.case == "template":
+                page.wait_for_selector(".jp-RenderedSVG, .jp-RenderedImage", timeout=90_000)
             page.wait_for_function(KERNEL_IDLE, timeout=60_000)
             step("all cells run")
             result["initial"] = page.evaluate(READ_POSTERIOR)
             result["chart_svgs"] = page.locator(".bl-workbench svg.bl-live-chart").count()
-
-            # 1. the prior-scenario dropdown
-            before = result["initial"]["text"]
-            dropdown(page, "prior scenario").select_option(SCENARIO)
-            page.wait_for_function(
-                "(b) => { const e = document.querySelector('.bl-workbench .bl-posterior');"
-                " return e && e.textContent !== b; }", arg=before)
-            result["after_scenario"] = page.evaluate(READ_POSTERIOR)
-            step("scenario changed")
-
-            # 2. an observed state, in the evidence editor's tab
-            page.locator(".bl-workbench .lm-TabBar-tab", has_text="evidence").first.click()
-            dropdown(page, "evidence").select_option(EVIDENCE)
-            page.wait_for_function(
-                "(ev) => [...document.querySelectorAll('.bl-workbench b')]"
-                ".some(b => b.textContent === ev)", arg=EVIDENCE)
-            before = result["after_scenario"]["text"]
-            dropdown(page, "observed").select_option(STATE)
-            page.wait_for_function(
-                "(b) => { const e = document.querySelector('.bl-workbench .bl-posterior');"
-                " return e && e.textContent !== b; }", arg=before)
-            result["after_observation"] = page.evaluate(READ_POSTERIOR)
-            page.wait_for_function(KERNEL_IDLE, timeout=30_000)
-            try:  # the status line is set after the views refresh
-                page.wait_for_function(
-                    "(t) => { const e = document.querySelector('.bl-workbench .bl-status');"
-                    " return e && e.textContent.includes(t); }",
-                    arg=f"observed as '{STATE}'", timeout=10_000)
-            except Exception:  # noqa: BLE001 - the test reports what was shown
-                pass
-            result["status"] = page.locator(".bl-workbench .bl-status").first.text_content()
-            step("observation changed")
-
-            # 3. chart repaint times: scenario change -> waterfall SVG replaced
-            names = [o.get_attribute("value") or o.text_content()
-                     for o in dropdown(page, "prior scenario").locator("option").all()]
-            repaints = []
-            for i in range(args.repaints):
-                target = names[i % len(names)]
-                if target == dropdown(page, "prior scenario").input_value():
-                    target = names[(i + 1) % len(names)]
-                page.evaluate(ARM_REPAINT)
-                dropdown(page, "prior scenario").select_option(target)
-                page.wait_for_function("() => window.__bl.t1 !== null", timeout=30_000)
-                t = page.evaluate("() => window.__bl.t1 - window.__bl.t0")
-                repaints.append(round(float(t), 1))
-                page.wait_for_function(KERNEL_IDLE, timeout=30_000)
-            result["repaint_ms"] = repaints
-            dropdown(page, "prior scenario").select_option(SCENARIO)
-            page.wait_for_function(KERNEL_IDLE, timeout=30_000)
+            if args.case == "template":
+                interact(page, result, step)
+            repaints(page, result, args.repaints)
             page.locator(".bl-workbench").first.scroll_into_view_if_needed()
             if args.screenshot:
                 Path(args.screenshot).parent.mkdir(parents=True, exist_ok=True)
@@ -239,13 +215,84 @@ def run(args) -> dict:
     return result
 
 
+def interact(page, result: dict, step) -> None:
+    """The template's checks: a scenario change, then an observed state."""
+    # 1. the prior-scenario dropdown
+    before = result["initial"]["text"]
+    dropdown(page, "prior scenario").select_option(SCENARIO)
+    page.wait_for_function(
+        "(b) => { const e = document.querySelector('.bl-workbench .bl-posterior');"
+        " return e && e.textContent !== b; }", arg=before)
+    result["after_scenario"] = page.evaluate(READ_POSTERIOR)
+    step("scenario changed")
+
+    # 2. an observed state, in the evidence editor's tab
+    page.locator(".bl-workbench .lm-TabBar-tab", has_text="evidence").first.click()
+    dropdown(page, "evidence").select_option(EVIDENCE)
+    page.wait_for_function(
+        "(ev) => [...document.querySelectorAll('.bl-workbench b')]"
+        ".some(b => b.textContent === ev)", arg=EVIDENCE)
+    before = result["after_scenario"]["text"]
+    dropdown(page, "observed").select_option(STATE)
+    page.wait_for_function(
+        "(b) => { const e = document.querySelector('.bl-workbench .bl-posterior');"
+        " return e && e.textContent !== b; }", arg=before)
+    result["after_observation"] = page.evaluate(READ_POSTERIOR)
+    page.wait_for_function(KERNEL_IDLE, timeout=30_000)
+    try:  # the status line is set after the views refresh
+        page.wait_for_function(
+            "(t) => { const e = document.querySelector('.bl-workbench .bl-status');"
+            " return e && e.textContent.includes(t); }",
+            arg=f"observed as '{STATE}'", timeout=10_000)
+    except Exception:  # noqa: BLE001 - the test reports what was shown
+        pass
+    result["status"] = page.locator(".bl-workbench .bl-status").first.text_content()
+    step("observation changed")
+
+
+def repaints(page, result: dict, n: int) -> None:
+    """Time ``n`` scenario changes: the select's change event -> waterfall SVG replaced."""
+    names = [o.get_attribute("value") or o.text_content()
+             for o in dropdown(page, "prior scenario").locator("option").all()]
+    times = []
+    for i in range(n):
+        target = names[i % len(names)]
+        if target == dropdown(page, "prior scenario").input_value():
+            target = names[(i + 1) % len(names)]
+        page.evaluate(ARM_REPAINT)
+        dropdown(page, "prior scenario").select_option(target)
+        page.wait_for_function("() => window.__bl.t1 !== null", timeout=30_000)
+        times.append(round(float(page.evaluate("() => window.__bl.t1 - window.__bl.t0")), 1))
+        page.wait_for_function(KERNEL_IDLE, timeout=30_000)
+    result["repaint_ms"] = times
+    if SCENARIO in names:
+        dropdown(page, "prior scenario").select_option(SCENARIO)
+        page.wait_for_function(KERNEL_IDLE, timeout=30_000)
+
+
+def network_isolated() -> bool:
+    """True when nothing but loopback is reachable (the namespace is in force)."""
+    for host in ("192.0.2.1", "1.1.1.1"):  # TEST-NET-1 and a public resolver
+        try:
+            with socket.create_connection((host, 443), timeout=2):
+                return False
+        except OSError:
+            continue
+    return True
+
+
 def main(argv=None) -> int:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--out", required=True, help="where to write the JSON result")
     ap.add_argument("--screenshot", help="PNG path for a screenshot of the workbench")
     ap.add_argument("--repaints", type=int, default=5, help="chart repaints to time")
+    ap.add_argument("--case", choices=["template", "bench"], default="template",
+                    help="the workbench template (and its checks) or the invented 20 x 30 "
+                         "benchmark case (repaint timing only)")
     args = ap.parse_args(argv)
+    isolated = network_isolated()
     result = run(args)
+    result["network_isolated"] = isolated
     Path(args.out).write_text(json.dumps(result, indent=1))
     return 0 if result["ok"] else 2
 

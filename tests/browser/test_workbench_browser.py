@@ -54,11 +54,11 @@ def netns_problem() -> str | None:
 
 
 def run_offline(out: Path, screenshot: Path | None = None, repaints: int = 5,
-                timeout: float = 170) -> dict:
+                timeout: float = 170, case: str = "template") -> dict:
     """Run the harness under ``unshare -n`` (loopback only) and return its JSON."""
     cmd = ["unshare", "-n", "sh", "-c", 'ip link set lo up && exec "$0" "$@"',
            sys.executable, str(HERE / "harness.py"), "--out", str(out),
-           "--repaints", str(repaints)]
+           "--repaints", str(repaints), "--case", case]
     if screenshot is not None:
         cmd += ["--screenshot", str(screenshot)]
     proc = subprocess.run(cmd, capture_output=True, text=True, timeout=timeout)
@@ -68,13 +68,17 @@ def run_offline(out: Path, screenshot: Path | None = None, repaints: int = 5,
     return json.loads(out.read_text())
 
 
-@pytest.fixture(scope="module")
-def browser_run(tmp_path_factory):
-    problem = netns_problem()
+def require_offline_browser(problem: str | None) -> None:
+    """Skip (or, under CI=true, fail) with a how-to-enable message when ``problem``."""
     if problem:
         if os.environ.get("CI", "").lower() == "true":
             pytest.fail(f"browser test cannot run under CI=true: {problem}")
         pytest.skip(f"browser test skipped: {problem}; to enable, {ENABLE_HINT}")
+
+
+@pytest.fixture(scope="module")
+def browser_run(tmp_path_factory):
+    require_offline_browser(netns_problem())
     ARTIFACTS.mkdir(parents=True, exist_ok=True)
     shot = ARTIFACTS / "workbench_browser.png"
     shot.unlink(missing_ok=True)
@@ -103,6 +107,7 @@ def _assert_shows(shown: dict, trace) -> None:
 def test_workbench_runs_offline_and_follows_the_engine(browser_run):
     r = browser_run
     assert r["ok"], f"{r.get('error')}\n{r.get('traceback', '')}\n{r.get('server_log_tail', '')}"
+    assert r["network_isolated"], "the harness ran with a network beyond loopback"
     assert r["external_requests"] == [], "the page tried to reach the internet"
     assert r["chart_svgs"] == 3
     base = _expected("base")
