@@ -27,6 +27,13 @@ that share a ``tie`` name share one draw (e.g. a test's false-alarm rate,
 the same under every non-target hypothesis). Exact zeros stay exact: a zero
 prior or likelihood is zero in every draw.
 
+:func:`simulate` draws only what moves the posterior: the priors (a
+Dirichlet, as normalised Gamma draws) and, for each hypothesis, the total
+log-likelihood of the observed states. By default the independent uncertain
+entries of one hypothesis are drawn together from the exact distribution of
+their sum (:class:`LogBetaSum`), so the cost per draw does not grow with the
+number of evidence items; ``method="direct"`` draws every entry instead.
+
 References
 ----------
 Gelman, A. et al. (2013). *Bayesian Data Analysis*, 3rd ed., section 3.4 and
