@@ -133,6 +133,20 @@ def test_prior_from_counts_feeds_a_case():
     assert case.base_priors["pump"] == pytest.approx(5 / 9)
 
 
+def test_prior_from_counts_as_a_scenario():
+    case = bl.Case("scenario", hypotheses={"pump": 0.5, "valve": 0.3, "Other cause": 0.2})
+    est = bl.prior_from_counts({"pump": 2, "valve": 6, "Other cause": 1},
+                               data="plant history (invented)")
+    est.add_scenario(case, "plant history")
+    assert case.scenario_priors("plant history").to_dict() == pytest.approx(
+        {"pump": 0.25, "valve": 7 / 12, "Other cause": 2 / 12})
+    assert case.scenarios["plant history"].source == est.source
+    before = case.to_dict()
+    with pytest.raises(CaseError, match=r"missing hypothesis\(es\) \[.valve.\]"):
+        bl.prior_from_counts({"pump": 2, "seal": 1, "Other cause": 1}).add_scenario(case, "x")
+    assert case.to_dict() == before
+
+
 def test_dirichlet_sample_mean_within_tolerance(rng):
     # tolerance derived from the draws: 5 standard errors of each marginal mean
     est = bl.prior_from_counts({"a": 12, "b": 3, "c": 1, "d": 0}, pseudo=0.5)

@@ -161,6 +161,26 @@ def test_break_even_equalises_posteriors(demo_case):
     json.dumps(be.to_dict(), allow_nan=False)
 
 
+@given(seed=st.integers(0, 2**32 - 1), n_hyp=st.integers(2, 6))
+def test_break_even_property(seed, n_hyp):
+    # for any case: at the break-even prior the hypothesis and its rival have
+    # equal posteriors (through the sweep, i.e. the engine's arithmetic)
+    r = np.random.default_rng(seed)
+    hyps = [f"H{i}" for i in range(n_hyp)]
+    case = bl.Case("p", hypotheses=dict(zip(hyps, r.dirichlet(np.ones(n_hyp)), strict=True)),
+                   normalize=True)
+    for e in range(3):
+        cols = np.clip(r.dirichlet([1.0, 1.0], size=n_hyp), 1e-3, None)
+        cols /= cols.sum(axis=1, keepdims=True)
+        case.add_evidence(f"E{e}", states=["a", "b"], observed="a",
+                          likelihoods={h: list(cols[j]) for j, h in enumerate(hyps)})
+    be = bl.break_even_prior(case, "H0")
+    assert 0 < be.prior < 1
+    row = bl.sweep_prior(case, "H0", [be.prior]).iloc[0]
+    assert row["H0"] == pytest.approx(row[be.against], rel=1e-8)
+    assert row[be.against] == pytest.approx(row.drop("H0").max(), rel=1e-12)
+
+
 def test_break_even_against_named_rival_and_inside_range():
     case = two_way(0.3, 0.8, 0.3)
     case.add_scenario("low", {"A": 0.1, "B": 0.9})

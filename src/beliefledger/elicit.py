@@ -199,6 +199,13 @@ class DirichletEstimate:
         m = self.mean
         return {str(k): float(v) for k, v in m.items()}
 
+    def add_scenario(self, case: Case, name: str, *, note: str = "",
+                     replace_existing: bool = False) -> None:
+        """Add the mean as prior scenario ``name`` of ``case``, with this estimate's
+        source (e.g. ``"plant history"``). The counts must name the case's hypotheses."""
+        case.add_scenario(name, self.priors(), source=self.source, note=note,
+                          replace_existing=replace_existing)
+
     def to_dict(self) -> dict[str, Any]:
         return {"distribution": "dirichlet",
                 "alpha": {str(k): float(v) for k, v in self.alpha.items()},
