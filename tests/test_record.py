@@ -448,7 +448,8 @@ def test_html_copy_is_self_contained_and_script_free(record):
 def test_sanitizer_removes_scripts_handlers_and_external_loads():
     dirty = ('<div onclick="x()">ok<script src="https://cdn.example/x.js">alert(1)</script>'
              '<img src="http://example.com/a.png" alt="logo"><img src="data:image/png;base64,AA">'
-             '<a href="https://example.org/doc">doc</a><a href="javascript:alert(1)">bad</a>'
+             '<img alt="s" src="data:image/png;base64,AA" srcset="data:image/png;base64,AA 1x, '
+             'http://example.com/b.png 2x"><a href="https://example.org/doc">doc</a><a href="javascript:alert(1)">bad</a>'
              '<iframe src="https://example.com"></iframe><style>@import url(http://x/y.css);</style>'
              '<link rel="stylesheet" href="https://cdn.example/s.css"><p style="background:'
              'url(http://x/y.png)">styled</p></div>')

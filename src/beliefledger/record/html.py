@@ -63,7 +63,7 @@ class _Sanitizer(HTMLParser):
         kept = []
         for name, value in attrs:
             value = value or ""
-            if name.startswith("on") or name in ("srcdoc", "formaction"):
+            if name.startswith("on") or name in ("srcdoc", "formaction", "srcset"):
                 continue
             if name in _URL_ATTRS:
                 if tag == "a" and name == "href" and re.match(r"^(https?:|mailto:|#)", value.strip(),
