@@ -312,6 +312,22 @@ def test_validator_rejects_raw_sections(small_case):
     assert "uncertainty" not in small_case.extras
 
 
+def test_many_columns_in_one_edit(small_case):
+    version = small_case.version
+    bl.set_likelihood_uncertainty(small_case, ["E1", "E2"], ["H1", "H2"], low=0.05, high=0.95,
+                                  state=None)
+    assert small_case.version == version + 1
+    sec = small_case.extras["uncertainty"]["likelihoods"]
+    assert [(e["evidence"], e["hypothesis"]) for e in sec] == [
+        ("E1", "H1"), ("E1", "H2"), ("E2", "H1"), ("E2", "H2")]
+    # each range fitted around its own column's entry (the observed state)
+    assert [e["fit"]["best"] for e in sec] == [0.9, 0.2, 0.7, 0.4]
+    before = snapshot(small_case)
+    with pytest.raises(CaseError, match="no hypothesis named 'H7'"):
+        bl.set_likelihood_uncertainty(small_case, ["E1", "E2"], ["H1", "H7"], concentration=3)
+    assert snapshot(small_case) == before
+
+
 def test_section_round_trip_and_register(small_case, tmp_path):
     bl.set_prior_uncertainty(small_case, bl.prior_from_counts({"H1": 5, "H2": 3, "Other": 2},
                                                               data="invented log"))
@@ -532,8 +548,8 @@ def random_uncertain_case(seed: int, n_hyp: int = 5, n_ev: int = 8) -> bl.Case:
         case.add_evidence(f"E{e}", states=["x", "y", "z"],
                           likelihoods={h: list(cols[j]) for j, h in enumerate(hyps)},
                           observed="xyz"[e % 3])
-        for j, h in enumerate(hyps):
-            bl.set_likelihood_uncertainty(case, f"E{e}", h, concentration=float(5 + 7 * j))
+    for j, h in enumerate(hyps):  # lists: one edit for every item of this hypothesis
+        bl.set_likelihood_uncertainty(case, case.evidence_names, h, concentration=5.0 + 7 * j)
     bl.set_prior_uncertainty(case, concentration=15.0)
     return case
 

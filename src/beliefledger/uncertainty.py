@@ -399,7 +399,8 @@ def set_prior_uncertainty(case: Case, estimate: DirichletEstimate | None = None,
     _store(case, sec)
 
 
-def set_likelihood_uncertainty(case: Case, evidence: str, hypothesis: str, *,
+def set_likelihood_uncertainty(case: Case, evidence: str | list[str],
+                               hypothesis: str | list[str], *,
                                low: float | None = None, high: float | None = None,
                                best: float | None = None, state: str | None = None,
                                level: float = 0.9, concentration: float | None = None,
@@ -422,9 +423,33 @@ def set_likelihood_uncertainty(case: Case, evidence: str, hypothesis: str, *,
     - ``estimate``: a :class:`~beliefledger.elicit.BetaEstimate` for a
       two-state item (its ``a`` goes to ``state`` or the first state).
 
+    ``evidence`` and ``hypothesis`` may also be lists: the same specification
+    is then applied to every pair (a range is fitted to each column's own
+    entry) in one edit, much faster than one call per column on a large case.
     Entries of one item with the same ``tie`` name share one draw. The case
     is unchanged when the input is refused.
     """
+    evs = [evidence] if isinstance(evidence, str) else list(evidence)
+    hs = [hypothesis] if isinstance(hypothesis, str) else list(hypothesis)
+    if not evs or not hs:
+        raise CaseError("give at least one evidence item and one hypothesis")
+    spec = dict(low=low, high=high, best=best, state=state, level=level,
+                concentration=concentration, counts=counts, pseudo=pseudo, alpha=alpha,
+                estimate=estimate, tie=tie, method=method, source=source)
+    new = {}
+    for e in evs:
+        for hh in hs:
+            ent = _likelihood_entry(case, e, hh, **spec)
+            new[(ent["evidence"], ent["hypothesis"])] = ent
+    sec = _section(case)
+    sec["likelihoods"] = [e for e in sec.get("likelihoods", [])
+                          if (e["evidence"], e["hypothesis"]) not in new] + list(new.values())
+    _store(case, sec)
+
+
+def _likelihood_entry(case: Case, evidence: Any, hypothesis: Any, *, low, high, best, state,
+                      level, concentration, counts, pseudo, alpha, estimate, tie, method,
+                      source) -> dict[str, Any]:
     ev = case._get_ev(evidence)
     h = case._get_hyp(hypothesis)
     j = ev.hypotheses.index(h.name)
@@ -496,10 +521,7 @@ def set_likelihood_uncertainty(case: Case, evidence: str, hypothesis: str, *,
         if source is None:
             src = estimate.source.to_dict()
     entry["source"] = src
-    sec = _section(case)
-    sec["likelihoods"] = [e for e in sec.get("likelihoods", [])
-                          if (e["evidence"], e["hypothesis"]) != (ev.name, h.name)] + [entry]
-    _store(case, sec)
+    return entry
 
 
 def clear_uncertainty(case: Case, *, prior: bool | None = None, evidence: str | None = None,
