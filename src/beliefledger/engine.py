@@ -164,7 +164,12 @@ def update(case: Case, *, scenario: str | None = None, diagnose_findings: bool =
         np.stack([s[2] for s in steps_in], out=loglik)
         with np.errstate(divide="ignore"):
             np.log(loglik, out=loglik)
-    cum = np.cumsum(buf, axis=0)
+    # running sum down the rows; a row-by-row add is about twice as fast as
+    # np.cumsum(axis=0) on a C-ordered array (contiguous inner loops), same sums
+    cum = np.empty_like(buf)
+    cum[0] = buf[0]
+    for i in range(1, len(buf)):
+        np.add(cum[i - 1], buf[i], out=cum[i])
     # log-sum-exp per row, fused with the probabilities (one exp per entry). Once a
     # row is all -inf every later row is too: the update stops before that step.
     top = cum.max(axis=1)
