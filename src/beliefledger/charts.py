@@ -14,7 +14,10 @@ draws nothing. :func:`show` renders a chart to SVG in the kernel with
 vl-convert and displays the image: no script, no network, and the same
 picture a sealed record stores. :func:`use_offline_renderer` switches
 altair's own renderer to that SVG path, so a bare chart as the last line of
-a cell also shows offline. The widgets use :func:`to_svg` directly.
+a cell also shows offline. The live workbench repaints on every edit, faster
+than vl-convert can render, so it draws the same tidy tables with the small
+SVG painters of :mod:`beliefledger.widgets.livecharts` (same palette and
+layout); records and :func:`show` use these altair charts.
 
 Visual language
 ---------------

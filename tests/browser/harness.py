@@ -56,12 +56,16 @@ def start_server(folder: Path, port: int, token: str, log) -> subprocess.Popen:
     for var, sub in (("JUPYTER_CONFIG_DIR", "config"), ("JUPYTER_RUNTIME_DIR", "runtime"),
                      ("IPYTHONDIR", "ipython")):
         env[var] = str(folder.parent / sub)
+    settings = folder.parent / "lab-settings"
+    news = settings / "@jupyterlab" / "apputils-extension" / "notification.jupyterlab-settings"
+    news.parent.mkdir(parents=True, exist_ok=True)
+    news.write_text(json.dumps({"fetchNews": "false"}))  # no news prompt over the page
     cmd = [sys.executable, "-m", "jupyterlab", "--ip=127.0.0.1", f"--port={port}",
            "--no-browser", "--allow-root", f"--IdentityProvider.token={token}",
            f"--ServerApp.root_dir={folder}", "--LabApp.expose_app_in_browser=True",
            "--LabApp.news_url=", "--LabApp.extension_manager=readonly",
            "--LabApp.check_for_updates_class=jupyterlab.NeverCheckForUpdate",
-           "--ServerApp.port_retries=0"]
+           f"--LabApp.user_settings_dir={settings}", "--ServerApp.port_retries=0"]
     return subprocess.Popen(cmd, stdout=log, stderr=subprocess.STDOUT, env=env,
                             start_new_session=True)
 

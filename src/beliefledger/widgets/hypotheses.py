@@ -26,7 +26,8 @@ BANNER_TEXT = {
     "near-certain": "near-certain prior: evidence will barely move it",
 }
 
-_COLS = "minmax(150px, 2fr) 96px minmax(120px, 2fr) minmax(120px, 2fr) 74px 92px minmax(160px, 3fr)"
+_COLS = ("minmax(150px, 2fr) 90px minmax(140px, 3fr) minmax(140px, 3fr) 70px 90px "
+         "minmax(140px, 2fr)")
 
 
 def _row_layout() -> W.Layout:
