@@ -100,7 +100,7 @@ def fit_concentration(best: float, low: float, high: float, level: float = 0.9
     -------
     k, fitted_low, fitted_high : float
     """
-    from scipy import optimize, stats
+    from scipy import optimize, special
 
     level = check_level(level)
     for nm, v in (("low", low), ("best", best), ("high", high)):
@@ -118,14 +118,14 @@ def fit_concentration(best: float, low: float, high: float, level: float = 0.9
 
     def loss(logk: float) -> float:
         k = math.exp(logk)
-        f = stats.beta.ppf(q, best * k, (1 - best) * k)
+        f = special.betaincinv(best * k, (1 - best) * k, q)  # Beta quantiles
         f = np.clip(f, 1e-300, 1 - 1e-16)
         return float(np.sum((np.log(f / (1 - f)) - target) ** 2))
 
     res = optimize.minimize_scalar(loss, bounds=(math.log(1e-2), math.log(1e8)),
                                    method="bounded", options={"xatol": 1e-8})
     k = float(math.exp(res.x))
-    fl, fh = stats.beta.ppf(q, best * k, (1 - best) * k)
+    fl, fh = special.betaincinv(best * k, (1 - best) * k, q)
     return k, float(fl), float(fh)
 
 
