@@ -123,8 +123,9 @@ def waterfall_svg(data: pd.DataFrame, *, focus: str, subtitle: str = "",
             lines = [ln for ln in lines if "dB" in ln or "P=" in ln] if slot >= 30 else []
         lines = [ln for ln in lines if ln]
         for i, ln in enumerate(reversed(lines)):
+            size = 10 if ("dB" in ln or "P=" in ln) else 9  # the verbal strength a bit smaller
             body.append(f'<text x="{cx:.1f}" y="{y_top - 4 - 11 * i:.1f}" text-anchor="middle" '
-                        f'font-size="10">{_t(ln)}</text>')
+                        f'font-size="{size}">{_t(ln)}</text>')
         if k % every == 0 or k == n - 1:
             ly = top + plot_h + 12
             body.append(f'<text transform="translate({cx:.1f},{ly:.1f}) rotate(-35)" '
