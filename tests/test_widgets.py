@@ -438,3 +438,69 @@ def test_workbench_template_executes_and_emits_the_case(tmp_path):
         for mime, value in o.get("data", {}).items():
             if mime in ("text/html", "image/svg+xml"):
                 assert "<script" not in value
+
+
+# --------------------------------------------------------------------------- live charts
+
+
+SVG_NS = "{http://www.w3.org/2000/svg}"
+
+
+def _parse_svg(text: str):
+    import xml.etree.ElementTree as ET
+
+    root = ET.fromstring(text)  # well-formed XML, or this raises
+    assert root.tag == f"{SVG_NS}svg"
+    return root
+
+
+def _by_class(root, tag: str, cls: str) -> list:
+    return [e for e in root.iter(f"{SVG_NS}{tag}") if cls in e.get("class", "").split()]
+
+
+def test_live_waterfall_draws_one_bar_per_row_in_the_palette(demo_case):
+    from beliefledger import charts
+    from beliefledger.widgets import livecharts
+
+    trace = demo_case.update()
+    data = charts.waterfall_data(trace, "relief valve lifted")
+    root = _parse_svg(livecharts.waterfall_svg(data, focus="relief valve lifted"))
+    bars = _by_class(root, "rect", "bl-bar")
+    assert len(bars) == len(data)
+    colour = {"for": charts.SUPPORT_COLOUR, "against": charts.AGAINST_COLOUR}
+    for bar, kind in zip(bars, data["kind"], strict=True):
+        if kind in colour:
+            assert bar.get("fill") == colour[kind]
+    titles = [b.find(f"{SVG_NS}title").text for b in bars]
+    assert titles[1].startswith(f"{trace.evidence_steps[0]}: {data['decibans'].iloc[1]:+.2f} dB")
+
+
+def test_live_charts_escape_user_text_and_mark_eliminations():
+    from beliefledger import charts
+    from beliefledger.widgets import livecharts
+
+    nasty = 'A <b>&"x"'
+    case = bl.Case("esc", hypotheses={nasty: 0.5, "B": 0.3, "Other": 0.2})
+    case.add_evidence("E1 <i>", states=["x", "y"],
+                      likelihoods={nasty: [1.0, 0.0], "B": [0.5, 0.5], "Other": [0.5, 0.5]},
+                      observed="y")
+    trace = case.update()
+    path = _parse_svg(livecharts.path_svg(charts.probability_path_data(trace)))
+    groups = _by_class(path, "g", "bl-path")
+    assert [g.get("data-hypothesis") for g in groups] == [nasty, "B", "Other"]
+    assert len(_by_class(path, "path", "bl-eliminated")) == 1
+    wf = _parse_svg(livecharts.waterfall_svg(charts.waterfall_data(trace, nasty), focus=nasty))
+    assert any(t.text == "E1 <i>" for t in wf.iter(f"{SVG_NS}text"))
+    pp = _parse_svg(livecharts.prior_posterior_svg(
+        charts.prior_posterior_data(trace), map_hypothesis=trace.map_hypothesis))
+    assert len(_by_class(pp, "rect", "bl-posterior")) == 3
+    bold = [t.text for t in pp.iter(f"{SVG_NS}text") if t.get("font-weight") == "bold"]
+    assert "B" in bold
+
+
+def test_nice_ticks():
+    from beliefledger.widgets.livecharts import nice_ticks
+
+    assert nice_ticks(-5.7, 18.2) == [-5.0, 0.0, 5.0, 10.0, 15.0]
+    assert nice_ticks(0, 1, 5) == [0.0, 0.2, 0.4, 0.6, 0.8, 1.0]
+    assert nice_ticks(3, 3) == [3]
