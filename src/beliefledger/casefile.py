@@ -273,7 +273,9 @@ def case_from_dict(data: Any) -> Case:
                 raise CaseFileError(f"observed state {observed!r:.60} of {what} is not among its "
                                     f"states {list(st)}")
         observed_only = _bool(e.get("observed_only", False), f"observed_only of {what}")
-        if observed_only and (len(st) != 1 or observed != st[0]):
+        # an observed-only item set back to "not yet observed" (observe(item, None)) keeps
+        # its one state; refusing it here would make a saved case unloadable
+        if observed_only and (len(st) != 1 or observed not in (None, st[0])):
             raise CaseFileError(f"{what} is observed_only: it must have one state, the observed one")
         tag = e.get("shared_source")
         if tag is not None:
