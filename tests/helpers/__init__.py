@@ -1,0 +1,1 @@
+"""Test helpers for the reliability and security tests (generators, contracts, reports)."""
