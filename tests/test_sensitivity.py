@@ -423,6 +423,18 @@ def test_likelihood_uncertainty_against_exact_distribution():
     assert res.base_posterior["A"] == pytest.approx(post(m))
 
 
+def test_off_centre_distribution_is_noted(small_case):
+    # P(present | H1) = 0.9 in the case, but the counts say about 0.5
+    bl.set_likelihood_uncertainty(small_case, "E1", "H1", counts={"present": 10, "absent": 10})
+    res = bl.simulate(small_case, draws=1_000, seed=1, progress=False)
+    assert len(res.notes) == 1 and "P(present | H1) for 'E1' has mean 0.5" in res.notes[0]
+    assert res.to_dict()["notes"] == res.notes
+    bl.set_likelihood_uncertainty(small_case, "E1", "H1", counts={"present": 18, "absent": 2})
+    assert bl.simulate(small_case, draws=1_000, seed=1, progress=False).notes == []
+    bl.set_prior_uncertainty(small_case, alpha={"H1": 1, "H2": 1, "Other": 8})
+    assert len(bl.simulate(small_case, draws=1_000, seed=1, progress=False).notes) == 3
+
+
 def test_exact_zeros_stay_zero():
     case = bl.Case("zeros", hypotheses={"a": 0.6, "b": 0.4, "c": 0.0})
     case.add_evidence("E", states=["x", "y"], likelihoods={"a": [0.5, 0.5], "b": [0.0, 1.0],

@@ -727,6 +727,7 @@ class _Plan:
         self.log_prior = log_of(pri)
         self.prior_alpha: np.ndarray | None = None
         self.inputs: list[str] = []
+        self.notes: list[str] = []
         p = sec.get("prior")
         if p is not None:
             if p["kind"] == "dirichlet":
@@ -734,6 +735,15 @@ class _Plan:
             else:
                 self.prior_alpha = p["concentration"] * pri
             self.inputs.append("priors")
+            a0 = self.prior_alpha.sum()
+            for j, h in enumerate(self.hypotheses):
+                mean = self.prior_alpha[j] / a0
+                sd = math.sqrt(mean * (1 - mean) / (a0 + 1))
+                if abs(mean - pri[j]) > max(sd, 1e-12):
+                    self.notes.append(
+                        f"the prior distribution of '{h}' has mean {mean:.4g} but scenario "
+                        f"'{scenario}' uses {pri[j]:.4g} (more than one standard deviation, "
+                        f"{sd:.2g}, apart); the draws are centred on the distribution")
         by_key = {(e["evidence"], e["hypothesis"]): e for e in sec["likelihoods"]}
         const = np.zeros(k)
         # cells: (a, b, column indices) of the Beta marginal of the observed entry
@@ -751,6 +761,14 @@ class _Plan:
                 if e["kind"] == "dirichlet":
                     al = np.array([e["alpha"][s] for s in ev.states])
                     a, b = float(al[obs]), float(al.sum() - al[obs])
+                    mean = a / (a + b)
+                    sd = math.sqrt(a * b / ((a + b) ** 2 * (a + b + 1)))
+                    if abs(mean - lik[j]) > sd:
+                        self.notes.append(
+                            f"the distribution of P({ev.observed} | {h}) for '{name}' has mean "
+                            f"{mean:.4g} but the case uses {lik[j]:.4g} (more than one standard "
+                            f"deviation, {sd:.2g}, apart); the draws are centred on the "
+                            "distribution, the base posterior on the case's value")
                 else:
                     m = float(ev.table[obs, j])
                     a, b = e["concentration"] * m, e["concentration"] * (1 - m)
@@ -862,12 +880,16 @@ class SimulationResult:
         The posterior with the inputs at their stated values.
     base_map : str
         Its MAP hypothesis (the conclusion).
+    notes : list of str
+        Inputs whose distribution is not centred on the value the case uses
+        (e.g. counts that disagree with a typed likelihood).
     """
 
     def __init__(self, *, title: str, scenario: str, hypotheses: list[str], samples: np.ndarray,
                  base_posterior: pd.Series, base_map: str, seed: int, draws: int, level: float,
                  inputs: list[str], seconds: float,
-                 methods: dict[str, str] | None = None) -> None:
+                 methods: dict[str, str] | None = None,
+                 notes: list[str] | None = None) -> None:
         self.title = title
         self.scenario = scenario
         self.hypotheses = hypotheses
@@ -881,6 +903,7 @@ class SimulationResult:
         self.inputs = inputs
         self.seconds = seconds
         self.methods = dict(methods or {})
+        self.notes = list(notes or [])
         defined = ~np.isnan(samples[:, 0])
         self.undefined = int(np.sum(~defined))
         ok = samples if self.undefined == 0 else samples[defined]
@@ -945,6 +968,7 @@ class SimulationResult:
                 "seed": self.seed, "level": self.level, "base_map": self.base_map,
                 "changed_share": self.changed_share, "undefined": self.undefined,
                 "inputs": list(self.inputs), "methods": dict(self.methods),
+                "notes": list(self.notes),
                 "hypotheses": {h: {c: (None if np.isnan(v) else float(v))
                                    for c, v in row.items()} for h, row in frame.iterrows()},
                 "summary": self.summary}
@@ -1093,7 +1117,7 @@ def simulate(case: Case, draws: int = 100_000, seed: int | None = None, *, level
         if bar is not None:
             bar.close()
     return SimulationResult(title=case.title, scenario=sc, hypotheses=plan.hypotheses,
-                            methods=plan.methods,
+                            methods=plan.methods, notes=plan.notes,
                             samples=out.T, base_posterior=trace.posterior,
                             base_map=trace.map_hypothesis, seed=sd, draws=n, level=lv,
                             inputs=plan.inputs, seconds=time.perf_counter() - t0)
