@@ -504,3 +504,33 @@ def test_nice_ticks():
     assert nice_ticks(-5.7, 18.2) == [-5.0, 0.0, 5.0, 10.0, 15.0]
     assert nice_ticks(0, 1, 5) == [0.0, 0.2, 0.4, 0.6, 0.8, 1.0]
     assert nice_ticks(3, 3) == [3]
+
+
+ACTIONS = {
+    "prior": lambda wb: setattr(wb.hypotheses.row_for("other cause").prior, "value", 0.2),
+    "rename": lambda wb: setattr(wb.hypotheses.row_for("other cause").name, "value", "else"),
+    "source": lambda wb: setattr(wb.hypotheses.row_for("other cause").where, "value", "log"),
+    "catch-all": lambda wb: setattr(wb.hypotheses.row_for("relief valve lifted").catch_all,
+                                    "value", True),
+    "normalise": lambda wb: (wb.case.set_prior("other cause", 0.3),
+                             wb.hypotheses.normalize_button.click()),
+    "cell": lambda wb: setattr(wb.evidence.cells[("machine room first",
+                                                  "other cause")], "value", 0.3),
+    "observed": lambda wb: setattr(wb.evidence.observed, "value", "cold room first"),
+    "evidence source": lambda wb: (setattr(wb.evidence.src_where, "value", "x"),
+                                   wb.evidence.save_source.click()),
+    "scenario": lambda wb: setattr(wb.scenarios.dropdown, "value", "uniform"),
+}
+
+
+@pytest.mark.parametrize("action", list(ACTIONS))
+def test_each_user_action_causes_exactly_one_recompute(wb, demo_case, action):
+    edits = []
+    demo_case.on_change(lambda case, what: edits.append(what))
+    setup = 1 if action == "normalise" else 0  # that action makes one edit in code first
+    before = wb.recomputes
+    ACTIONS[action](wb)
+    assert wb.status.kind == "ok", wb.status.message
+    assert len(edits) == 1 + setup
+    assert wb.recomputes == before + 1 + setup
+    pd.testing.assert_series_equal(wb.trace.posterior, engine.update(demo_case).posterior)
