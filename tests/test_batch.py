@@ -145,6 +145,22 @@ def test_chunk_size_does_not_change_results(model, obs, chunk_size):
                                   check_exact=True)
 
 
+@pytest.mark.parametrize("threads", [1, 2, 3])
+def test_threads_do_not_change_results(model, obs, threads):
+    ref = score_cases(model, obs, chunk_size=50, threads=1)
+    pd.testing.assert_frame_equal(score_cases(model, obs, chunk_size=50, threads=threads), ref,
+                                  check_exact=True)
+
+
+def test_first_bad_row_is_reported_whatever_the_threads(model, obs):
+    frame = obs.copy()
+    frame.loc["case-0390", "item 0"] = "late typo"
+    frame.loc["case-0061", "item 5"] = "early typo"
+    for threads in (1, 2, 4):
+        with pytest.raises(bl.CaseError, match=r"row 'case-0061', column 'item 5'"):
+            score_cases(model, frame, chunk_size=16, threads=threads)
+
+
 def test_column_dtypes_and_order_do_not_change_results(model, obs):
     ref = score_cases(model, obs)
     as_cat = obs.copy()
@@ -315,6 +331,10 @@ def test_bad_options_are_refused(model, obs):
         score_cases(model, obs, chunk_size=True)
     with pytest.raises(bl.CaseTypeError, match="chunk_size"):
         score_cases(model, obs, chunk_size=2.5)
+    with pytest.raises(bl.CaseError, match="threads is 0"):
+        score_cases(model, obs, threads=0)
+    with pytest.raises(bl.CaseTypeError, match="threads"):
+        score_cases(model, obs, threads="2")
     with pytest.raises(bl.CaseTypeError, match="prefix"):
         score_cases(model, obs, prefix=3)
 
