@@ -213,6 +213,8 @@ def test_to_svg_and_show_render_offline(demo_case):
     assert svg.lstrip().startswith("<svg") and svg.rstrip().endswith("</svg>")
     assert "Weight of evidence for" in svg
     assert "http" not in svg.replace("http://www.w3.org", "")  # no external references
+    # records compare re-rendered charts: the same trace gives the same bytes
+    assert charts.to_svg(charts.waterfall(bl.example_case().update())) == svg
     static = charts.StaticChart(charts.prior_posterior(trace))
     bundle = static._repr_mimebundle_()
     assert set(bundle) == {"image/svg+xml", "text/plain"}
