@@ -263,6 +263,16 @@ def test_rename_source_rationale_and_catch_all(demo_case):
     assert _snapshot(demo_case) == before and row.name.value == "planned venting"
 
 
+def test_unsourced_prior_gets_a_banner(demo_case):
+    ed = HypothesisEditor(demo_case)
+    row = ed.row_for("other cause")
+    assert "no source" not in row.banner.value
+    row.where.value = ""
+    assert any(f.code == "unsourced" for f in ed.trace.findings)
+    assert "prior has no source" in row.banner.value
+    assert "prior has no source" not in ed.row_for("relief valve lifted").banner.value
+
+
 def test_remove_needs_a_second_click(demo_case):
     ed = HypothesisEditor(demo_case)
     row = ed.row_for("relief valve lifted")

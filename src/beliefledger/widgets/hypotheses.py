@@ -24,6 +24,7 @@ BANNER_TEXT = {
     "zero-prior": "prior is 0: this hypothesis can never gain belief",
     "eliminated": "eliminated by {detail}",
     "near-certain": "near-certain prior: evidence will barely move it",
+    "unsourced": "prior has no source: say where it came from",
 }
 
 _COLS = ("minmax(150px, 2fr) 90px minmax(140px, 3fr) minmax(140px, 3fr) 70px 90px "
@@ -235,6 +236,11 @@ class HypothesisEditor(CaseView):
             if f.where.startswith("hypothesis '"):
                 name = f.where[len("hypothesis '"):].split("'")[0]
                 out.setdefault(name, []).append(f)
+            elif f.code == "unsourced" and f.where == "priors":
+                # one finding lists every unsourced prior; show it beside each of them
+                for h in self.case.hypotheses.values():
+                    if not h.source.is_sourced:
+                        out.setdefault(h.name, []).append(f)
         return out
 
     def _render(self, trace: Trace) -> None:
