@@ -55,6 +55,9 @@ def test_seal_executes_afresh_in_order_and_writes_both_files(sealed):
     assert re.fullmatch(r"[0-9A-F]{4}(-[0-9A-F]{4}){4}", res.fingerprint)
     v = verify(res.notebook, expect=res.fingerprint)
     assert v.ok, v.text()
+    import nbformat  # the record opens in any Jupyter: it is a valid nbformat-4 notebook
+
+    nbformat.validate(nbformat.read(res.notebook, as_version=4))
 
 
 def test_seal_never_overwrites_without_force(sealed):
