@@ -1,0 +1,87 @@
+"""Sealed records for the tamper, escaping and crash tests, built without a kernel.
+
+``executed_notebook(cases)`` writes the notebook JSON that running a small
+analyst notebook would leave behind (each case displayed as its MIME bundle,
+exactly what ``Case._repr_mimebundle_`` emits in a kernel);
+``sealed_record`` turns it into a record with the record layer's own
+``build_record``. The scenario (a conveyor stoppage) is invented test data.
+"""
+
+from __future__ import annotations
+
+import copy
+from typing import Any
+
+import beliefledger as bl
+
+
+def conveyor_case(title: str = "Conveyor stoppage") -> bl.Case:
+    """Invented test data: three causes of a conveyor stoppage, two observed items."""
+    case = bl.Case(title, hypotheses={
+        "belt slip": {"prior": 0.45, "source": "maintenance log 2024-2026 (invented)"},
+        "motor overload": {"prior": 0.35, "source": "maintenance log 2024-2026 (invented)"},
+        "other cause": {"prior": 0.20, "source": "judgement (invented)"}})
+    case.add_evidence("thermal tag", states=["tripped", "clear"],
+                      likelihoods={"belt slip": [0.1, 0.9], "motor overload": [0.8, 0.2],
+                                   "other cause": [0.3, 0.7]},
+                      observed="tripped", source="relay maker's sheet (invented)")
+    case.add_evidence("belt marks", states=["glazed", "normal"],
+                      likelihoods={"belt slip": [0.7, 0.3], "motor overload": [0.2, 0.8],
+                                   "other cause": [0.4, 0.6]},
+                      observed="normal", source="inspection (invented)")
+    case.add_scenario("fleet rates", {"belt slip": 0.3, "motor overload": 0.5,
+                                      "other cause": 0.2}, source="fleet data (invented)")
+    return case
+
+
+def _bundle(obj: Any) -> dict[str, Any]:
+    data = obj._repr_mimebundle_() if hasattr(obj, "_repr_mimebundle_") else {
+        "text/plain": repr(obj), "text/html": obj._repr_html_()}
+    return copy.deepcopy(data)
+
+
+def executed_notebook(cases: list[bl.Case], *, heading: str = "Conveyor stoppage review"
+                      ) -> dict[str, Any]:
+    """Notebook JSON as a kernel run would leave it: one code cell per case."""
+    cells: list[dict[str, Any]] = [
+        {"cell_type": "markdown", "id": "intro", "metadata": {},
+         "source": f"# {heading}\n\nInvented test case for the reliability tests."}]
+    n = 0
+    for k, case in enumerate(cases):
+        n += 1
+        cells.append({
+            "cell_type": "code", "id": f"build-{k}", "metadata": {"tags": ["case"]},
+            "execution_count": n,
+            "source": f"case = build_case({k})  # prior of 'belt slip' is 0.45\ncase",
+            "outputs": [{"output_type": "execute_result", "execution_count": n,
+                         "metadata": {}, "data": _bundle(case)}]})
+        n += 1
+        trace = case.update()
+        cells.append({
+            "cell_type": "code", "id": f"trace-{k}", "metadata": {}, "execution_count": n,
+            "source": "trace = case.update()\nprint(trace.map_hypothesis)\ntrace",
+            "outputs": [{"output_type": "stream", "name": "stdout",
+                         "text": f"{trace.map_hypothesis}\n"},
+                        {"output_type": "execute_result", "execution_count": n,
+                         "metadata": {}, "data": _bundle(trace)}]})
+    cells.append({"cell_type": "markdown", "id": "close", "metadata": {},
+                  "source": "Conclusion: see the record below (invented)."})
+    return {"nbformat": 4, "nbformat_minor": 5,
+            "metadata": {"kernelspec": {"name": "python3", "display_name": "Python 3",
+                                        "language": "python"},
+                         "language_info": {"name": "python"}},
+            "cells": cells}
+
+
+def sealed_record(cases: list[bl.Case], **kw: Any) -> dict[str, Any]:
+    """A sealed record (notebook JSON) of ``cases``, sealed at a fixed time."""
+    from beliefledger.record.sealer import build_record
+
+    return build_record(executed_notebook(cases, **kw), notebook_name="review.ipynb",
+                        sealed_at="2026-12-01T12:00:00Z")
+
+
+def dumps(record: dict[str, Any]) -> str:
+    from beliefledger.record.sealer import dumps_notebook
+
+    return dumps_notebook(record)
