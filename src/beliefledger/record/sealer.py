@@ -163,9 +163,13 @@ def execute(nb: dict[str, Any], *, cwd: Path, timeout: int = DEFAULT_CELL_TIMEOU
             ) -> dict[str, Any]:
     """Run every cell in order in a fresh kernel; a raising cell stops the run with a
     RecordError naming the cell and the error."""
-    import nbformat
-    from nbclient import NotebookClient
-    from nbclient.exceptions import CellExecutionError, CellTimeoutError, DeadKernelError
+    try:
+        import nbformat
+        from nbclient import NotebookClient
+        from nbclient.exceptions import CellExecutionError, CellTimeoutError, DeadKernelError
+    except ImportError as exc:
+        raise RecordError(f"sealing needs {exc.name or 'nbclient'} to run the notebook; install "
+                          "it with pip install 'beliefledger[notebook]'") from None
 
     node = nbformat.from_dict(nb)
     n = len(node.cells)
