@@ -201,6 +201,12 @@ def execute(nb: dict[str, Any], *, cwd: Path, timeout: int = DEFAULT_CELL_TIMEOU
     except DeadKernelError as exc:
         raise RecordError(f"the kernel died while running the notebook ({exc}); nothing was "
                           "written") from None
+    except Exception as exc:
+        if type(exc).__name__ == "NoSuchKernel":
+            raise RecordError(f"no Jupyter kernel named {kernel_name!r} is installed; install "
+                              "ipykernel in this environment (pip install "
+                              "'beliefledger[notebook]')") from None
+        raise
     return json.loads(nbformat.writes(node))
 
 
