@@ -73,8 +73,11 @@ def test_verify_expect_fingerprint(rec, base_record, capsys):
 
 
 def test_unsigned_signoff_covers_the_root_and_breaks_on_change(rec, capsys):
+    html_copy = rec.with_name("case.sealed.html")
+    html_copy.write_text("old copy", encoding="utf-8")
     assert main(["sign", str(rec), "--reviewer", "P. Reviewer", "--comment", "checked"]) == 0
     assert "unsigned" in capsys.readouterr().out
+    assert "P. Reviewer" in html_copy.read_text(encoding="utf-8")  # the reading copy follows
     assert main(["verify", str(rec)]) == 0
     out = capsys.readouterr().out
     assert "sign-off 1 by P. Reviewer" in out and "valid" in out

@@ -212,6 +212,21 @@ def _css() -> str:
     return (_TEMPLATES / "record.css").read_text(encoding="utf-8")
 
 
+def _signoffs_html(signoffs: list[Any]) -> str:
+    if not signoffs:
+        return "<p>No reviewer sign-off yet.</p>"
+    items = []
+    for s in signoffs:
+        if not isinstance(s, dict):
+            continue
+        kind = (f"Ed25519-signed, key {s.get('key_id')}" if "signature" in s else "unsigned")
+        comment = f": &ldquo;{esc(s.get('comment'))}&rdquo;" if s.get("comment") else ""
+        items.append(f"<li>{esc(s.get('reviewer'))}, {esc(s.get('signed_at'))} ({esc(kind)}; "
+                     f"covers fingerprint {esc(s.get('fingerprint'))}){comment}</li>")
+    return ("<p>Sign-offs as written in the record (checked only by "
+            "<code>beliefledger verify</code>):</p><ul>" + "".join(items) + "</ul>")
+
+
 def render_html(nb: dict[str, Any]) -> str:
     """The whole record as one self-contained HTML page."""
     meta = (nb.get("metadata") or {}).get(META_KEY) or {}
@@ -246,7 +261,7 @@ def render_html(nb: dict[str, Any]) -> str:
               f'{esc(header.get("tool_version", "?"))}</p>'
               "<p>This page is a reading copy. The sealed notebook is the record: check it with "
               "<code>beliefledger verify</code> and compare the fingerprint with the one quoted "
-              "in the hand-over.</p></header>")
+              "in the hand-over.</p>" + _signoffs_html(meta.get("signoffs") or []) + "</header>")
     return ("<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">"
             f"<title>{esc(title)}: sealed record</title>"
             f"<style>{_css()}</style></head><body><main>"

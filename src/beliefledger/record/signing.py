@@ -245,6 +245,13 @@ def sign(path: str | Path, reviewer: str, comment: str = "", *, key: str | Path 
     new = copy.deepcopy(nb)
     new["metadata"][META_KEY].setdefault("signoffs", []).append(entry)
     write_text(Path(path), dumps_notebook(new))
+    from .sealer import html_path_for
+
+    html_copy = html_path_for(Path(path))
+    if html_copy.exists():  # keep the reading copy's list of sign-offs current
+        from .html import render_html
+
+        write_text(html_copy, render_html(new))
     return entry
 
 
