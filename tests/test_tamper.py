@@ -33,7 +33,7 @@ N_MUTATIONS = report.scaled(120, 1_200)
 
 @pytest.fixture(scope="module")
 def sealed():
-    return records.sealed_record([records.conveyor_case()])
+    return records.conveyor_record()
 
 
 def _digit_change(text: str, rnd: random.Random, pattern: str = r"\d") -> str | None:

@@ -81,6 +81,16 @@ def sealed_record(cases: list[bl.Case], **kw: Any) -> dict[str, Any]:
                         sealed_at="2026-12-01T12:00:00Z")
 
 
+_CACHE: dict[str, dict[str, Any]] = {}
+
+
+def conveyor_record() -> dict[str, Any]:
+    """The sealed record of :func:`conveyor_case`, built once per test session (a copy)."""
+    if "conveyor" not in _CACHE:
+        _CACHE["conveyor"] = sealed_record([conveyor_case()])
+    return copy.deepcopy(_CACHE["conveyor"])
+
+
 def dumps(record: dict[str, Any]) -> str:
     from beliefledger.record.sealer import dumps_notebook
 
