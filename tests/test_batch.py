@@ -7,10 +7,14 @@ from __future__ import annotations
 
 import doctest
 import math
+import subprocess
+import sys
 
 import numpy as np
 import pandas as pd
 import pytest
+from hypothesis import given
+from hypothesis import strategies as st
 
 import beliefledger as bl
 from beliefledger import batch
@@ -58,9 +62,10 @@ def random_observations(rng: np.random.Generator, case: bl.Case, n: int,
     return pd.DataFrame(data, index=pd.Index([f"case-{i:04d}" for i in range(n)], name="id"))
 
 
-def engine_row(model: bl.Case, row: pd.Series):
-    """The reference: the same model, this row's observations, the sequential engine."""
-    case = model.copy()
+def engine_row(model: bl.Case, row: pd.Series, work: bl.Case | None = None):
+    """The reference: the same model, this row's observations, the sequential engine.
+    ``work``: a copy of the model to reuse (every item's observation is set anew)."""
+    case = model.copy() if work is None else work
     for name in case.evidence_names:
         v = row.get(name)
         case.observe(name, None if v is None or (isinstance(v, float) and math.isnan(v)) else v)
@@ -88,8 +93,9 @@ def test_rows_equal_engine_on_seeded_sample(model, obs, rng):
     assert result["impossible"].any() and (~result["impossible"]).any()  # both kinds present
     assert (result["eliminated"] > 0).any()
     sample = rng.choice(len(obs), size=150, replace=False)
+    work = model.copy()
     for i in sample:
-        trace = engine_row(model, obs.iloc[i])
+        trace = engine_row(model, obs.iloc[i], work)
         got = result.iloc[i]
         np.testing.assert_allclose(got[hyps].to_numpy(dtype=float), trace.posterior.to_numpy(),
                                    rtol=1e-12, atol=1e-300)
@@ -102,6 +108,25 @@ def test_rows_equal_engine_on_seeded_sample(model, obs, rng):
         assert got["eliminated"] == len(trace.eliminated)
         assert got["n_observed"] == int(obs.iloc[i].notna().sum())
         assert got["log_evidence"] == pytest.approx(trace.log_evidence, rel=1e-12, abs=1e-12)
+
+
+@given(st.integers(0, 2**32 - 1))
+def test_generated_models_match_the_engine_on_every_row(seed):
+    rng = np.random.default_rng(seed)
+    model = random_model(rng, n_hyps=int(rng.integers(2, 6)), n_items=int(rng.integers(2, 6)),
+                         zero_share=float(rng.uniform(0, 0.5)))
+    obs = random_observations(rng, model, 12, missing=float(rng.uniform(0, 0.6)))
+    result = score_cases(model, obs, chunk_size=int(rng.integers(1, 13)))
+    hyps = model.hypothesis_names
+    work = model.copy()
+    for i in range(len(obs)):
+        trace = engine_row(model, obs.iloc[i], work)
+        got = result.iloc[i]
+        np.testing.assert_allclose(got[hyps].to_numpy(dtype=float), trace.posterior.to_numpy(),
+                                   rtol=1e-11, atol=1e-300)
+        assert got["map"] == trace.map_hypothesis
+        assert (None if pd.isna(got["stopped_at"]) else got["stopped_at"]) == trace.stopped_at
+        assert got["eliminated"] == len(trace.eliminated)
 
 
 def test_posteriors_are_finite_distributions(model, obs):
@@ -145,14 +170,19 @@ def test_chunk_size_does_not_change_results(model, obs, chunk_size):
                                   check_exact=True)
 
 
+@pytest.fixture
+def always_threads(monkeypatch):
+    monkeypatch.setattr(batch, "_THREAD_MIN_CELLS", 0)  # small test frames use threads too
+
+
 @pytest.mark.parametrize("threads", [1, 2, 3])
-def test_threads_do_not_change_results(model, obs, threads):
+def test_threads_do_not_change_results(model, obs, threads, always_threads):
     ref = score_cases(model, obs, chunk_size=50, threads=1)
     pd.testing.assert_frame_equal(score_cases(model, obs, chunk_size=50, threads=threads), ref,
                                   check_exact=True)
 
 
-def test_first_bad_row_is_reported_whatever_the_threads(model, obs):
+def test_first_bad_row_is_reported_whatever_the_threads(model, obs, always_threads):
     frame = obs.copy()
     frame.loc["case-0390", "item 0"] = "late typo"
     frame.loc["case-0061", "item 5"] = "early typo"
@@ -391,3 +421,17 @@ def test_dependent_evidence_is_refused_by_name():
 
 def test_exported_at_top_level():
     assert bl.score_cases is score_cases
+
+
+def test_pandas_scoring_loads_no_dask_and_no_notebook_packages():
+    code = ("import sys, pandas as pd, beliefledger as bl\n"
+            "m = bl.example_case()\n"
+            "e = m.evidence_names[0]\n"
+            "r = bl.score_cases(m, pd.DataFrame({e: [m.evidence[e].states[0], None]}))\n"
+            "assert len(r) == 2\n"
+            "print(sorted(x for x in ('dask', 'distributed', 'altair', 'ipywidgets', "
+            "'nbformat', 'scipy.stats') if x in sys.modules))\n")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                         timeout=120)
+    assert out.returncode == 0, out.stderr
+    assert out.stdout.strip() == "[]"

@@ -3,12 +3,17 @@
 :func:`score_cases` takes a model :class:`~beliefledger.case.Case` (its
 hypotheses, the priors of its active scenario and the likelihood table of
 each evidence item) and a table of observations, one row per case and one
-column per evidence item, and returns the posterior of every row. The work is
-vectorised over rows and done in chunks of rows, so memory stays bounded
-however many rows there are: per evidence item, the natural-log likelihood
-rows are gathered by observed-state index and added up; each chunk is then
-normalised with a log-sum-exp. A Dask DataFrame is scored partition by
-partition (``map_partitions``) and gives a Dask DataFrame back.
+column per evidence item, and returns the posterior of every row.
+
+How: each item's natural-log likelihood table is extended with two count
+columns (observed, unknown label) and neighbouring items are bundled into
+small combined tables (the outer sum of their tables, one row per joint
+state). A chunk of rows is then scored with one gather by joint-state code
+and one add per bundle, and one log-sum-exp per row; no Python code runs per
+row. Chunks are scored on a few threads (numpy releases the GIL), and the
+working memory beyond the result itself is a few chunks' worth, however many
+rows there are. A Dask DataFrame is scored partition by partition
+(``map_partitions``) and gives a Dask DataFrame back.
 
 The result equals :func:`beliefledger.engine.update` run on each row alone
 (the tests check this on a seeded random sample), including the two edge
@@ -21,8 +26,8 @@ cases the engine defines:
   impossible item (named in ``stopped_at``) and its posterior is the one just
   before that item, never NaN.
 
-Only numpy and pandas are imported here; dask is imported only when a Dask
-DataFrame is passed (``pip install 'beliefledger[dask]'``).
+Only numpy and pandas are imported here; this module never imports dask (a
+Dask DataFrame brings it along; ``pip install 'beliefledger[dask]'``).
 """
 
 from __future__ import annotations
@@ -52,6 +57,7 @@ UNKNOWN_COLUMN = "n_unknown"
 """Extra result column with ``on_unknown="skip"``: unknown labels skipped per row."""
 
 _CHUNK_BYTES = 4 * 2**20  # size of one chunk's (rows x hypotheses) float64 accumulator
+_THREAD_MIN_CELLS = 2**18  # below this many rows x hypotheses, threads cost more than they save
 
 
 @dataclass(frozen=True)
@@ -446,7 +452,7 @@ def _score_frame(model: _Model, frame: pd.DataFrame, columns: tuple[tuple[int, A
         o["log_ev"][a:b] = (top - model.log_prior_total) + np.log(total)
 
     starts = range(0, n, chunk)
-    if threads > 1 and len(starts) > 1:
+    if threads > 1 and len(starts) > 1 and n * h >= _THREAD_MIN_CELLS:
         # numpy releases the GIL in these loops; results are in order, so the first
         # bad row reported is the same as in a single thread
         with ThreadPoolExecutor(max_workers=threads) as pool:
