@@ -131,3 +131,15 @@ def test_round_trip_property(title, notes, where, p, q):
                       observed="x")
     again = casefile.loads(casefile.dumps(case))
     assert again.to_dict() == case.to_dict()
+
+
+def test_saved_files_get_the_usual_mode_and_keep_an_existing_one(tmp_path, small_case):
+    old = os.umask(0o022)
+    try:
+        path = small_case.save(tmp_path / "c.json")
+        assert path.stat().st_mode & 0o777 == 0o644
+        path.chmod(0o640)
+        small_case.save(path)
+        assert path.stat().st_mode & 0o777 == 0o640
+    finally:
+        os.umask(old)

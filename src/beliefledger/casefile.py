@@ -68,6 +68,15 @@ def atomic_write_text(path: str | Path, text: str) -> Path:
         raise CaseFileError(f"cannot save to {str(target)!r}: folder {str(folder)!r} does not exist")
     fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=folder)
     try:
+        # mkstemp makes the file owner-only; keep an existing file's mode, else the
+        # usual mode for a new file under the current umask
+        try:
+            mode = os.stat(target).st_mode & 0o777
+        except FileNotFoundError:
+            umask = os.umask(0)
+            os.umask(umask)
+            mode = 0o666 & ~umask
+        os.chmod(tmp, mode)
         with os.fdopen(fd, "w", encoding="utf-8", newline="\n") as fh:
             fh.write(text)
             fh.flush()
@@ -429,12 +438,12 @@ def _group_from_dict(g: Any, what: str, names: tuple[str, ...], case: Case) -> J
 
 
 EXTRA_VALIDATORS: dict[str, str] = {
-    "uncertainty": "beliefledger.sensitivity:validate_uncertainty",
+    "uncertainty": "beliefledger.uncertainty:validate_uncertainty",
     "decision": "beliefledger.value:validate_decision",
 }
 """extras key -> "module:function" validating that section: ``fn(value, case) -> value``
 (JSON-ready, normalised) or raise CaseError naming the field. Modules that keep
-inputs on the case register here (e.g. ``"uncertainty": "beliefledger.sensitivity:validate_uncertainty"``)."""
+inputs on the case register here (e.g. ``"uncertainty": "beliefledger.uncertainty:validate_uncertainty"``)."""
 
 
 EXTRA_HYPOTHESIS_HOOKS: dict[str, str] = {
