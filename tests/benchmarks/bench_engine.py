@@ -24,17 +24,26 @@ N_HYP = N_EV = 1000
 
 
 def make_case(seed: int = 11) -> bl.Case:
+    """The random case: one item built through the API, the rest cloned from its
+    dict form with fresh numbers (``Case.from_dict`` validates the whole case once,
+    much faster than 1,000 separate edits of a 1,000-hypothesis case)."""
     rng = np.random.default_rng(seed)
     hyps = [f"H{i:04d}" for i in range(N_HYP - 1)] + ["Other"]
-    case = bl.Case("engine benchmark (random, invented)",
-                   hypotheses=dict(zip(hyps, rng.dirichlet(np.ones(N_HYP)), strict=True)),
-                   normalize=True)
+    seed_case = bl.Case("engine benchmark (random, invented)",
+                        hypotheses=dict(zip(hyps, rng.dirichlet(np.ones(N_HYP)), strict=True)),
+                        normalize=True)
+    seed_case.add_evidence("E0000", states=["seen", "not seen"],
+                           likelihoods={h: [0.5, 0.5] for h in hyps}, observed="seen")
+    data = seed_case.to_dict()
+    template = data["evidence"][0]
+    items = []
     for k in range(N_EV):
         a = rng.uniform(0.05, 0.95, size=N_HYP)
-        case.add_evidence(f"E{k:04d}", states=["seen", "not seen"],
-                          likelihoods={h: [float(x), 1 - float(x)] for h, x in zip(hyps, a, strict=True)},
-                          observed="seen")
-    return case
+        items.append({**template, "name": f"E{k:04d}",
+                      "likelihoods": {h: [float(x), 1 - float(x)]
+                                      for h, x in zip(hyps, a, strict=True)}})
+    data["evidence"] = items
+    return bl.Case.from_dict(data)
 
 
 def _median(fn, repeat: int) -> float:
