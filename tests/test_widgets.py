@@ -544,3 +544,31 @@ def test_each_user_action_causes_exactly_one_recompute(wb, demo_case, action):
     assert len(edits) == 1 + setup
     assert wb.recomputes == before + 1 + setup
     pd.testing.assert_series_equal(wb.trace.posterior, engine.update(demo_case).posterior)
+
+
+def test_rerunning_the_cell_replaces_the_workbench(demo_case, monkeypatch):
+    first = Workbench(demo_case)
+    second = Workbench(demo_case)  # what re-running `wb = bl.Workbench(case)` does
+    counter = EngineCounter(monkeypatch)
+    paints = first.charts.paints
+    second.evidence.select("suction pressure trend")
+    second.evidence.observed.value = "steady"
+    assert counter.calls == 1
+    assert first.charts.paints == paints  # the replaced workbench no longer refreshes
+    assert second.trace.evidence_steps[-1] == "suction pressure trend"
+
+
+def test_views_of_one_case_share_one_recompute(demo_case, monkeypatch):
+    wb = Workbench(demo_case)
+    other = Workbench(demo_case, keep_previous=True)
+    editor = HypothesisEditor(demo_case)
+    assert wb.feed is other.feed is editor.feed
+    counter = EngineCounter(monkeypatch)
+    editor.row_for("other cause").prior.value = 0.12
+    assert counter.calls == 1
+    assert wb.trace is other.trace is editor.trace
+    assert wb.hypotheses.row_for("other cause").prior.value == pytest.approx(0.12)
+    assert editor.status.kind == "ok" and wb.status.kind == ""  # each view its own status
+    for view in (wb, other, editor):
+        view.close()
+    assert demo_case._listeners == []  # the last view closed lets go of the case

@@ -18,6 +18,7 @@ from __future__ import annotations
 
 import time
 import traceback
+import weakref
 from collections.abc import Callable
 from typing import TYPE_CHECKING, Any
 
@@ -119,7 +120,8 @@ class TraceFeed:
         check_case(case, "TraceFeed")
         self.case = case
         self.status = status if status is not None else StatusArea()
-        self._subscribers: list[Callable[[Trace], None]] = []
+        self._shared = False
+        self._subscribers: list[tuple[Callable[[Trace], None], StatusArea | None]] = []
         self.recomputes = 0
         self.last_seconds = 0.0
         self.last_error: str | None = None
@@ -129,8 +131,48 @@ class TraceFeed:
         self._compute()
         self._unsubscribe = case.on_change(self._on_change)
 
-    def subscribe(self, callback: Callable[[Trace], None]) -> None:
-        self._subscribers.append(callback)
+    @classmethod
+    def shared(cls, case: Case) -> TraceFeed:
+        """The one feed of ``case`` that every view shares (created on first use).
+
+        However many views show a case (a workbench, a standalone editor, a
+        cell run twice), an edit is then recomputed once. The feed lets go of
+        the case when its last view is closed.
+        """
+        check_case(case, "TraceFeed")
+        feed = _SHARED.get(case)
+        if feed is None:
+            feed = cls(case)
+            feed._shared = True
+            _SHARED[case] = feed
+        return feed
+
+    def subscribe(self, callback: Callable[[Trace], None],
+                  status: StatusArea | None = None) -> Callable[[], None]:
+        """Call ``callback(trace)`` after each recompute; returns an unsubscribe.
+
+        ``status`` (the view's status area) also shows an unexpected error
+        raised while refreshing any view.
+        """
+        entry = (callback, status)
+        self._subscribers.append(entry)
+
+        def unsubscribe() -> None:
+            if entry in self._subscribers:
+                self._subscribers.remove(entry)
+            if self._shared and not self._subscribers:
+                self.close()
+
+        return unsubscribe
+
+    @property
+    def statuses(self) -> list[StatusArea]:
+        """The distinct status areas of the feed and its views."""
+        out = [self.status]
+        for _, st in self._subscribers:
+            if st is not None and all(st is not o for o in out):
+                out.append(st)
+        return out
 
     def _compute(self, what: str | None = None) -> None:
         """Recompute the trace (and each scenario's, for the robustness line).
@@ -163,13 +205,14 @@ class TraceFeed:
         t0 = time.perf_counter()
         try:
             self._compute(what)
-            for cb in list(self._subscribers):
+            for cb, _ in list(self._subscribers):
                 cb(self.trace)
             self.last_error = None
         except Exception as exc:  # a bug in a view must be seen, never swallowed
             self.last_error = "".join(traceback.format_exception_only(type(exc), exc)).strip()
-            self.status.show(f"internal error while refreshing the view ({self.last_error}); "
-                             "the case itself was updated", "error")
+            for status in self.statuses:
+                status.show(f"internal error while refreshing the view ({self.last_error}); "
+                            "the case itself was updated", "error")
         self.last_seconds = time.perf_counter() - t0
 
     def robustness_line(self) -> str:
@@ -182,12 +225,18 @@ class TraceFeed:
         return line + ("; " + "; ".join(differ) if differ else "")
 
     def close(self) -> None:
+        """Stop following the case (views of this feed stop refreshing)."""
         self._unsubscribe()
         self._subscribers.clear()
+        if self._shared and _SHARED.get(self.case) is self:
+            del _SHARED[self.case]
 
     def __repr__(self) -> str:
         return (f"TraceFeed({self.case.title!r}: {self.recomputes} recomputes, "
                 f"{len(self._subscribers)} views)")
+
+
+_SHARED: weakref.WeakKeyDictionary = weakref.WeakKeyDictionary()
 
 
 class CaseView(W.VBox):
@@ -198,13 +247,12 @@ class CaseView(W.VBox):
         check_case(case, type(self).__name__)
         super().__init__(**kwargs)
         self.case = case
-        self._own_feed = feed is None
-        self.status = status if status is not None else (
-            feed.status if feed is not None else StatusArea())
-        self.feed = feed if feed is not None else TraceFeed(case, self.status)
+        self._own_feed = feed is None  # standalone: shows its own status area
+        self.status = status if status is not None else StatusArea()
+        self.feed = feed if feed is not None else TraceFeed.shared(case)
         self._syncing = False
         self.add_class("bl-w")
-        self.feed.subscribe(self._on_trace)
+        self._unsubscribe = self.feed.subscribe(self._on_trace, self.status)
 
     @property
     def trace(self) -> Trace:
@@ -248,9 +296,10 @@ class CaseView(W.VBox):
         raise NotImplementedError
 
     def close(self) -> None:
-        feed = getattr(self, "feed", None)
-        if feed is not None and getattr(self, "_own_feed", False):
-            feed.close()
+        unsubscribe = getattr(self, "_unsubscribe", None)
+        if unsubscribe is not None:
+            unsubscribe()
+            self._unsubscribe = None
         super().close()
 
     # display --------------------------------------------------------------

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import weakref
 from typing import TYPE_CHECKING, Any
 
 import ipywidgets as W
@@ -22,6 +23,9 @@ SAFETY_CAUTION = ("This case touches health or safety: local codes, regulations 
                   "practice prevail over any number shown here.")
 
 
+_LIVE: weakref.WeakKeyDictionary = weakref.WeakKeyDictionary()  # case -> its workbench
+
+
 class Workbench(CaseView):
     """One composite view of a case: scenario picker and posterior, findings, the
     hypothesis and evidence editors, the charts and the trace table.
@@ -37,6 +41,11 @@ class Workbench(CaseView):
     notebook's outputs. Later edits are not re-emitted: display the case
     again (``case`` as the last line of a cell) to record its final state.
 
+    All views of one case share one :class:`TraceFeed`, so an edit is
+    recomputed once however many views show the case. Building a new
+    workbench for a case closes the previous one (what re-running the cell
+    means); pass ``keep_previous=True`` to keep both live.
+
     Examples
     --------
     >>> import beliefledger as bl
@@ -45,19 +54,23 @@ class Workbench(CaseView):
     'compressor seal leak'
     """
 
-    def __init__(self, case, *, page_size: int = 12, **kwargs: Any) -> None:
+    def __init__(self, case, *, page_size: int = 12, keep_previous: bool = False,
+                 **kwargs: Any) -> None:
         check_case(case, "Workbench")
+        previous = _LIVE.get(case)
+        if previous is not None and not keep_previous:
+            previous.close()  # a re-run cell replaces its workbench
         status = StatusArea()
-        feed = TraceFeed(case, status)
+        feed = TraceFeed.shared(case)
         super().__init__(case, feed=feed, status=status, **kwargs)
-        self._own_feed = True
+        _LIVE[case] = self
         self.header = W.HTML()
-        self.scenarios = ScenarioPicker(case, feed=feed)
-        self.findings = FindingsPanel(case, feed=feed)
-        self.hypotheses = HypothesisEditor(case, feed=feed, page_size=page_size)
-        self.evidence = EvidenceEditor(case, feed=feed)
-        self.charts = ChartPanel(case, feed=feed)
-        self.trace_table = TraceTable(case, feed=feed)
+        self.scenarios = ScenarioPicker(case, feed=feed, status=status)
+        self.findings = FindingsPanel(case, feed=feed, status=status)
+        self.hypotheses = HypothesisEditor(case, feed=feed, status=status, page_size=page_size)
+        self.evidence = EvidenceEditor(case, feed=feed, status=status)
+        self.charts = ChartPanel(case, feed=feed, status=status)
+        self.trace_table = TraceTable(case, feed=feed, status=status)
         self.editors = W.Tab(children=[self.hypotheses, self.evidence],
                              titles=["hypotheses and priors", "evidence"])
         top = W.HBox([self.scenarios, self.findings], layout=W.Layout(flex_flow="row wrap"))
@@ -90,6 +103,9 @@ class Workbench(CaseView):
                              f"<p class='bl-caution'>{esc(caution)}</p>")
 
     def close(self) -> None:
+        case = getattr(self, "case", None)
+        if case is not None and _LIVE.get(case) is self:
+            del _LIVE[case]
         for name in ("scenarios", "findings", "hypotheses", "evidence", "charts", "trace_table"):
             view = getattr(self, name, None)
             if view is not None:
