@@ -166,6 +166,15 @@ def test_probability_path_folds_small_hypotheses_into_others(rng):
     np.testing.assert_allclose(data.groupby("order")["probability"].sum(), 1.0)
     peak = trace.steps.max(axis=0).sort_values(ascending=False, kind="stable")
     assert set(peak.index[:4]) <= set(data["hypothesis"])
+    spec = charts.probability_path(trace, max_lines=5).to_dict()
+    line = next(layer for layer in spec["layer"] if layer["mark"]["type"] == "line"
+                and "color" in layer["encoding"])
+    scale = line["encoding"]["color"]["scale"]
+    styles = dict(zip(scale["domain"], scale["range"], strict=True))
+    assert styles["(16 others)"] == charts.NEUTRAL_COLOUR  # the folded line is grey
+    named = [styles[h] for h in scale["domain"] if h != "(16 others)"]
+    assert named == list(charts.OKABE_ITO[:4])
+    assert charts.OKABE_ITO[-1] == "#F0E442"  # yellow, weak on paper, is used last
 
 
 # --------------------------------------------------------------------------- prior vs posterior

@@ -53,9 +53,10 @@ if TYPE_CHECKING:  # pragma: no cover
 
 # --------------------------------------------------------------------------- visual language
 
-OKABE_ITO = ("#0072B2", "#E69F00", "#009E73", "#CC79A7", "#56B4E9", "#D55E00", "#F0E442",
-             "#000000")
-"""Okabe-Ito colour-blind-safe palette (reordered: strongest contrasts first)."""
+OKABE_ITO = ("#0072B2", "#E69F00", "#009E73", "#CC79A7", "#56B4E9", "#D55E00", "#000000",
+             "#F0E442")
+"""Okabe-Ito colour-blind-safe palette, reordered so the yellow (weak on white
+paper) comes last."""
 
 SUPPORT_COLOUR = "#0072B2"   # blue: evidence for the focus hypothesis
 AGAINST_COLOUR = "#D55E00"   # vermillion: evidence against it
@@ -91,6 +92,32 @@ def _config(chart):
                             domainColor="#888888", tickColor="#888888")
             .configure_legend(labelFontSize=11, titleFontSize=12, labelLimit=260)
             .configure_title(fontSize=14, anchor="start", fontWeight="bold"))
+
+
+def line_styles(names: list[str]) -> tuple[list[str], list[list[int]]]:
+    """Colour and dash pattern of each line of the probability path, in order.
+
+    Named hypotheses cycle through the palette, then through dash patterns;
+    the folded "(N others)" line is always neutral grey and dotted.
+    """
+    colours, dashes, k = [], [], 0
+    for name in names:
+        if _is_folded(name):
+            colours.append(NEUTRAL_COLOUR)
+            dashes.append([1, 2])
+            continue
+        colours.append(OKABE_ITO[k % len(OKABE_ITO)])
+        dashes.append(DASHES[(k // len(OKABE_ITO)) % len(DASHES)])
+        k += 1
+    return colours, dashes
+
+
+def _folded_name(n: int) -> str:
+    return f"({n} others)"
+
+
+def _is_folded(name: str) -> bool:
+    return name.startswith("(") and name.endswith(" others)") and name[1:-8].isdigit()
 
 
 def _unique_step_labels(steps: list[str]) -> list[str]:
@@ -331,7 +358,7 @@ def probability_path_data(trace: Trace, *, max_lines: int = 8) -> pd.DataFrame:
         add(h, col, first_zero)
     if rest:
         rest_idx = [hyps.index(h) for h in rest]
-        add(f"({len(rest)} others)", np.minimum(1.0, probs[:, rest_idx].sum(axis=1)), None)
+        add(_folded_name(len(rest)), np.minimum(1.0, probs[:, rest_idx].sum(axis=1)), None)
     return pd.DataFrame(cols, columns=["order", "step", "hypothesis", "probability",
                                        "eliminated", "eliminated_here"])
 
@@ -353,8 +380,7 @@ def probability_path(trace: Trace, *, max_lines: int = 8) -> alt.LayerChart:
     data = probability_path_data(trace, max_lines=max_lines)
     order = [PRIOR_LABEL, *_unique_step_labels(trace.evidence_steps)]
     hyp_order = list(dict.fromkeys(data["hypothesis"]))
-    colours = [OKABE_ITO[i % len(OKABE_ITO)] for i in range(len(hyp_order))]
-    dashes = [DASHES[(i // len(OKABE_ITO)) % len(DASHES)] for i in range(len(hyp_order))]
+    colours, dashes = line_styles(hyp_order)
     x = alt.X("step:N", sort=order, title=None,
               axis=alt.Axis(labelAngle=-35, labelLimit=180, labelOverlap=False))
     colour = alt.Color("hypothesis:N", sort=hyp_order,

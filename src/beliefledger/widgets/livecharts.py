@@ -172,9 +172,9 @@ def path_svg(data: pd.DataFrame, *, subtitle: str = "", plot_width: float = 560)
         groups[row[0]].append(row[1:])
     for rows in groups.values():
         rows.sort(key=lambda r: r[0])
+    colours, dashes = C.line_styles(hyps)
     for i, h in enumerate(hyps):
-        colour = C.OKABE_ITO[i % len(C.OKABE_ITO)]
-        dash = C.DASHES[(i // len(C.OKABE_ITO)) % len(C.DASHES)]
+        colour, dash = colours[i], dashes[i]
         dash_attr = "" if dash == [1, 0] else f' stroke-dasharray="{",".join(map(str, dash))}"'
         rows = groups[h]
         live = [r for r in rows if not r[2] or r[3]]
