@@ -139,6 +139,12 @@ def test_robustness_line_names_a_scenario_that_changes_the_map():
     assert rob.changed_under == ["B favoured"]
 
 
+def test_robustness_line_with_no_scenarios(small_case):
+    assert ScenarioPicker(small_case).feed.robustness_line() == (
+        "MAP 'H1' under the only prior scenario; add scenarios with case.add_scenario(...) "
+        "to test the priors")
+
+
 def test_workbench_display_carries_the_case_for_the_sealer(wb, demo_case):
     bundle = wb._repr_mimebundle_()
     assert bundle[CASE_MIMETYPE] == envelope(demo_case)

@@ -219,6 +219,9 @@ class TraceFeed:
         """'MAP unchanged under k of n scenarios', naming the scenarios that differ."""
         ref = self.trace.map_hypothesis
         maps = self.scenario_maps
+        if len(maps) < 2:
+            return (f"MAP '{ref}' under the only prior scenario; add scenarios with "
+                    "case.add_scenario(...) to test the priors")
         same = [n for n, m in maps.items() if m == ref]
         differ = [f"'{n}' gives '{m}'" for n, m in maps.items() if m != ref]
         line = (f"MAP '{ref}' unchanged under {len(same)} of {len(maps)} prior scenarios")
