@@ -2,10 +2,12 @@
 
 A :class:`TraceFeed` is the one place where a case is recomputed. It
 listens to ``case.on_change`` once, runs ``case.update()`` once per
-successful edit (plus the per-scenario MAPs for the robustness line), and
-hands the new trace to every view that subscribed. Views never call the
-engine themselves, so one user action costs exactly one recompute however
-many views are on screen; ``feed.recomputes`` counts them.
+successful edit (plus each scenario's trace for the robustness line and the
+chart overlay; a mere switch of scenario reuses those), and hands the new
+trace to every view that subscribed. All views of one case share one feed
+(:meth:`TraceFeed.shared`), and views never call the engine themselves, so
+one user action costs exactly one recompute however many views are on
+screen; ``feed.recomputes`` counts them.
 
 Views edit the case only through its own methods, inside
 :meth:`CaseView._apply`, which catches a rejected edit

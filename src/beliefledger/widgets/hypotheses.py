@@ -79,7 +79,7 @@ class HypothesisEditor(CaseView):
     page_size : int
         Rows shown at a time.
     feed, status : optional
-        Share a :class:`~beliefledger.widgets.TraceFeed` and status area with
+        Share a :class:`~beliefledger.widgets._base.TraceFeed` and status area with
         other views (the :class:`Workbench` does).
     """
 
