@@ -247,7 +247,7 @@ def interact(page, result: dict, step) -> None:
         page.wait_for_function(
             "(t) => { const e = document.querySelector('.bl-workbench .bl-status');"
             " return e && e.textContent.includes(t); }",
-            arg=f"observed as '{STATE}'", timeout=10_000)
+            arg=f"observed as '{STATE}'", timeout=45_000)
     except Exception:  # noqa: BLE001 - the test reports what was shown
         pass
     result["status"] = page.locator(".bl-workbench .bl-status").first.text_content()

@@ -13,18 +13,18 @@ browser shows its value on hover.
 from __future__ import annotations
 
 import math
-from html import escape
 
 import numpy as np
 import pandas as pd
 
 from .. import charts as C
+from ..display import esc
 
 FONT = f"{C.FONT}, Verdana, sans-serif"
 
 
 def _t(text: object) -> str:
-    return escape(str(text), quote=True)
+    return esc(text)  # escaped, control and bidi characters made visible
 
 
 def _short(text: object, limit: int) -> str:
