@@ -514,6 +514,23 @@ def test_live_charts_escape_user_text_and_mark_eliminations():
     assert "B" in bold
 
 
+def test_live_charts_stay_well_formed_with_control_characters():
+    from beliefledger import charts
+    from beliefledger.widgets import livecharts
+
+    odd = "A\x00\x1b[31m\u202e"
+    case = bl.Case("ctl\x07", hypotheses={odd: 0.5, "Other": 0.5})
+    case.add_evidence("E\x1b", states=["s", "t"],
+                      likelihoods={odd: [0.6, 0.4], "Other": [0.5, 0.5]}, observed="s")
+    trace = case.update()
+    for svg in (livecharts.waterfall_svg(charts.waterfall_data(trace), focus=odd),
+                livecharts.path_svg(charts.probability_path_data(trace)),
+                livecharts.prior_posterior_svg(charts.prior_posterior_data(trace),
+                                               map_hypothesis=trace.map_hypothesis)):
+        root = _parse_svg(svg)  # XML forbids raw control characters: they are shown as \uXXXX
+        assert "\\u001b" in "".join(root.itertext()) + svg
+
+
 def test_nice_ticks():
     from beliefledger.widgets.livecharts import nice_ticks
 
