@@ -428,7 +428,9 @@ class JointGroup:
         a = evidence[self.members[0]].table
         b = evidence[self.members[1]].table
         sign = np.array([[1.0, -1.0], [-1.0, 1.0]])
-        return a[:, None, :] * b[None, :, :] + sign[:, :, None] * self._covariance[None, None, :]
+        cells = a[:, None, :] * b[None, :, :] + sign[:, :, None] * self._covariance[None, None, :]
+        # at a feasible bound one cell is 0 in exact arithmetic; rounding can leave -1e-18
+        return np.maximum(cells, 0.0)
 
     def _replace(self, **changes: Any) -> JointGroup:
         kw = {"name": self.name, "members": self.members, "hypotheses": self.hypotheses,
