@@ -39,6 +39,7 @@ from __future__ import annotations
 
 import functools
 import math
+import re
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
@@ -299,7 +300,7 @@ def waterfall(trace: Trace, focus: str | None = None) -> alt.LayerChart:
 
 
 def _short(name: str, limit: int = 48) -> str:
-    name = str(name)
+    name = " ".join(str(name).split())  # one line: a raw line break breaks vega-lite's tooltips
     return name if len(name) <= limit else name[: limit - 1] + "\u2026"
 
 
@@ -532,7 +533,23 @@ def to_svg(chart: Any) -> str:
     import vl_convert as vlc
 
     spec = chart.to_dict() if hasattr(chart, "to_dict") else chart
-    return vlc.vegalite_to_svg(spec, vl_version=_vl_version())
+    return vlc.vegalite_to_svg(_printable(spec), vl_version=_vl_version())
+
+
+_CONTROL_RE = re.compile(r"[\x00-\x09\x0b-\x1f\x7f-\x9f\u2028\u2029]")
+
+
+def _printable(obj: Any) -> Any:
+    """The spec with control characters in its strings shown as ``\\uXXXX`` (line
+    breaks kept for multi-line labels): an ESC or NUL in a name aborts vl-convert's
+    renderer (the whole process, not an exception), and U+2028 breaks its parser."""
+    if isinstance(obj, str):
+        return _CONTROL_RE.sub(lambda m: f"\\u{ord(m.group()):04x}", obj)
+    if isinstance(obj, list):
+        return [_printable(x) for x in obj]
+    if isinstance(obj, dict):
+        return {_printable(k): _printable(v) for k, v in obj.items()}
+    return obj
 
 
 class StaticChart:
