@@ -122,7 +122,12 @@ def add_parsers(sub: argparse._SubParsersAction) -> None:
     d.add_argument("--timeout", type=int, default=600, help="seconds per cell (default 600)")
     d.set_defaults(handler=_cmd_demo)
 
-    s = sub.add_parser("seal", help="execute a notebook afresh and write a sealed record")
+    s = sub.add_parser(
+        "seal", help="execute a notebook afresh and write a sealed record",
+        description="Execute NOTEBOOK, and only that notebook, from top to bottom in a fresh "
+                    "Python kernel: its code runs with your permissions, so seal only a "
+                    "notebook you trust. Then write the sealed record and its offline HTML. "
+                    "verify and diff never execute notebook code.")
     s.add_argument("notebook", help="the analyst's .ipynb")
     s.add_argument("--out", help="sealed notebook path (default NAME.sealed.ipynb beside it)")
     s.add_argument("--force", action="store_true", help="overwrite an existing record")
@@ -131,7 +136,10 @@ def add_parsers(sub: argparse._SubParsersAction) -> None:
     s.set_defaults(handler=_cmd_seal)
 
     v = sub.add_parser("verify", help="check a sealed record (exit 0 intact and reproducible, "
-                                      "1 not, 2 unusable)")
+                                      "1 not, 2 unusable)",
+                       description="Check a sealed record's digests and recompute its cases "
+                                   "with the engine. Reads the notebook as plain JSON: no "
+                                   "notebook code is executed.")
     v.add_argument("record", help="a sealed .ipynb")
     v.add_argument("--json", action="store_true", help="machine-readable report")
     v.add_argument("--expect", metavar="FINGERPRINT",
@@ -141,7 +149,10 @@ def add_parsers(sub: argparse._SubParsersAction) -> None:
                         "(repeatable)")
     v.set_defaults(handler=_cmd_verify)
 
-    f = sub.add_parser("diff", help="what changed between two records or case files")
+    f = sub.add_parser("diff", help="what changed between two records or case files",
+                       description="Compare the assumptions and results of two records or "
+                                   "case files. Reads them as plain JSON: no notebook code is "
+                                   "executed.")
     f.add_argument("old", help="earlier record (.ipynb) or case file (.json)")
     f.add_argument("new", help="later record or case file")
     f.add_argument("--format", choices=["text", "markdown", "html"], default="text")
