@@ -34,6 +34,12 @@ def conveyor_case(title: str = "Conveyor stoppage") -> bl.Case:
     return case
 
 
+MARKER = "NOTEBOOK_CODE_RAN"
+"""A file the payload cell would create in the working folder if it were executed."""
+PAYLOAD = (f"import pathlib; pathlib.Path({MARKER!r}).write_text('ran')\n"
+           f"__import__('os').system('touch {MARKER}_2')")
+
+
 def _bundle(obj: Any) -> dict[str, Any]:
     data = obj._repr_mimebundle_() if hasattr(obj, "_repr_mimebundle_") else {
         "text/plain": repr(obj), "text/html": obj._repr_html_()}
@@ -64,6 +70,9 @@ def executed_notebook(cases: list[bl.Case], *, heading: str = "Conveyor stoppage
                          "text": f"{trace.map_hypothesis}\n"},
                         {"output_type": "execute_result", "execution_count": n,
                          "metadata": {}, "data": _bundle(trace)}]})
+    # code that must never run outside a seal: verify, diff and the loaders read it as text
+    cells.append({"cell_type": "code", "id": "payload", "metadata": {}, "execution_count": n + 1,
+                  "source": PAYLOAD, "outputs": []})
     cells.append({"cell_type": "markdown", "id": "close", "metadata": {},
                   "source": "Conclusion: see the record below (invented)."})
     return {"nbformat": 4, "nbformat_minor": 5,
