@@ -1939,7 +1939,8 @@ def _check_keys(what: str, mapping: Mapping, expected: tuple[str, ...], kind: st
     if missing:
         raise CaseError(f"{kind} of {what} are missing hypothesis(es) {_short_list(missing)}; "
                         "give a value for every hypothesis")
-    extra = [k for k in keys if k not in expected]
+    known = set(expected)
+    extra = [k for k in keys if k not in known]
     if extra:
         raise CaseError(f"{kind} of {what} name unknown hypothesis(es) {_short_list(extra)}; "
                         f"the hypotheses are {_short_list(expected)}")
@@ -2073,8 +2074,8 @@ def _parse_table(name: str, spec: Any, states: Iterable[str] | None,
     if len(set(st)) != len(st):
         dup = sorted({s for s in st if st.count(s) > 1})
         raise CaseError(f"evidence '{name}' lists state(s) {dup} twice; state names must be unique")
-    table = np.empty((len(st), len(hyps)))
-    for j, h in enumerate(hyps):
+    columns = []
+    for h in hyps:
         col = spec[h]
         if isinstance(col, Mapping):
             miss = [s for s in st if s not in col]
@@ -2093,12 +2094,39 @@ def _parse_table(name: str, spec: Any, states: Iterable[str] | None,
             raise CaseTypeError(f"likelihoods of evidence '{name}' for hypothesis '{h}' must be a "
                                 f"list over the states or a dict state -> p, got "
                                 f"{type(col).__name__}")
+        columns.append(vals)
+    table = _probability_table(
+        columns, lambda i, j: (f"likelihood of state '{st[i]}' of evidence '{name}' under "
+                               f"hypothesis '{hyps[j]}'"))
+    return st, table
+
+
+def _probability_table(columns: list[list[Any]], describe: Callable[[int, int], str]) -> np.ndarray:
+    """Check a table given as columns of values and return it as states x hypotheses.
+
+    Plain numbers are checked in one vectorised pass; anything else (strings,
+    booleans, objects) goes through :func:`_check_probability` entry by entry,
+    so the error names the first bad entry either way.
+    """
+    try:
+        arr = np.asarray(columns)
+    except (ValueError, TypeError):
+        arr = None
+    if (arr is not None and arr.ndim == 2 and arr.dtype.kind in "fiu"
+            and not any(isinstance(v, bool | np.bool_) for col in columns for v in col)):
+        with np.errstate(invalid="ignore"):
+            a = arr.astype(float)
+            ok = np.isfinite(a) & (a >= 0) & (a <= 1)
+        if ok.all():
+            return np.ascontiguousarray(a.T)
+    n_states = len(columns[0]) if columns else 0
+    table = np.empty((n_states, len(columns)))
+    for j, vals in enumerate(columns):
         for i, v in enumerate(vals):
             if isinstance(v, np.generic):
                 v = v.item()
-            table[i, j] = _check_probability(
-                f"likelihood of state '{st[i]}' of evidence '{name}' under hypothesis '{h}'", v)
-    return st, table
+            table[i, j] = _check_probability(describe(i, j), v)
+    return table
 
 
 def _parse_column(ev: Evidence, hyp: str, value: Any) -> np.ndarray:

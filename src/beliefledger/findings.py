@@ -158,13 +158,20 @@ def _check_catch_all(case: Case, trace: Trace) -> Iterator[Finding]:
 
 
 def _step_decibans(trace: Trace) -> np.ndarray:
-    """Weight (decibans) of each evidence step for the MAP hypothesis against the rest."""
+    """Weight (decibans) of each evidence step for the MAP hypothesis against the rest
+    (computed once per trace; several checks use it)."""
+    cached = trace.__dict__.get("_map_step_decibans")
+    if cached is not None:
+        return cached
     if len(trace.steps) < 2:
-        return np.zeros(0)
-    j = trace.hypotheses.index(trace.map_hypothesis)
-    lo = log_odds_path(trace.log_steps, j)
-    with np.errstate(invalid="ignore"):
-        return np.diff(lo) * DECIBANS_PER_NAT
+        out = np.zeros(0)
+    else:
+        j = trace.hypotheses.index(trace.map_hypothesis)
+        lo = log_odds_path(trace.log_steps, j)
+        with np.errstate(invalid="ignore"):
+            out = np.diff(lo) * DECIBANS_PER_NAT
+    trace.__dict__["_map_step_decibans"] = out
+    return out
 
 
 def _check_dominant(case: Case, trace: Trace) -> Iterator[Finding]:
