@@ -258,10 +258,30 @@ def test_large_case_files_load_compute_and_page(tmp_path, n_hyp, n_ev):
     assert casefile.loads(casefile.dumps(loaded)).to_dict() == loaded.to_dict()
     trace = loaded.update()
     assert abs(trace.posterior.sum() - 1) < 1e-9
+    _assert_views_page(loaded)
     html = bl.display.case_html(loaded)
     assert "more hypotheses" in html or "more items" in html  # paged, not 10,000 rows
     assert html.count("<tr>") <= 2 * 51
     report.add("case files", large_files_loaded=1)
+
+
+def _count_widgets(w, seen=None) -> int:
+    seen = set() if seen is None else seen
+    if id(w) in seen:
+        return 0
+    seen.add(id(w))
+    return 1 + sum(_count_widgets(c, seen) for c in (getattr(w, "children", ()) or ()))
+
+
+def _assert_views_page(case) -> None:
+    """The editors show one page of a huge case, not a widget per row."""
+    try:
+        from beliefledger.widgets import EvidenceEditor, HypothesisEditor
+    except ImportError:
+        return
+    for cls in (HypothesisEditor, EvidenceEditor):
+        n = _count_widgets(cls(case))
+        assert n < 1_000, f"{cls.__name__} built {n} widgets for a large case"
 
 
 def test_registered_extras_validators_are_importable():
