@@ -10,6 +10,7 @@ applies byte-level damage (truncation, inserted garbage) with a seeded
 
 from __future__ import annotations
 
+import functools
 import json
 import math
 import random
@@ -55,27 +56,48 @@ names = st.one_of(
 texts = st.one_of(st.just(""), st.text(_CHARS, max_size=40), st.sampled_from(HOSTILE))
 
 
+@functools.cache
 def _unique(n_min: int, n_max: int, exclude: tuple[str, ...] = ()):
-    return st.lists(names.filter(lambda s: s not in exclude), min_size=n_min, max_size=n_max,
-                    unique=True)
+    # strategies are built once and reused: building them is most of the cost
+    pool = names.filter(lambda s: s not in exclude) if exclude else names
+    return st.lists(pool, min_size=n_min, max_size=n_max, unique=True)
+
+
+_SOURCE_KEYS = st.lists(st.sampled_from(["where", "who", "when", "why"]), unique=True)
 
 
 @st.composite
-def sources(draw) -> dict[str, str]:
-    keys = draw(st.lists(st.sampled_from(["where", "who", "when", "why"]), unique=True))
-    return {k: draw(texts) for k in keys}
+def _sources(draw) -> dict[str, str]:
+    return {k: draw(texts) for k in draw(_SOURCE_KEYS)}
 
 
-@st.composite
-def distributions(draw, n: int, zeros: bool = True) -> list[float]:
-    """``n`` non-negative numbers summing to 1 (some exact zeros when allowed)."""
-    lo = 0.0 if zeros else 1e-6
-    w = draw(st.lists(st.one_of(st.floats(lo, 1.0), st.sampled_from([lo, 1e-300, 1.0])),
-                      min_size=n, max_size=n))
+_SOURCES = _sources()
+
+
+def sources():
+    """A Source as a dict with some of where/who/when/why."""
+    return _SOURCES
+
+
+_WEIGHT = st.one_of(st.floats(0.0, 1.0), st.sampled_from([0.0, 1e-300, 1.0]))
+
+
+@functools.cache
+def _weights(n: int):
+    return st.lists(_WEIGHT, min_size=n, max_size=n)
+
+
+def _normalised(w: list[float]) -> list[float]:
     if sum(w) <= 0:
-        w[draw(st.integers(0, n - 1))] = 1.0
+        w = [1.0] + w[1:]
     total = math.fsum(w)
     return [x / total for x in w]
+
+
+@functools.cache
+def distributions(n: int):
+    """``n`` non-negative numbers summing to 1 (some exact zeros)."""
+    return _weights(n).map(_normalised)
 
 
 json_leaf = st.one_of(st.none(), st.booleans(), st.integers(-10**6, 10**6),
@@ -83,9 +105,18 @@ json_leaf = st.one_of(st.none(), st.booleans(), st.integers(-10**6, 10**6),
 json_values = st.recursive(json_leaf, lambda inner: st.one_of(
     st.lists(inner, max_size=3), st.dictionaries(names, inner, max_size=3)), max_leaves=8)
 
+_PROB = st.floats(0, 1)
+_SMALL = st.integers(0, 3)
+_ASSUMPTIONS = st.lists(st.fixed_dictionaries({"kind": texts, "target": texts, "detail": texts}),
+                        max_size=2)
+
 # extras keys owned by analysis modules carry their own schemas; keep generated
 # sections out of their way
 RESERVED_EXTRAS = ("uncertainty", "decision")
+
+
+_EXTRAS = st.dictionaries(names.filter(lambda s: s not in RESERVED_EXTRAS), json_values,
+                          max_size=2)
 
 
 @st.composite
@@ -117,7 +148,7 @@ def case_dicts(draw, max_hypotheses: int = 6, max_evidence: int = 5,
         only = draw(st.integers(0, 4)) == 0
         if only:
             states = draw(_unique(1, 1))
-            lik = {h: [draw(st.floats(0, 1))] for h in hyp}
+            lik = {h: [draw(_PROB)] for h in hyp}
             observed = states[0]
         else:
             states = draw(_unique(1, 4))
@@ -134,10 +165,10 @@ def case_dicts(draw, max_hypotheses: int = 6, max_evidence: int = 5,
         if draw(st.booleans()):
             e["source"] = draw(sources())
         if draw(st.booleans()):
-            pairs = draw(st.lists(st.tuples(st.sampled_from(states), st.sampled_from(hyp)),
-                                  unique=True, max_size=3))
+            pairs = {(states[draw(st.integers(0, len(states) - 1))],
+                      hyp[draw(st.integers(0, len(hyp) - 1))]) for _ in range(draw(_SMALL))}
             e["entry_sources"] = [{"state": s, "hypothesis": h, "source": draw(sources())}
-                                  for s, h in pairs]
+                                  for s, h in sorted(pairs)]
         evidence.append(e)
     if evidence or draw(st.booleans()):
         d["evidence"] = evidence
@@ -155,11 +186,9 @@ def case_dicts(draw, max_hypotheses: int = 6, max_evidence: int = 5,
     if scen and draw(st.booleans()):
         d["active_scenario"] = draw(st.sampled_from(["base", *[s["name"] for s in scen]]))
     if draw(st.booleans()):
-        d["assumptions"] = draw(st.lists(st.fixed_dictionaries(
-            {"kind": texts, "target": texts, "detail": texts}), max_size=2))
+        d["assumptions"] = draw(_ASSUMPTIONS)
     if draw(st.booleans()):
-        d["extras"] = draw(st.dictionaries(
-            names.filter(lambda s: s not in RESERVED_EXTRAS), json_values, max_size=2))
+        d["extras"] = draw(_EXTRAS)
     return d
 
 
@@ -338,7 +367,8 @@ def mutated_files(draw) -> Broken:
                     parent[new] = parent.pop(last)
                     tokens.add(new)
     try:
-        text = json.dumps(root, ensure_ascii=draw(st.booleans()), allow_nan=True, indent=1)
+        indent = None if "deep" in kinds else 1  # indenting deep nesting costs O(depth**2)
+        text = json.dumps(root, ensure_ascii=draw(st.booleans()), allow_nan=True, indent=indent)
     except (RecursionError, ValueError):
         # json.dumps itself cannot nest that deep; write the nesting by hand
         text = _dumps_deep(root)
