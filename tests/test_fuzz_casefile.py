@@ -33,8 +33,8 @@ from helpers.contract import check_computes, check_load, check_refusal
 
 _report = report.reporting_fixture("case files")
 
-N_GENERATED = report.scaled(100, 10_500)
-N_VALID = report.scaled(40, 2_000)
+N_GENERATED = report.scaled(300, 10_500)
+N_VALID = report.scaled(80, 2_000)
 N_LARGE = report.scaled(2_000, 10_000)
 N_BYTES = report.scaled(300, 5_000)
 

@@ -26,7 +26,7 @@ from helpers.editgen import BAD_NAMES, BAD_NUMBERS, draw_edit
 
 _report = report.reporting_fixture("edits")
 
-N_SEQUENCES = report.scaled(40, 1_100)
+N_SEQUENCES = report.scaled(80, 1_100)
 EDITS_PER_SEQUENCE = 10
 
 

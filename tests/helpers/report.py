@@ -8,6 +8,7 @@ so the figures can be quoted in the README.
 
 from __future__ import annotations
 
+import contextlib
 import json
 import os
 import time
@@ -67,8 +68,12 @@ def reporting_fixture(*groups: str):
             _counts.pop(g, None)
         yield
         reporter = request.config.pluginmanager.get_plugin("terminalreporter")
-        if reporter is not None:
-            reporter.ensure_newline()
-        _flush([g for g in groups if g in _counts], reporter)
+        capman = request.config.pluginmanager.get_plugin("capturemanager")
+        # output is captured during teardown; suspend capture so the line shows
+        ctx = capman.global_and_fixture_disabled() if capman else contextlib.nullcontext()
+        with ctx:
+            if reporter is not None:
+                reporter.write_line("")
+            _flush([g for g in groups if g in _counts], reporter)
 
     return _reliability_report
