@@ -144,3 +144,29 @@ def test_constructor_refuses_bad_tables_clearly():
             check_refusal(exc, [token], f"Case(hypotheses={hyps!r})")
         else:
             raise AssertionError(f"Case accepted {hyps!r}")
+
+
+def test_the_contract_itself_catches_violations(small_case):
+    """The checker fails on each kind of violation (so the fuzz tests can fail)."""
+    from beliefledger.errors import CaseError
+    from helpers.contract import ContractBroken, check_load
+
+    events: list[str] = []
+
+    def half_done():
+        small_case._hyps.pop("H2")  # changes the case, then refuses
+        raise CaseError("prior of 'H2' refused")
+
+    def crashes():
+        raise KeyError("H1")
+
+    def vague():
+        raise CaseError("something went wrong")
+
+    for call, tokens in [(half_done, {"prior"}), (crashes, {"H1"}), (vague, {"prior", "H1"})]:
+        case_before = small_case.to_dict()
+        with pytest.raises(ContractBroken):
+            check_edit(small_case, call, tokens, call.__name__, events)
+        small_case = bl.Case.from_dict(case_before)
+    with pytest.raises(ContractBroken):
+        check_load(b"\xff", {"no such word"}, "wrong words")
