@@ -95,7 +95,9 @@ def main(argv: Sequence[str] | None = None) -> int:
     try:
         return int(args.handler(args) or 0)
     except (CaseError, CaseTypeError) as exc:
-        print(f"beliefledger {args.command}: {exc}", file=sys.stderr)
+        from .display import visible  # a name quoted in the message may hold ESC or bidi codes
+
+        print(f"beliefledger {args.command}: {visible(str(exc))}", file=sys.stderr)
         return EXIT_BAD_INPUT
     except KeyboardInterrupt:
         print("interrupted", file=sys.stderr)
