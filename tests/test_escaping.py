@@ -156,6 +156,15 @@ def test_terminal_output(twins, tmp_path, capsys):
     err = capsys.readouterr().err
     assert "twice" in err and first.split("#")[-1] in err
     assert_terminal_safe(err, "beliefledger update error message")
+    # and a name holding terminal escapes and a bidi override
+    evil = bl.Case("t", hypotheses={"\x1b[2Jwiped\u202e": 0.5, "b": 0.5})
+    data = json.loads(evil.save(tmp_path / "evil.json").read_text(encoding="utf-8"))
+    data["case"]["hypotheses"].append(dict(data["case"]["hypotheses"][0]))
+    bad.write_text(json.dumps(data), encoding="utf-8")
+    assert cli.main(["update", str(bad)]) == 2
+    err = capsys.readouterr().err
+    assert "wiped" in err and "twice" in err
+    assert_terminal_safe(err, "beliefledger update error quoting an escape sequence")
 
 
 def _widget_html(widget) -> str:
