@@ -259,12 +259,13 @@ def test_uninformative_item_has_no_value():
 
 
 def test_ranking_criteria_and_columns(demo_case):
-    r = value.rank_next_evidence(demo_case)
+    r = value.rank_next_evidence(demo_case)  # the demo case carries a loss table
     assert r.index.tolist() == ["suction pressure trend"]
     assert r.index.name == "evidence"
-    for col in ("expected_entropy_reduction", "p_map_changes", "reason"):
+    for col in ("expected_entropy_reduction", "p_map_changes", "reason", "evsi"):
         assert col in r.columns
-    assert "evsi" not in r.columns
+    value.set_loss_table(demo_case, None)
+    assert "evsi" not in value.rank_next_evidence(demo_case).columns
     case = three_cause_case()
     case.add_evidence("U", states=["a", "b", "c"],
                       likelihoods={"A": [0.8, 0.1, 0.1], "B": [0.1, 0.8, 0.1],

@@ -291,7 +291,18 @@ def test_remove_needs_a_second_click(demo_case):
     assert len(demo_case.hypothesis_names) == 4
 
 
+def test_add_hypothesis_is_refused_visibly_while_a_loss_table_needs_its_values(demo_case):
+    before = demo_case.to_dict()
+    ed = HypothesisEditor(demo_case)
+    ed.new_name.value = "refrigerant pipe fatigue"
+    ed.new_prior.value = 0.05
+    ed.add_button.click()
+    assert demo_case.to_dict() == before
+    assert "loss table needs a value for new hypothesis" in repr(ed.status)
+
+
 def test_add_hypothesis_gets_neutral_columns(demo_case):
+    bl.set_loss_table(demo_case, None)  # a loss table would need the new column's losses
     ed = HypothesisEditor(demo_case)
     ed.new_name.value = "refrigerant pipe fatigue"
     ed.new_prior.value = 0.05

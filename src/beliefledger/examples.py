@@ -12,7 +12,8 @@ DEMO_NOTE = "invented for the beliefledger demo; not real plant data"
 
 
 def example_case() -> Case:
-    """An ammonia odour at a cold store: five causes, six evidence items, two scenarios.
+    """An ammonia odour at a cold store: five causes, six evidence items, two scenarios
+    and a loss table of three courses of action.
 
     Five evidence items are observed and one (the suction-pressure trend) is
     still pending, so value-of-information analysis has something to rank.
@@ -147,6 +148,27 @@ def example_case() -> Case:
         {h: 0.2 for h in case.hypothesis_names},
         source={"where": "equal priors (a reviewer's check, not a belief)", "who": "R. Okafor",
                 "when": "2026-11-20", "why": "shows what the evidence alone says"},
+    )
+    from .value import set_loss_table
+
+    set_loss_table(
+        case,
+        {
+            "replace C2 seal and restart": {
+                "compressor seal leak": 15, "relief valve lifted": 90,
+                "evaporator coil corrosion": 120, "maintenance venting": 20, "other cause": 80},
+            "keep the plant shut and inspect everything": {
+                "compressor seal leak": 60, "relief valve lifted": 60,
+                "evaporator coil corrosion": 60, "maintenance venting": 60, "other cause": 60},
+            "restart under extra patrols": {
+                "compressor seal leak": 150, "relief valve lifted": 40,
+                "evaporator coil corrosion": 150, "maintenance venting": 5, "other cause": 70},
+        },
+        kind="loss", units="kEUR",
+        source={"where": f"site manager's cost estimates ({DEMO_NOTE})", "who": "M. Lindqvist",
+                "when": "2026-11-21",
+                "why": "downtime, repair and the cost of a repeat release if the cause is missed"},
+        note="expected cost of each course of action if the hypothesis is true",
     )
     return case
 
