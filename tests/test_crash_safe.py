@@ -82,6 +82,7 @@ def _kill_loop(target, write_a, write_b, rnd, n_kills, max_delay):
         yield mid_write
 
 
+@pytest.mark.slow
 def test_killed_case_saves_leave_the_last_good_file(tmp_path):
     a, b = _big_case("A"), _big_case("B")
     dict_a, dict_b = a.to_dict(), b.to_dict()
@@ -102,6 +103,7 @@ def test_killed_case_saves_leave_the_last_good_file(tmp_path):
                case_files_intact=N_KILLS)
 
 
+@pytest.mark.slow
 def test_killed_record_writes_leave_a_verifiable_record(tmp_path):
     from beliefledger.record import verify
     from beliefledger.record.sealer import write_text
