@@ -323,3 +323,12 @@ def test_evidence_tables_are_read_only(small_case):
     frame.iloc[0, 0] = 0.0  # a copy: the case is untouched
     assert small_case.evidence["E1"].table[0, 0] == 0.9
     assert np.isclose(small_case.update().posterior.sum(), 1)
+
+
+def test_flags_must_be_booleans(small_case):
+    before = snapshot(small_case)
+    with pytest.raises(CaseTypeError, match="exhaustive must be True or False, got str 'no'"):
+        small_case.set_details(exhaustive="no")
+    assert snapshot(small_case) == before
+    with pytest.raises(CaseTypeError, match="safety_related must be True or False"):
+        bl.Case("c", {"A": 1.0}, safety_related=1)

@@ -86,6 +86,13 @@ def _check_name(kind: str, value: Any) -> str:
     return name
 
 
+def _check_flag(what: str, value: Any) -> bool:
+    if not isinstance(value, bool | np.bool_):
+        raise CaseTypeError(f"{what} must be True or False, got {type(value).__name__} "
+                            f"{value!r:.40}")
+    return bool(value)
+
+
 def _check_probability(what: str, value: Any) -> float:
     if isinstance(value, bool) or not isinstance(value, numbers.Real):
         raise CaseTypeError(
@@ -514,8 +521,8 @@ class Case:
         self.question = _check_text("question", question)
         self.analyst = _check_text("analyst", analyst)
         self.notes = _check_text("notes", notes)
-        self.exhaustive = bool(exhaustive)
-        self.safety_related = bool(safety_related)
+        self.exhaustive = _check_flag("exhaustive", exhaustive)
+        self.safety_related = _check_flag("safety_related", safety_related)
         self._hyps: dict[str, Hypothesis] = {}
         self._evidence: dict[str, Evidence] = {}
         self._scenarios: dict[str, Scenario] = {}
@@ -924,9 +931,9 @@ class Case:
             if notes is not None:
                 self.notes = _check_text("notes", notes)
             if exhaustive is not None:
-                self.exhaustive = bool(exhaustive)
+                self.exhaustive = _check_flag("exhaustive", exhaustive)
             if safety_related is not None:
-                self.safety_related = bool(safety_related)
+                self.safety_related = _check_flag("safety_related", safety_related)
 
     def set_extra(self, key: str, value: Any) -> None:
         """Store a JSON-ready section in ``case.extras`` (used by analysis modules for

@@ -368,7 +368,8 @@ def _conditional_from_dict(e: Mapping, what: str, st: tuple[str, ...],
     for i, ps in enumerate(parent_states):
         lik = _obj(tabs[ps], f"likelihoods of {what} given '{given}' = '{ps}'")
         missing = [h for h in names if h not in lik]
-        extra = [h for h in lik if h not in names]
+        known = set(names)
+        extra = [h for h in lik if h not in known]
         if missing or extra:
             raise CaseFileError(f"likelihoods of {what} given '{given}' = '{ps}': missing "
                                 f"hypothesis(es) {missing}, unknown hypothesis(es) {extra}")
@@ -402,7 +403,8 @@ def _group_from_dict(g: Any, what: str, names: tuple[str, ...], case: Case) -> J
             raise CaseFileError(f"{what} is of covariance form but also has a 'joint' table")
         cov = _obj(_req(g, "covariance", what), f"covariance of {what}")
         missing = [h for h in names if h not in cov]
-        extra = [h for h in cov if h not in names]
+        known = set(names)
+        extra = [h for h in cov if h not in known]
         if missing or extra:
             raise CaseFileError(f"covariance of {what}: missing hypothesis(es) {missing}, "
                                 f"unknown hypothesis(es) {extra}")
@@ -419,7 +421,8 @@ def _group_from_dict(g: Any, what: str, names: tuple[str, ...], case: Case) -> J
             raise CaseFileError(f"{what} is of table form but also has a 'covariance'")
         jt = _obj(_req(g, "joint", what), f"joint table of {what}")
         missing = [h for h in names if h not in jt]
-        extra = [h for h in jt if h not in names]
+        known = set(names)
+        extra = [h for h in jt if h not in known]
         if missing or extra:
             raise CaseFileError(f"joint table of {what}: missing hypothesis(es) {missing}, "
                                 f"unknown hypothesis(es) {extra}")
