@@ -1614,13 +1614,7 @@ class Case:
         return st, np.stack(tables)
 
     def _get_group(self, name: Any) -> JointGroup:
-        if not isinstance(name, str):
-            raise CaseTypeError(f"joint group name must be a string, got {type(name).__name__}")
-        try:
-            return self._groups[name]
-        except KeyError:
-            raise CaseError(f"no joint group named {name!r}; the groups are "
-                            f"{_short_list(self._groups)}") from None
+        return _lookup("joint group", "groups", self._groups, name)
 
     def _sync_extras(self, renamed: Mapping[str, str | None],
                      added: Mapping[str, Mapping[str, Any] | None]) -> None:
@@ -1684,31 +1678,14 @@ class Case:
 
     # ------------------------------------------------------------------ lookup helpers
     def _get_hyp(self, name: Any) -> Hypothesis:
-        if not isinstance(name, str):
-            raise CaseTypeError(f"hypothesis name must be a string, got {type(name).__name__}")
-        try:
-            return self._hyps[name]
-        except KeyError:
-            raise CaseError(f"no hypothesis named {name!r}; the hypotheses are "
-                            f"{_short_list(self._hyps)}") from None
+        return _lookup("hypothesis", "hypotheses", self._hyps, name)
 
     def _get_ev(self, name: Any) -> Evidence:
-        if not isinstance(name, str):
-            raise CaseTypeError(f"evidence name must be a string, got {type(name).__name__}")
-        try:
-            return self._evidence[name]
-        except KeyError:
-            raise CaseError(f"no evidence named {name!r}; the evidence items are "
-                            f"{_short_list(self._evidence)}") from None
+        return _lookup("evidence", "evidence items", self._evidence, name)
 
     def _get_scenario(self, name: Any) -> Scenario:
-        if not isinstance(name, str):
-            raise CaseTypeError(f"scenario name must be a string, got {type(name).__name__}")
-        try:
-            return self._scenarios[name]
-        except KeyError:
-            raise CaseError(f"no scenario named {name!r}; the scenarios are "
-                            f"{self.scenario_names}") from None
+        return _lookup("scenario", "scenarios", self._scenarios, name,
+                       known=self.scenario_names)
 
     def _complete_priors(self, priors: Any, what: str) -> dict[str, float]:
         if isinstance(priors, pd.Series):
@@ -1928,6 +1905,19 @@ def _parse_joint(name: str, spec: Any, members: list[Evidence],
                 f"joint likelihood of {combos[i]} in group '{name}' under '{h}'",
                 v.item() if isinstance(v, np.generic) else v)
     return out
+
+
+def _lookup(kind: str, plural: str, mapping: Mapping[str, Any], name: Any,
+            known: Iterable[str] | None = None) -> Any:
+    """``mapping[name]``, or an error naming the kind, the bad name and the choices."""
+    if not isinstance(name, str):
+        raise CaseTypeError(f"{kind} name must be a string, got {type(name).__name__}")
+    try:
+        return mapping[name]
+    except KeyError:
+        choices = list(mapping) if known is None else list(known)
+        raise CaseError(f"no {kind} named {name!r}; the {plural} are "
+                        f"{_short_list(choices)}") from None
 
 
 def _short_list(names: Iterable[str], limit: int = 12) -> str:
