@@ -254,8 +254,11 @@ def test_trace_to_dict_is_json_ready(demo_case):
 probs = st.floats(min_value=0.001, max_value=0.999, allow_nan=False)
 
 
+ONE_TO_FIVE = st.integers(1, 5)
+
+
 @st.composite
-def random_cases(draw, n_items=st.integers(1, 5)):
+def random_cases(draw, n_items=ONE_TO_FIVE):
     h = draw(st.integers(2, 5))
     weights = draw(st.lists(st.floats(0.01, 1.0), min_size=h, max_size=h))
     total = sum(weights)

@@ -119,9 +119,7 @@ def enfsi_label(lr: float) -> str:
         return "supports neither proposition"
     flip = lr < 1
     x = math.inf if lr == 0 else (1 / lr if flip else lr)
-    for edge, label in _ENFSI:
-        if x < edge:
-            break
+    label = next(text for edge, text in _ENFSI if x < edge or math.isinf(edge))
     if label.startswith("no meaningful"):
         return label
     return f"{label} for the alternative" if flip else f"{label} for the proposition"
