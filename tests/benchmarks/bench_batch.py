@@ -25,13 +25,13 @@ from __future__ import annotations
 import json
 import math
 import os
-import statistics
 import subprocess
 import sys
 import time
 
 import numpy as np
 import pandas as pd
+from _timing import median_time
 
 import beliefledger as bl
 from beliefledger.batch import score_cases
@@ -64,13 +64,6 @@ def make_frame(n: int, seed: int = 6) -> pd.DataFrame:
     return pd.DataFrame(cols, copy=False)
 
 
-def _median(fn, repeat: int) -> float:
-    times = []
-    for _ in range(repeat):
-        t0 = time.perf_counter()
-        fn()
-        times.append(time.perf_counter() - t0)
-    return statistics.median(times)
 
 
 def _api_loop(case: bl.Case, frame: pd.DataFrame) -> list[pd.Series]:
@@ -107,7 +100,7 @@ def bench_batch() -> list[dict]:
     frame = make_frame(N_ROWS)
     score_cases(case, frame.iloc[:1000])  # warm up
     c0 = time.process_time()
-    t = _median(lambda: score_cases(case, frame), 5)
+    t = median_time(lambda: score_cases(case, frame), 5)
     cpu = (time.process_time() - c0) / 5  # all threads together
     load = os.getloadavg()[0]
     result = score_cases(case, frame)
@@ -126,7 +119,7 @@ def bench_batch() -> list[dict]:
     api_ratio = api_row * N_ROWS / t
     loop_ratio = loop_row * N_ROWS / t
     as_str = frame.iloc[:200_000].astype(object)
-    t_str = _median(lambda: score_cases(case, as_str), 3) * N_ROWS / len(as_str)
+    t_str = median_time(lambda: score_cases(case, as_str), 3) * N_ROWS / len(as_str)
     return [
         {"name": "batch 1M cases x 30 evidence x 10 hyp", "value": t, "unit": "s",
          "target": "< 1 s", "ok": t < 1.0,

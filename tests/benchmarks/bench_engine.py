@@ -13,9 +13,9 @@ array, is the floor any log-space engine pays for its two transcendental passes.
 from __future__ import annotations
 
 import statistics
-import time
 
 import numpy as np
+from _timing import median_time
 
 import beliefledger as bl
 from beliefledger.engine import update
@@ -46,13 +46,6 @@ def make_case(seed: int = 11) -> bl.Case:
     return bl.Case.from_dict(data)
 
 
-def _median(fn, repeat: int) -> float:
-    times = []
-    for _ in range(repeat):
-        t0 = time.perf_counter()
-        fn()
-        times.append(time.perf_counter() - t0)
-    return statistics.median(times)
 
 
 def bench_engine() -> list[dict]:
@@ -63,10 +56,10 @@ def bench_engine() -> list[dict]:
     # interleave the figures so a busy machine slows all of them alike
     copy_t, core_t, floor_t = [], [], []
     for _ in range(9):
-        copy_t.append(_median(lambda: lik.copy(), 5))
-        core_t.append(_median(lambda: update(case, diagnose_findings=False), 1))
-        floor_t.append(_median(lambda: np.exp(np.log(lik)), 1))
-    full = _median(case.update, 3)
+        copy_t.append(median_time(lambda: lik.copy(), 5))
+        core_t.append(median_time(lambda: update(case, diagnose_findings=False), 1))
+        floor_t.append(median_time(lambda: np.exp(np.log(lik)), 1))
+    full = median_time(case.update, 3)
     c, core, floor = (statistics.median(x) for x in (copy_t, core_t, floor_t))
     return [
         {"name": "engine core 1000 hyp x 1000 evidence", "value": core * 1e3, "unit": "ms",
@@ -84,7 +77,7 @@ def bench_engine() -> list[dict]:
 def bench_engine_interactive() -> list[dict]:
     case = bl.example_case()
     case.update()
-    t = _median(case.update, 51)
+    t = median_time(case.update, 51)
     # Nielsen (1993), Usability Engineering, ch. 5: 0.1 s is about the limit for a
     # response to feel instantaneous.
     return [{"name": "example case update (with findings)", "value": t * 1e3, "unit": "ms",

@@ -7,8 +7,8 @@ The cases are invented test data written directly as case-file JSON.
 from __future__ import annotations
 
 import json
-import statistics
-import time
+
+from _timing import median_time
 
 TARGET_S = 2.0
 
@@ -28,13 +28,6 @@ def _case_text(n_hyp: int, n_ev: int) -> str:
     return json.dumps({"format": "beliefledger-case", "schema_version": 1, "case": case})
 
 
-def _median(fn, repeat: int = 3) -> float:
-    times = []
-    for _ in range(repeat):
-        t0 = time.perf_counter()
-        fn()
-        times.append(time.perf_counter() - t0)
-    return statistics.median(times)
 
 
 def bench_large_case_files() -> list[dict]:
@@ -50,11 +43,11 @@ def bench_large_case_files() -> list[dict]:
             path = Path(tmp) / "large.json"
             path.write_text(_case_text(n_hyp, n_ev), encoding="utf-8")
             size_mb = path.stat().st_size / 1e6
-            t_parse = _median(lambda p=path: json.loads(p.read_text(encoding="utf-8")))
-            t_load = _median(lambda p=path: load_case(p))
+            t_parse = median_time(lambda p=path: json.loads(p.read_text(encoding="utf-8")))
+            t_load = median_time(lambda p=path: load_case(p))
             case = load_case(path)
-            t_update = _median(case.update)
-            t_save = _median(lambda c=case, p=path: casefile.save_case(c, p))
+            t_update = median_time(case.update)
+            t_save = median_time(lambda c=case, p=path: casefile.save_case(c, p))
             rows.append({"name": f"load case file, {label}", "value": t_load, "unit": "s",
                          "target": f"< {TARGET_S:g} s", "ok": t_load < TARGET_S,
                          "note": f"{size_mb:.1f} MB; json.loads alone {t_parse:.2f} s "
@@ -80,11 +73,11 @@ def bench_large_case_views() -> list[dict]:
     for label, n_hyp, n_ev in [("10,000 hypotheses", 10_000, 3), ("10,000 items", 4, 10_000)]:
         case = casefile.loads(_case_text(n_hyp, n_ev))
         for cls in (HypothesisEditor, EvidenceEditor, Workbench):
-            t = _median(lambda c=case, k=cls: k(c), repeat=1)
+            t = median_time(lambda c=case, k=cls: k(c), repeat=1)
             rows.append({"name": f"{cls.__name__} on {label}", "value": t, "unit": "s",
                          "target": f"< {TARGET_S:g} s", "ok": t < TARGET_S,
                          "note": "builds one page of rows"})
-        t = _median(lambda c=case: case_html(c))
+        t = median_time(lambda c=case: case_html(c))
         rows.append({"name": f"static case HTML on {label}", "value": t, "unit": "s",
                      "target": "-", "ok": None, "note": "first 50 rows, then a count"})
     return rows

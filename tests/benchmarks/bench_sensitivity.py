@@ -13,6 +13,7 @@ from __future__ import annotations
 import time
 
 import numpy as np
+from _timing import best_time
 
 import beliefledger as bl
 
@@ -50,13 +51,6 @@ def make_case(seed: int = 7, columns: str = "all") -> bl.Case:
     return case
 
 
-def _best(fn, repeat: int) -> float:
-    best = float("inf")
-    for _ in range(repeat):
-        t0 = time.perf_counter()
-        fn()
-        best = min(best, time.perf_counter() - t0)
-    return best
 
 
 def _gamma_floor(n: int, cells: int) -> float:
@@ -74,14 +68,14 @@ def bench_simulate() -> list[dict]:
     rows = []
     full = make_case(columns="all")
     bl.simulate(full, draws=2_000, seed=1, progress=False)  # warm up imports
-    sec = _best(lambda: bl.simulate(full, draws=draws, seed=1, progress=False).to_frame(), 3)
+    sec = best_time(lambda: bl.simulate(full, draws=draws, seed=1, progress=False).to_frame(), 3)
     res = bl.simulate(full, draws=draws, seed=1, progress=False)
     rows.append({"name": "simulate 100k draws, 20 hyp x 30 items, priors + all 600 observed "
                          "columns uncertain", "value": sec, "unit": "s", "target": "< 1 s",
                  "ok": sec < 1.0,
                  "note": f"default method; hypotheses drawn by {sorted(set(res.methods.values()))}"
                          "; best of 3"})
-    sec_d = _best(lambda: bl.simulate(full, draws=draws, seed=1, progress=False,
+    sec_d = best_time(lambda: bl.simulate(full, draws=draws, seed=1, progress=False,
                                       method="direct").to_frame(), 1)
     floor = _gamma_floor(draws, N_HYP * N_EV)
     rows.append({"name": "simulate 100k draws, same case, method='direct'", "value": sec_d,
@@ -90,12 +84,12 @@ def bench_simulate() -> list[dict]:
                          f"variates alone takes {floor:.2f} s here (ratio {sec_d / floor:.2f}); "
                          f"default is {sec_d / sec:.1f}x faster"})
     some = make_case(columns="catch-all")
-    sec = _best(lambda: bl.simulate(some, draws=draws, seed=1, progress=False).to_frame(), 3)
+    sec = best_time(lambda: bl.simulate(some, draws=draws, seed=1, progress=False).to_frame(), 3)
     rows.append({"name": "simulate 100k draws, 20 hyp x 30 items, priors + 30 columns "
                          "uncertain", "value": sec, "unit": "s", "target": "< 1 s",
                  "ok": sec < 1.0, "note": "the catch-all's column of every item; best of 3"})
     pri = make_case(columns="none")
-    sec = _best(lambda: bl.simulate(pri, draws=draws, seed=1, progress=False).to_frame(), 3)
+    sec = best_time(lambda: bl.simulate(pri, draws=draws, seed=1, progress=False).to_frame(), 3)
     rows.append({"name": "simulate 100k draws, 20 hyp x 30 items, priors uncertain",
                  "value": sec, "unit": "s", "target": "< 1 s", "ok": sec < 1.0,
                  "note": "Dirichlet on the priors only; best of 3"})
@@ -105,9 +99,9 @@ def bench_simulate() -> list[dict]:
 def bench_sweep() -> list[dict]:
     case = make_case(columns="certain")
     bl.sweep_prior(case, "H03", points=200)
-    sec = _best(lambda: bl.sweep_prior(case, "H03", points=200), 20)
-    sec_l = _best(lambda: bl.sweep_likelihood(case, "E05", "H03", points=200), 20)
-    sec_t = _best(lambda: bl.tornado(case), 5)
+    sec = best_time(lambda: bl.sweep_prior(case, "H03", points=200), 20)
+    sec_l = best_time(lambda: bl.sweep_likelihood(case, "E05", "H03", points=200), 20)
+    sec_t = best_time(lambda: bl.tornado(case), 5)
     return [
         {"name": "sweep_prior 200 points, 20 hyp x 30 items", "value": sec * 1e3, "unit": "ms",
          "target": "< 50 ms", "ok": sec < 0.05, "note": "best of 20"},

@@ -10,10 +10,9 @@ vectorised kernel alone.
 
 from __future__ import annotations
 
-import time
-
 import numpy as np
 import pandas as pd
+from _timing import best_time
 
 import beliefledger as bl
 from beliefledger import value
@@ -46,13 +45,6 @@ def make_case(seed: int = 11, dependent: bool = False) -> tuple[bl.Case, pd.Data
     return case, loss
 
 
-def _best(fn, repeat: int) -> float:
-    best = float("inf")
-    for _ in range(repeat):
-        t0 = time.perf_counter()
-        fn()
-        best = min(best, time.perf_counter() - t0)
-    return best
 
 
 def _loop(case: bl.Case, loss: pd.DataFrame) -> None:
@@ -77,17 +69,17 @@ def _loop(case: bl.Case, loss: pd.DataFrame) -> None:
 def bench_rank_next_evidence() -> list[dict]:
     case, loss = make_case()
     value.rank_next_evidence(case, loss=loss)  # warm up lazy imports
-    t_rank = _best(lambda: value.rank_next_evidence(case, loss=loss), 30)
-    t_info = _best(lambda: value.rank_next_evidence(case), 30)
-    t_loop = _best(lambda: _loop(case, loss), 30)
-    t_update = _best(lambda: case.update(), 30)
+    t_rank = best_time(lambda: value.rank_next_evidence(case, loss=loss), 30)
+    t_info = best_time(lambda: value.rank_next_evidence(case), 30)
+    t_loop = best_time(lambda: _loop(case, loss), 30)
+    t_update = best_time(lambda: case.update(), 30)
     names = [e.name for e in case.evidence.values() if e.observed is None]
     lik = value._stack(case, names)
     p = case.update().posterior.to_numpy()
     L = loss.to_numpy()
-    t_kernel = _best(lambda: value._voi(lik, p, L), 200)
+    t_kernel = best_time(lambda: value._voi(lik, p, L), 200)
     dep, dloss = make_case(dependent=True)
-    t_dep = _best(lambda: value.rank_next_evidence(dep, loss=dloss), 10)
+    t_dep = best_time(lambda: value.rank_next_evidence(dep, loss=dloss), 10)
     return [
         {"name": "rank_next_evidence, 30 pending items x 20 hyp, loss table of 5 actions",
          "value": t_rank * 1e3, "unit": "ms", "target": "< 20 ms", "ok": t_rank < 0.020,
@@ -106,8 +98,8 @@ def bench_rank_next_evidence() -> list[dict]:
 def bench_decisions() -> list[dict]:
     case, loss = make_case()
     value.set_loss_table(case, loss)
-    t_sum = _best(lambda: value.decision_summary(case), 20)
-    t_thr = _best(lambda: value.decision_threshold(case), 20)
+    t_sum = best_time(lambda: value.decision_summary(case), 20)
+    t_thr = best_time(lambda: value.decision_threshold(case), 20)
     return [
         {"name": "decision_summary, 20 hyp, 5 actions, 1 scenario", "value": t_sum * 1e3,
          "unit": "ms", "target": None, "ok": None, "note": ""},
