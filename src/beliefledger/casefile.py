@@ -203,6 +203,18 @@ def _keys(d: Mapping, allowed: set[str], what: str) -> None:
                             f"allowed: {sorted(allowed)}")
 
 
+def _same_hypotheses(mapping: Mapping, names: tuple[str, ...], what: str,
+                     known: set[str] | None = None) -> None:
+    """Refuse a per-hypothesis mapping that misses a hypothesis or names an unknown one
+    (``known``: ``set(names)``, passed in by loops over many items)."""
+    known = set(names) if known is None else known
+    missing = [h for h in names if h not in mapping]
+    extra = [h for h in mapping if h not in known]
+    if missing or extra:
+        raise CaseFileError(f"{what}: missing hypothesis(es) {missing}, "
+                            f"unknown hypothesis(es) {extra}")
+
+
 def _bool(value: Any, what: str) -> bool:
     if not isinstance(value, bool):
         raise CaseFileError(f"{what} must be true or false, got {value!r:.40}")
@@ -262,11 +274,7 @@ def case_from_dict(data: Any) -> Case:
         if len(set(st)) != len(st):
             raise CaseFileError(f"{what} lists a state twice: {list(st)}")
         lik = _obj(_req(e, "likelihoods", what), f"likelihoods of {what}")
-        missing = [h for h in names if h not in lik]
-        extra = [h for h in lik if h not in name_set]
-        if missing or extra:
-            raise CaseFileError(f"likelihoods of {what}: missing hypothesis(es) {missing}, "
-                                f"unknown hypothesis(es) {extra}")
+        _same_hypotheses(lik, names, f"likelihoods of {what}", name_set)
         table = np.empty((len(st), len(names)))
         for j, h in enumerate(names):
             col = _arr(lik[h], f"likelihoods of {what} under '{h}'")
@@ -296,7 +304,7 @@ def case_from_dict(data: Any) -> Case:
             es = _obj(es, f"entry source #{k + 1} of {what}")
             _keys(es, {"state", "hypothesis", "source"}, f"entry source #{k + 1} of {what}")
             s_, h_ = _req(es, "state", what), _req(es, "hypothesis", what)
-            if s_ not in st or h_ not in names:
+            if s_ not in st or h_ not in name_set:
                 raise CaseFileError(f"entry source #{k + 1} of {what} names state {s_!r:.40} / "
                                     f"hypothesis {h_!r:.40}, which the item does not have")
             entry_sources[(s_, h_)] = Source.coerce(_obj(es.get("source", {}), what), what=what)
@@ -322,10 +330,7 @@ def case_from_dict(data: Any) -> Case:
         if nm == BASE_SCENARIO or nm in case._scenarios:
             raise CaseFileError(f"scenario name '{nm}' is reserved or appears twice")
         pri = _obj(_req(s, "priors", f"scenario '{nm}'"), f"priors of scenario '{nm}'")
-        missing = [h for h in names if h not in pri]
-        extra = [h for h in pri if h not in name_set]
-        if missing or extra:
-            raise CaseFileError(f"priors of scenario '{nm}': missing {missing}, unknown {extra}")
+        _same_hypotheses(pri, names, f"priors of scenario '{nm}'", name_set)
         vals = {h: _check_probability(f"prior of '{h}' in scenario '{nm}'", pri[h]) for h in names}
         if abs(sum(vals.values()) - 1) > 1e-6:
             raise CaseFileError(f"priors of scenario '{nm}' sum to {sum(vals.values()):.6g}, not 1")
@@ -367,12 +372,7 @@ def _conditional_from_dict(e: Mapping, what: str, st: tuple[str, ...],
     cond = np.empty((len(parent_states), len(st), len(names)))
     for i, ps in enumerate(parent_states):
         lik = _obj(tabs[ps], f"likelihoods of {what} given '{given}' = '{ps}'")
-        missing = [h for h in names if h not in lik]
-        known = set(names)
-        extra = [h for h in lik if h not in known]
-        if missing or extra:
-            raise CaseFileError(f"likelihoods of {what} given '{given}' = '{ps}': missing "
-                                f"hypothesis(es) {missing}, unknown hypothesis(es) {extra}")
+        _same_hypotheses(lik, names, f"likelihoods of {what} given '{given}' = '{ps}'")
         for j, h in enumerate(names):
             col = _arr(lik[h], f"likelihoods of {what} given '{given}' = '{ps}' under '{h}'")
             if len(col) != len(st):
@@ -402,12 +402,7 @@ def _group_from_dict(g: Any, what: str, names: tuple[str, ...], case: Case) -> J
         if "joint" in g:
             raise CaseFileError(f"{what} is of covariance form but also has a 'joint' table")
         cov = _obj(_req(g, "covariance", what), f"covariance of {what}")
-        missing = [h for h in names if h not in cov]
-        known = set(names)
-        extra = [h for h in cov if h not in known]
-        if missing or extra:
-            raise CaseFileError(f"covariance of {what}: missing hypothesis(es) {missing}, "
-                                f"unknown hypothesis(es) {extra}")
+        _same_hypotheses(cov, names, f"covariance of {what}")
         vals = []
         for h in names:
             v = cov[h]
@@ -420,12 +415,7 @@ def _group_from_dict(g: Any, what: str, names: tuple[str, ...], case: Case) -> J
         if "covariance" in g:
             raise CaseFileError(f"{what} is of table form but also has a 'covariance'")
         jt = _obj(_req(g, "joint", what), f"joint table of {what}")
-        missing = [h for h in names if h not in jt]
-        known = set(names)
-        extra = [h for h in jt if h not in known]
-        if missing or extra:
-            raise CaseFileError(f"joint table of {what}: missing hypothesis(es) {missing}, "
-                                f"unknown hypothesis(es) {extra}")
+        _same_hypotheses(jt, names, f"joint table of {what}")
         n = int(np.prod([len(case._evidence[m].states) for m in members]))
         arr = np.empty((n, len(names)))
         for j, h in enumerate(names):
