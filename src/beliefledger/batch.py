@@ -120,6 +120,16 @@ def compile_model(case: Case) -> _Model:
                   float(log_normalizer(log_prior)), case.active_scenario)
 
 
+def _check_count(name: str, value: Any, kind: str, fix: str) -> None:
+    """An optional positive whole-number option (None means the default)."""
+    if value is None:
+        return
+    if isinstance(value, bool) or not isinstance(value, int | np.integer):
+        raise CaseTypeError(f"{name} {kind}, got {type(value).__name__} {value!r}")
+    if value < 1:
+        raise CaseError(f"{name} is {value}; {fix}")
+
+
 def score_cases(case: Case, observations: Any, *, chunk_size: int | None = None,
                 on_unknown: str = "raise", prefix: str = "", threads: int | None = None) -> Any:
     """Posterior of every case in a table of observations, under one model case.
@@ -202,18 +212,9 @@ def score_cases(case: Case, observations: Any, *, chunk_size: int | None = None,
     """
     if on_unknown not in ("raise", "skip"):
         raise CaseError(f"on_unknown is {on_unknown!r}; use 'raise' or 'skip'")
-    if chunk_size is not None:
-        if isinstance(chunk_size, bool) or not isinstance(chunk_size, int | np.integer):
-            raise CaseTypeError(f"chunk_size must be a whole number of rows, got "
-                                f"{type(chunk_size).__name__} {chunk_size!r}")
-        if chunk_size < 1:
-            raise CaseError(f"chunk_size is {chunk_size}; give a positive number of rows")
-    if threads is not None:
-        if isinstance(threads, bool) or not isinstance(threads, int | np.integer):
-            raise CaseTypeError(f"threads must be a whole number, got {type(threads).__name__} "
-                                f"{threads!r}")
-        if threads < 1:
-            raise CaseError(f"threads is {threads}; give 1 or more")
+    _check_count("chunk_size", chunk_size, "must be a whole number of rows",
+                 "give a positive number of rows")
+    _check_count("threads", threads, "must be a whole number", "give 1 or more")
     if not isinstance(prefix, str):
         raise CaseTypeError(f"prefix must be a string, got {type(prefix).__name__}")
     is_dask = _is_dask_frame(observations)
