@@ -196,6 +196,9 @@ def run(args) -> dict:
             if args.case == "template":
                 interact(page, result, step)
             repaints(page, result, args.repaints)
+            if args.case == "template" and args.saved:
+                edit_and_save(page, result, step)
+                shutil.copy(folder / "workbench.ipynb", args.saved)
             page.locator(".bl-workbench").first.scroll_into_view_if_needed()
             if args.screenshot:
                 Path(args.screenshot).parent.mkdir(parents=True, exist_ok=True)
@@ -254,6 +257,39 @@ def interact(page, result: dict, step) -> None:
     step("observation changed")
 
 
+ADDED_CELL = (f"case.observe({EVIDENCE!r}, {STATE!r})  # typed in the browser\n"
+              "case")
+NOT_DIRTY = """() => { const w = window.jupyterapp.shell.currentWidget;
+  return !!w && !!w.context && !w.context.model.dirty; }"""
+
+
+def edit_and_save(page, result: dict, step) -> None:
+    """What an analyst does last: add a cell at the end, run it, save with Ctrl+S.
+
+    The text goes in through the editor (``insert_text``: no key events, so no
+    auto-closed brackets); the save goes through JupyterLab's own save command
+    bound to the keyboard shortcut, so the file on disk is exactly what the
+    front end writes (lists of lines, cell ids, outputs, metadata)."""
+    cells = page.locator(".jp-Notebook .jp-Cell")
+    n_before = cells.count()
+    cells.nth(n_before - 1).locator(".jp-InputPrompt").click()
+    page.keyboard.press("Escape")
+    page.keyboard.press("b")  # insert a cell below, in command mode
+    page.wait_for_function(f"() => document.querySelectorAll('.jp-Notebook .jp-Cell').length"
+                           f" > {n_before}")
+    page.keyboard.press("Enter")  # edit mode
+    page.keyboard.insert_text(ADDED_CELL)
+    page.keyboard.press("Shift+Enter")
+    page.wait_for_function(KERNEL_IDLE, timeout=30_000)
+    cells.nth(n_before).locator(".jp-OutputArea-output").first.wait_for(timeout=30_000)
+    step("cell added and run")
+    page.keyboard.press("Escape")
+    page.keyboard.press("Control+s")
+    page.wait_for_function(NOT_DIRTY, timeout=30_000)
+    result["saved"] = True
+    step("saved through the page")
+
+
 def repaints(page, result: dict, n: int) -> None:
     """Time ``n`` scenario changes: the select's change event -> waterfall SVG replaced."""
     names = [o.get_attribute("value") or o.text_content()
@@ -290,6 +326,8 @@ def main(argv=None) -> int:
     ap.add_argument("--out", required=True, help="where to write the JSON result")
     ap.add_argument("--screenshot", help="PNG path for a screenshot of the workbench")
     ap.add_argument("--repaints", type=int, default=5, help="chart repaints to time")
+    ap.add_argument("--saved", help="after the checks, add and run a cell, save the notebook "
+                    "through the page and copy the saved file here")
     ap.add_argument("--case", choices=["template", "bench"], default="template",
                     help="the workbench template (and its checks) or the invented 20 x 30 "
                          "benchmark case (repaint timing only)")

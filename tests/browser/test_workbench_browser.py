@@ -54,13 +54,15 @@ def netns_problem() -> str | None:
 
 
 def run_offline(out: Path, screenshot: Path | None = None, repaints: int = 5,
-                timeout: float = 170, case: str = "template") -> dict:
+                timeout: float = 200, case: str = "template", saved: Path | None = None) -> dict:
     """Run the harness under ``unshare -n`` (loopback only) and return its JSON."""
     cmd = ["unshare", "-n", "sh", "-c", 'ip link set lo up && exec "$0" "$@"',
            sys.executable, str(HERE / "harness.py"), "--out", str(out),
            "--repaints", str(repaints), "--case", case]
     if screenshot is not None:
         cmd += ["--screenshot", str(screenshot)]
+    if saved is not None:
+        cmd += ["--saved", str(saved)]
     proc = subprocess.run(cmd, capture_output=True, text=True, timeout=timeout)
     if not out.exists():
         raise AssertionError(f"browser harness wrote no result (exit {proc.returncode}):\n"
@@ -82,7 +84,11 @@ def browser_run(tmp_path_factory):
     ARTIFACTS.mkdir(parents=True, exist_ok=True)
     shot = ARTIFACTS / "workbench_browser.png"
     shot.unlink(missing_ok=True)
-    result = run_offline(tmp_path_factory.mktemp("browser") / "result.json", shot)
+    work = tmp_path_factory.mktemp("browser")
+    saved = work / "saved" / "workbench.ipynb"
+    saved.parent.mkdir()
+    result = run_offline(work / "result.json", shot, saved=saved)
+    result["saved_path"] = str(saved)
     # the whole result, for diagnosing a failure after the fact
     (ARTIFACTS / "browser_result.json").write_text(json.dumps(result, indent=1))
     (ARTIFACTS / "browser_timings.json").write_text(json.dumps(
@@ -124,3 +130,22 @@ def test_workbench_runs_offline_and_follows_the_engine(browser_run):
     assert f"'{harness.EVIDENCE}' observed as '{harness.STATE}'" in r["status"]
     assert r["screenshot"].stat().st_size > 10_000
     assert len(r["repaint_ms"]) == 5 and all(t > 0 for t in r["repaint_ms"])
+
+
+def test_a_notebook_jupyterlab_saved_seals_and_verifies(browser_run):
+    """The hand-over step on a file the front end wrote, after the user ran and edited it."""
+    from beliefledger.record.sealer import seal
+    from beliefledger.record.verifier import verify
+
+    r = browser_run
+    assert r["ok"] and r.get("saved"), r.get("error")
+    saved = Path(r["saved_path"])
+    raw = json.loads(saved.read_text(encoding="utf-8"))
+    assert any(isinstance(c["source"], list) for c in raw["cells"])  # as Jupyter stores it
+    typed = ["".join(c["source"]) for c in raw["cells"]]
+    assert harness.ADDED_CELL in typed, "the cell typed in the browser is not in the file"
+    res = seal(saved, timeout=300)
+    v = verify(res.notebook, expect=res.fingerprint)
+    assert v.ok, v.text()
+    case = bl.record.load_record(res.notebook)["cases"][0]
+    assert case.evidence[harness.EVIDENCE].observed == harness.STATE  # the user's edit

@@ -92,8 +92,83 @@ def check_notebook(nb: Mapping[str, Any], label: str) -> None:
 
 
 def read_notebook(path: str | Path) -> dict[str, Any]:
+    """Read a notebook as plain JSON (no nbformat) and shape-check it."""
     nb = read_json_file(path, what="notebook")
     check_notebook(nb, f"notebook {Path(path).name!r}")
+    return nb
+
+
+def _validation_text(exc: Exception) -> str:
+    """One line from an nbformat/jsonschema validation error: where, and what."""
+    msg = getattr(exc, "message", None) or str(exc).splitlines()[0]
+    path = list(getattr(exc, "absolute_path", []) or getattr(exc, "path", []) or [])
+    where = ""
+    if len(path) >= 2 and path[0] == "cells" and isinstance(path[1], int):
+        where = f"cell {path[1] + 1}"
+        if len(path) > 2:
+            where += " field " + ".".join(str(p) for p in path[2:])
+        where += ": "
+    elif path:
+        where = ".".join(str(p) for p in path) + ": "
+    return f"{where}{msg}"[:300]
+
+
+def load_notebook(path: str | Path) -> dict[str, Any]:
+    """Read a notebook the way Jupyter does, through nbformat, for sealing.
+
+    Accepts what JupyterLab, Notebook 7, VS Code and ``nbformat.write`` save:
+    nbformat 4.0 to 4.5 (and 3, converted), with or without cell ids, cell
+    text as one string or as a list of lines, existing outputs, attachments,
+    raw cells and any notebook metadata. The notebook is validated against
+    its own schema version; anything nbformat cannot read or validate is a
+    :class:`RecordError` naming the file and the problem. Returns plain JSON
+    (dicts and lists) with every multi-line text joined into one string.
+    """
+    data = read_json_file(path, what="notebook")
+    label = f"notebook {Path(path).name!r}"
+    if "nbformat" not in data or ("cells" not in data and "worksheets" not in data):
+        raise RecordError(f"{label} is JSON but not a Jupyter notebook (no 'cells' or "
+                          "'nbformat'); give a .ipynb file")
+    major = data.get("nbformat")
+    if isinstance(major, bool) or not isinstance(major, int):
+        raise RecordError(f"{label} has nbformat {major!r:.40}; expected an integer")
+    if major > SUPPORTED_NBFORMAT:
+        raise RecordError(f"{label} is nbformat {major}, newer than this tool reads "
+                          f"({SUPPORTED_NBFORMAT}); upgrade beliefledger or save it as "
+                          f"nbformat {SUPPORTED_NBFORMAT}")
+    try:
+        import nbformat
+        from nbformat.validator import ValidationError
+    except ImportError:
+        raise RecordError("sealing needs nbformat to read the notebook; install it with "
+                          "pip install 'beliefledger[notebook]'") from None
+    if major < 3:
+        raise RecordError(f"{label} is nbformat {major}; open and re-save it in a current "
+                          f"Jupyter to convert it to nbformat {SUPPORTED_NBFORMAT}")
+    import copy as _copy
+
+    try:
+        node = nbformat.from_dict(_copy.deepcopy(data))
+        nbformat.validate(node)
+    except ValidationError as exc:
+        raise RecordError(f"{label} is not a valid nbformat {major}.{data.get('nbformat_minor')} "
+                          f"notebook ({_validation_text(exc)}); open it in Jupyter, fix or "
+                          "re-save it, and seal again") from None
+    except (TypeError, ValueError, KeyError, AttributeError) as exc:
+        raise RecordError(f"{label} cannot be read by nbformat ({type(exc).__name__}: "
+                          f"{str(exc)[:200]}); re-save it from Jupyter") from None
+    try:
+        # nbformat's reader joins line lists into strings and converts v3 to v4;
+        # it never renumbers cell ids (prepare gives missing ids stable names)
+        node = nbformat.reads(json.dumps(data, ensure_ascii=False), as_version=SUPPORTED_NBFORMAT)
+    except (ValidationError, ValueError, KeyError, AttributeError, TypeError) as exc:
+        raise RecordError(f"{label} cannot be read by nbformat ({str(exc)[:200]}); re-save it "
+                          "from Jupyter") from None
+    nb = json.loads(json.dumps(node, ensure_ascii=False))
+    for cell in nb.get("cells", []):  # attachments and outputs keep their own line lists
+        if isinstance(cell.get("source"), list):
+            cell["source"] = "".join(cell["source"])
+    check_notebook(nb, label)
     return nb
 
 
@@ -146,5 +221,5 @@ def read_record(path: str | Path) -> tuple[dict[str, Any], dict[str, Any]]:
     return nb, record_meta(nb, label)
 
 
-__all__ = ["RecordError", "read_json_file", "read_notebook", "read_record", "check_notebook",
+__all__ = ["RecordError", "read_json_file", "read_notebook", "load_notebook", "read_record", "check_notebook",
            "record_meta", "MAX_NOTEBOOK_BYTES", "MAX_OUTPUT_BYTES"]

@@ -41,7 +41,7 @@ from .canonical import (
     notebook_frame,
     root_digest,
 )
-from .nbio import MAX_OUTPUT_BYTES, RecordError, read_notebook
+from .nbio import MAX_OUTPUT_BYTES, RecordError, load_notebook
 
 DEFAULT_CELL_TIMEOUT = 600
 ALGORITHM = "sha256"
@@ -295,7 +295,7 @@ def seal(notebook: str | Path, out: str | Path | None = None, *, force: bool = F
         existing record without ``force``; nothing is written then.
     """
     src = Path(notebook)
-    nb = read_notebook(src)
+    nb = load_notebook(src)
     target = Path(out) if out is not None else default_out(src)
     html_target = html_path_for(target) if html else None
     if target.resolve() == src.resolve():
