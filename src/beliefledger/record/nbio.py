@@ -64,9 +64,9 @@ def read_json_file(path: str | Path, *, what: str = "notebook") -> dict[str, Any
     return data
 
 
-def check_notebook(nb: Mapping[str, Any], label: str) -> None:
-    """Refuse anything that is not an nbformat-4 notebook this tool can read."""
-    if "cells" not in nb or "nbformat" not in nb:
+def _major_version(nb: Mapping[str, Any], label: str, *, cells_key: str) -> int:
+    """The notebook's major nbformat version; refuses non-notebooks and newer formats."""
+    if cells_key not in nb or "nbformat" not in nb:
         raise RecordError(f"{label} is JSON but not a Jupyter notebook (no 'cells' or "
                           "'nbformat'); give a .ipynb file")
     major = nb.get("nbformat")
@@ -76,6 +76,12 @@ def check_notebook(nb: Mapping[str, Any], label: str) -> None:
         raise RecordError(f"{label} is nbformat {major}, newer than this tool reads "
                           f"({SUPPORTED_NBFORMAT}); upgrade beliefledger or save it as "
                           f"nbformat {SUPPORTED_NBFORMAT}")
+    return major
+
+
+def check_notebook(nb: Mapping[str, Any], label: str) -> None:
+    """Refuse anything that is not an nbformat-4 notebook this tool can read."""
+    major = _major_version(nb, label, cells_key="cells")
     if major < SUPPORTED_NBFORMAT:
         raise RecordError(f"{label} is nbformat {major}; open and re-save it in a current "
                           f"Jupyter to convert it to nbformat {SUPPORTED_NBFORMAT}")
@@ -126,16 +132,8 @@ def load_notebook(path: str | Path) -> dict[str, Any]:
     """
     data = read_json_file(path, what="notebook")
     label = f"notebook {Path(path).name!r}"
-    if "nbformat" not in data or ("cells" not in data and "worksheets" not in data):
-        raise RecordError(f"{label} is JSON but not a Jupyter notebook (no 'cells' or "
-                          "'nbformat'); give a .ipynb file")
-    major = data.get("nbformat")
-    if isinstance(major, bool) or not isinstance(major, int):
-        raise RecordError(f"{label} has nbformat {major!r:.40}; expected an integer")
-    if major > SUPPORTED_NBFORMAT:
-        raise RecordError(f"{label} is nbformat {major}, newer than this tool reads "
-                          f"({SUPPORTED_NBFORMAT}); upgrade beliefledger or save it as "
-                          f"nbformat {SUPPORTED_NBFORMAT}")
+    major = _major_version(data, label, cells_key="worksheets" if "worksheets" in data
+                           else "cells")
     try:
         import nbformat
         from nbformat.validator import ValidationError
