@@ -18,7 +18,7 @@ from hypothesis import strategies as st
 
 import beliefledger as bl
 from beliefledger import batch
-from beliefledger.batch import RESULT_COLUMNS, UNKNOWN_COLUMN, score_cases
+from beliefledger.batch import RESULT_COLUMNS, UNKNOWN_COLUMN, score_rows
 from beliefledger.engine import update
 
 # --------------------------------------------------------------------------- fixtures
@@ -27,7 +27,7 @@ from beliefledger.engine import update
 def random_model(rng: np.random.Generator, n_hyps: int = 5, n_items: int = 7,
                  zero_share: float = 0.2) -> bl.Case:
     """A random coherent model with exact zeros (eliminations, impossible rows) and one
-    observed-only item."""
+    likelihood evidence item."""
     pri = rng.dirichlet(np.ones(n_hyps))
     pri[rng.integers(n_hyps)] = 0.0  # one zero prior
     pri = pri / pri.sum()
@@ -47,7 +47,7 @@ def random_model(rng: np.random.Generator, n_hyps: int = 5, n_items: int = 7,
                           likelihoods={h: list(t[:, j]) for j, h in enumerate(hyps)})
     lv = rng.random(n_hyps)
     lv[rng.integers(n_hyps)] = 0.0
-    case.add_evidence("logbook entry", observed_only=True, observed="entry found",
+    case.add_evidence("logbook entry", likelihood_evidence=True, observed="entry found",
                       likelihoods={h: float(v) for h, v in zip(hyps, lv, strict=True)})
     return case
 
@@ -69,7 +69,7 @@ def engine_row(model: bl.Case, row: pd.Series, work: bl.Case | None = None):
     for name in case.evidence_names:
         v = row.get(name)
         case.observe(name, None if v is None or (isinstance(v, float) and math.isnan(v)) else v)
-    return update(case, diagnose_findings=False)
+    return update(case, with_flags=False)
 
 
 @pytest.fixture
@@ -86,7 +86,7 @@ def obs(rng, model) -> pd.DataFrame:
 
 
 def test_rows_equal_engine_on_seeded_sample(model, obs, rng):
-    result = score_cases(model, obs)
+    result = score_rows(model, obs)
     assert list(result.index) == list(obs.index)
     hyps = model.hypothesis_names
     assert list(result.columns) == [*hyps, *RESULT_COLUMNS]
@@ -95,19 +95,19 @@ def test_rows_equal_engine_on_seeded_sample(model, obs, rng):
     sample = rng.choice(len(obs), size=150, replace=False)
     work = model.copy()
     for i in sample:
-        trace = engine_row(model, obs.iloc[i], work)
+        ledger = engine_row(model, obs.iloc[i], work)
         got = result.iloc[i]
-        np.testing.assert_allclose(got[hyps].to_numpy(dtype=float), trace.posterior.to_numpy(),
+        np.testing.assert_allclose(got[hyps].to_numpy(dtype=float), ledger.posterior.to_numpy(),
                                    rtol=1e-12, atol=1e-300)
         # exact zeros stay exact zeros
-        assert ((got[hyps].to_numpy(dtype=float) == 0) == (trace.posterior.to_numpy() == 0)).all()
-        assert got["map"] == trace.map_hypothesis
-        assert got["impossible"] == (trace.stopped_at is not None)
+        assert ((got[hyps].to_numpy(dtype=float) == 0) == (ledger.posterior.to_numpy() == 0)).all()
+        assert got["map"] == ledger.map_hypothesis
+        assert got["impossible"] == (ledger.stopped_at is not None)
         stopped = None if pd.isna(got["stopped_at"]) else got["stopped_at"]
-        assert stopped == trace.stopped_at
-        assert got["eliminated"] == len(trace.eliminated)
+        assert stopped == ledger.stopped_at
+        assert got["eliminated"] == len(ledger.eliminated)
         assert got["n_observed"] == int(obs.iloc[i].notna().sum())
-        assert got["log_evidence"] == pytest.approx(trace.log_evidence, rel=1e-12, abs=1e-12)
+        assert got["log_evidence"] == pytest.approx(ledger.log_evidence, rel=1e-12, abs=1e-12)
 
 
 @given(st.integers(0, 2**32 - 1))
@@ -116,21 +116,21 @@ def test_generated_models_match_the_engine_on_every_row(seed):
     model = random_model(rng, n_hyps=int(rng.integers(2, 6)), n_items=int(rng.integers(2, 6)),
                          zero_share=float(rng.uniform(0, 0.5)))
     obs = random_observations(rng, model, 12, missing=float(rng.uniform(0, 0.6)))
-    result = score_cases(model, obs, chunk_size=int(rng.integers(1, 13)))
+    result = score_rows(model, obs, chunk_size=int(rng.integers(1, 13)))
     hyps = model.hypothesis_names
     work = model.copy()
     for i in range(len(obs)):
-        trace = engine_row(model, obs.iloc[i], work)
+        ledger = engine_row(model, obs.iloc[i], work)
         got = result.iloc[i]
-        np.testing.assert_allclose(got[hyps].to_numpy(dtype=float), trace.posterior.to_numpy(),
+        np.testing.assert_allclose(got[hyps].to_numpy(dtype=float), ledger.posterior.to_numpy(),
                                    rtol=1e-11, atol=1e-300)
-        assert got["map"] == trace.map_hypothesis
-        assert (None if pd.isna(got["stopped_at"]) else got["stopped_at"]) == trace.stopped_at
-        assert got["eliminated"] == len(trace.eliminated)
+        assert got["map"] == ledger.map_hypothesis
+        assert (None if pd.isna(got["stopped_at"]) else got["stopped_at"]) == ledger.stopped_at
+        assert got["eliminated"] == len(ledger.eliminated)
 
 
 def test_posteriors_are_finite_distributions(model, obs):
-    result = score_cases(model, obs)
+    result = score_rows(model, obs)
     post = result[model.hypothesis_names].to_numpy()
     assert np.isfinite(post).all()
     np.testing.assert_allclose(post.sum(axis=1), 1.0, rtol=1e-12)
@@ -144,29 +144,29 @@ def test_active_scenario_priors_are_used(model, obs):
     hyps = model.hypothesis_names
     alt = dict.fromkeys(hyps, 1 / len(hyps))
     model.add_scenario("uniform", alt)
-    base = score_cases(model, obs)
+    base = score_rows(model, obs)
     model.use_scenario("uniform")
-    scored = score_cases(model, obs)
+    scored = score_rows(model, obs)
     assert not np.allclose(base[hyps].to_numpy(), scored[hyps].to_numpy())
     for i in (0, 17, 333):
-        trace = engine_row(model, obs.iloc[i])
-        assert trace.scenario == "uniform"
+        ledger = engine_row(model, obs.iloc[i])
+        assert ledger.scenario == "uniform"
         np.testing.assert_allclose(scored.iloc[i][hyps].to_numpy(dtype=float),
-                                   trace.posterior.to_numpy(), rtol=1e-12, atol=1e-300)
+                                   ledger.posterior.to_numpy(), rtol=1e-12, atol=1e-300)
 
 
 def test_model_case_own_observations_are_ignored(model, obs):
-    before = score_cases(model, obs)
+    before = score_rows(model, obs)
     for name, ev in model.evidence.items():
-        if not ev.observed_only:
+        if not ev.likelihood_evidence:
             model.observe(name, ev.states[0])
-    pd.testing.assert_frame_equal(score_cases(model, obs), before, check_exact=True)
+    pd.testing.assert_frame_equal(score_rows(model, obs), before, check_exact=True)
 
 
 @pytest.mark.parametrize("chunk_size", [1, 7, 64, 10_000])
 def test_chunk_size_does_not_change_results(model, obs, chunk_size):
-    ref = score_cases(model, obs)
-    pd.testing.assert_frame_equal(score_cases(model, obs, chunk_size=chunk_size), ref,
+    ref = score_rows(model, obs)
+    pd.testing.assert_frame_equal(score_rows(model, obs, chunk_size=chunk_size), ref,
                                   check_exact=True)
 
 
@@ -177,8 +177,8 @@ def always_threads(monkeypatch):
 
 @pytest.mark.parametrize("threads", [1, 2, 3])
 def test_threads_do_not_change_results(model, obs, threads, always_threads):
-    ref = score_cases(model, obs, chunk_size=50, threads=1)
-    pd.testing.assert_frame_equal(score_cases(model, obs, chunk_size=50, threads=threads), ref,
+    ref = score_rows(model, obs, chunk_size=50, threads=1)
+    pd.testing.assert_frame_equal(score_rows(model, obs, chunk_size=50, threads=threads), ref,
                                   check_exact=True)
 
 
@@ -188,33 +188,33 @@ def test_first_bad_row_is_reported_whatever_the_threads(model, obs, always_threa
     frame.loc["case-0061", "item 5"] = "early typo"
     for threads in (1, 2, 4):
         with pytest.raises(bl.CaseError, match=r"row 'case-0061', column 'item 5'"):
-            score_cases(model, frame, chunk_size=16, threads=threads)
+            score_rows(model, frame, chunk_size=16, threads=threads)
 
 
 def test_column_dtypes_and_order_do_not_change_results(model, obs):
-    ref = score_cases(model, obs)
+    ref = score_rows(model, obs)
     as_cat = obs.copy()
     for name, ev in model.evidence.items():
         # categories in another order than the states, plus one never used
         as_cat[name] = pd.Categorical(obs[name], categories=[*reversed(ev.states), "unused"])
-    pd.testing.assert_frame_equal(score_cases(model, as_cat), ref, check_exact=True)
+    pd.testing.assert_frame_equal(score_rows(model, as_cat), ref, check_exact=True)
     as_str = obs.astype("string")
-    pd.testing.assert_frame_equal(score_cases(model, as_str), ref, check_exact=True)
+    pd.testing.assert_frame_equal(score_rows(model, as_str), ref, check_exact=True)
     shuffled = obs[list(reversed(obs.columns))]
-    pd.testing.assert_frame_equal(score_cases(model, shuffled), ref, check_exact=True)
+    pd.testing.assert_frame_equal(score_rows(model, shuffled), ref, check_exact=True)
 
 
 def test_subset_of_columns_means_not_observed(model, obs):
     keep = obs.columns[:3]
-    sub = score_cases(model, obs[keep])
+    sub = score_rows(model, obs[keep])
     full = obs.copy()
     full[obs.columns[3:]] = None
-    pd.testing.assert_frame_equal(sub, score_cases(model, full), check_exact=True)
+    pd.testing.assert_frame_equal(sub, score_rows(model, full), check_exact=True)
 
 
 def test_all_missing_row_returns_the_prior(model):
     frame = pd.DataFrame({name: [None, None] for name in model.evidence_names})
-    result = score_cases(model, frame)
+    result = score_rows(model, frame)
     np.testing.assert_allclose(result[model.hypothesis_names].to_numpy(),
                                np.tile(model.priors.to_numpy(), (2, 1)), rtol=1e-15)
     assert (result["n_observed"] == 0).all() and (result["log_evidence"] == 0).all()
@@ -237,7 +237,7 @@ def test_nasa_coin_example_in_batch():
     # exact P(fair) = 0.75/32 / (0.75/32 + 0.25) = 0.0857142857 ("about 10:1" against).
     rows = pd.DataFrame([["heads"] * k + [None] * (5 - k) for k in range(6)],
                         columns=[f"toss {k + 1}" for k in range(5)])
-    result = score_cases(coin_model(), rows)
+    result = score_rows(coin_model(), rows)
     assert result.loc[1, "fair"] == pytest.approx(0.60, abs=5e-3)
     assert math.exp(result.loc[1, "log_evidence"]) == pytest.approx(0.625, abs=5e-4)
     assert result.loc[5, "fair"] == pytest.approx(0.0857142857, rel=1e-9)
@@ -249,7 +249,7 @@ def test_nasa_coin_example_in_batch():
 def test_one_tail_eliminates_the_two_headed_coin():
     # common practice: a zero likelihood rules a hypothesis out exactly
     rows = pd.DataFrame({"toss 1": ["heads"], "toss 2": ["tails"]})
-    got = score_cases(coin_model(), rows).iloc[0]
+    got = score_rows(coin_model(), rows).iloc[0]
     assert got["two-headed"] == 0.0 and got["fair"] == 1.0
     assert got["eliminated"] == 1 and not got["impossible"]
 
@@ -264,15 +264,15 @@ def test_impossible_row_is_flagged_and_stops_like_the_engine():
                       likelihoods={"seal": [0.5, 0.5], "Other": [0.2, 0.8]})
     rows = pd.DataFrame({"residue": ["dry", "oily"], "sound": ["hiss", "hiss"],
                          "pressure": ["dropping", "dropping"]}, index=["A", "B"])
-    result = score_cases(case, rows)
+    result = score_rows(case, rows)
     a = result.loc["A"]
     assert a["impossible"] and a["stopped_at"] == "pressure"
     # residue 'dry' leaves only Other; 'pressure: dropping' is impossible under it, so the
     # update stops before it and 'sound' (after it in the model's order) is not applied
     assert a["Other"] == 1.0 and a["seal"] == 0.0 and a["map"] == "Other"
     assert a["log_evidence"] == pytest.approx(math.log(0.4 * 0.7))
-    trace = engine_row(case, rows.loc["A"])
-    assert trace.stopped_at == "pressure" and trace.posterior["Other"] == 1.0
+    ledger = engine_row(case, rows.loc["A"])
+    assert ledger.stopped_at == "pressure" and ledger.posterior["Other"] == 1.0
     b = result.loc["B"]
     assert not b["impossible"] and pd.isna(b["stopped_at"]) and b["map"] == "seal"
     assert not result[["seal", "Other", "log_evidence"]].isna().any().any()
@@ -289,29 +289,29 @@ def test_module_examples_run():
 def test_non_dataframe_is_refused(model, obs):
     for bad in (obs.to_dict(), obs.to_numpy(), obs.iloc[0], None, "table.csv"):
         with pytest.raises(bl.CaseTypeError, match="pandas DataFrame"):
-            score_cases(model, bad)
+            score_rows(model, bad)
     with pytest.raises(bl.CaseTypeError, match="Case as the model"):
-        score_cases({"H1": 0.5}, obs)
+        score_rows({"H1": 0.5}, obs)
 
 
 def test_empty_frame_is_refused(model, obs):
     with pytest.raises(bl.CaseError, match="no rows"):
-        score_cases(model, obs.iloc[:0])
+        score_rows(model, obs.iloc[:0])
     with pytest.raises(bl.CaseError, match="no columns"):
-        score_cases(model, pd.DataFrame(index=range(3)))
+        score_rows(model, pd.DataFrame(index=range(3)))
 
 
 def test_unknown_column_is_named(model, obs):
     frame = obs.assign(**{"alarm id": 1})
     with pytest.raises(bl.CaseError, match=r"column 'alarm id' .* not an evidence item"):
-        score_cases(model, frame)
+        score_rows(model, frame)
     frame = obs.rename(columns={"item 2": "Item 2 "})
     with pytest.raises(bl.CaseError, match=r"did you mean 'item 2'"):
-        score_cases(model, frame)
+        score_rows(model, frame)
     frame = obs.copy()
     frame.columns = [*obs.columns[:-1], 7]
     with pytest.raises(bl.CaseError, match=r"column 7 of observations"):
-        score_cases(model, frame)
+        score_rows(model, frame)
 
 
 def test_unknown_state_label_names_row_column_and_value(model, obs):
@@ -319,10 +319,10 @@ def test_unknown_state_label_names_row_column_and_value(model, obs):
     frame.loc["case-0123", "item 1"] = "s1-typo"
     with pytest.raises(bl.CaseError, match=r"row 'case-0123', column 'item 1': 's1-typo' is "
                                            r"not a state of evidence 'item 1'"):
-        score_cases(model, frame)
+        score_rows(model, frame)
     as_cat = frame.astype({"item 1": "category"})
     with pytest.raises(bl.CaseError, match=r"row 'case-0123', column 'item 1': 's1-typo'"):
-        score_cases(model, as_cat, chunk_size=50)
+        score_rows(model, as_cat, chunk_size=50)
 
 
 def test_numbers_where_labels_belong_get_a_hint():
@@ -331,8 +331,8 @@ def test_numbers_where_labels_belong_get_a_hint():
                       likelihoods={"drift": [0.3, 0.7], "Other": [0.9, 0.1]})
     with pytest.raises(bl.CaseError, match=r"row 0, column 'reading': 0 is not a state.*int64 "
                                            r"values: convert it with \.astype\(str\)"):
-        score_cases(case, pd.DataFrame({"reading": [0, 1]}))
-    ok = score_cases(case, pd.DataFrame({"reading": [0, 1]}).astype(str))
+        score_rows(case, pd.DataFrame({"reading": [0, 1]}))
+    ok = score_rows(case, pd.DataFrame({"reading": [0, 1]}).astype(str))
     assert list(ok["map"]) == ["Other", "drift"]
 
 
@@ -341,7 +341,7 @@ def test_skip_unknown_counts_every_skipped_label(model, obs):
     frame.loc["case-0005", "item 0"] = "bogus"
     frame.loc["case-0005", "item 3"] = "bogus too"
     frame.loc["case-0009", "item 3"] = "bogus"
-    result = score_cases(model, frame, on_unknown="skip")
+    result = score_rows(model, frame, on_unknown="skip")
     assert list(result.columns)[-1] == UNKNOWN_COLUMN
     assert result[UNKNOWN_COLUMN].sum() == 3
     assert result.loc["case-0005", UNKNOWN_COLUMN] == 2
@@ -349,36 +349,36 @@ def test_skip_unknown_counts_every_skipped_label(model, obs):
     cleaned.loc["case-0005", ["item 0", "item 3"]] = None
     cleaned.loc["case-0009", "item 3"] = None
     pd.testing.assert_frame_equal(result.drop(columns=UNKNOWN_COLUMN),
-                                  score_cases(model, cleaned), check_exact=True)
+                                  score_rows(model, cleaned), check_exact=True)
 
 
 def test_bad_options_are_refused(model, obs):
     with pytest.raises(bl.CaseError, match="on_unknown is 'ignore'"):
-        score_cases(model, obs, on_unknown="ignore")
+        score_rows(model, obs, on_unknown="ignore")
     with pytest.raises(bl.CaseError, match="chunk_size is 0"):
-        score_cases(model, obs, chunk_size=0)
+        score_rows(model, obs, chunk_size=0)
     with pytest.raises(bl.CaseTypeError, match="chunk_size"):
-        score_cases(model, obs, chunk_size=True)
+        score_rows(model, obs, chunk_size=True)
     with pytest.raises(bl.CaseTypeError, match="chunk_size"):
-        score_cases(model, obs, chunk_size=2.5)
+        score_rows(model, obs, chunk_size=2.5)
     with pytest.raises(bl.CaseError, match="threads is 0"):
-        score_cases(model, obs, threads=0)
+        score_rows(model, obs, threads=0)
     with pytest.raises(bl.CaseTypeError, match="threads"):
-        score_cases(model, obs, threads="2")
+        score_rows(model, obs, threads="2")
     with pytest.raises(bl.CaseTypeError, match="prefix"):
-        score_cases(model, obs, prefix=3)
+        score_rows(model, obs, prefix=3)
 
 
 def test_incoherent_model_is_refused_and_left_unchanged(model, obs):
     model.set_prior("H0", 0.9)  # part-way edit: priors no longer sum to 1
     snapshot = model.to_dict()
     with pytest.raises(bl.CaseError, match=r"priors of scenario 'base' sum to .* not 1"):
-        score_cases(model, obs)
+        score_rows(model, obs)
     assert model.to_dict() == snapshot
     fresh = coin_model()
     fresh.set_likelihood("toss 3", "fair", 0.7, state="heads")
     with pytest.raises(bl.CaseError, match=r"evidence 'toss 3' for hypothesis 'fair' sum to 1.2"):
-        score_cases(fresh, pd.DataFrame({"toss 1": ["heads"]}))
+        score_rows(fresh, pd.DataFrame({"toss 1": ["heads"]}))
 
 
 def test_hypothesis_named_like_a_result_column_needs_a_prefix():
@@ -386,8 +386,8 @@ def test_hypothesis_named_like_a_result_column_needs_a_prefix():
     case.add_evidence("e", states=["a", "b"], likelihoods={"map": [0.9, 0.1], "Other": [0.5, 0.5]})
     frame = pd.DataFrame({"e": ["a"]})
     with pytest.raises(bl.CaseError, match=r"'map' would collide.*prefix='p_'"):
-        score_cases(case, frame)
-    got = score_cases(case, frame, prefix="p_")
+        score_rows(case, frame)
+    got = score_rows(case, frame, prefix="p_")
     assert list(got.columns[:2]) == ["p_map", "p_Other"] and got["map"].iloc[0] == "map"
 
 
@@ -408,26 +408,26 @@ def test_dependent_evidence_is_refused_by_name():
                       likelihoods={"kitchen": [0.2, 0.8], "wiring": [0.7, 0.3]})
     with pytest.raises(bl.CaseError, match=r"column 'second witness' is evidence in a stated "
                                            r"dependence \(conditional chain"):
-        score_cases(case, pd.DataFrame({"second witness": ["hall"]}))
+        score_rows(case, pd.DataFrame({"second witness": ["hall"]}))
     with pytest.raises(bl.CaseError, match=r"column 'scorch' .* \(joint group 'same photo'\)"):
-        score_cases(case, pd.DataFrame({"scorch": ["yes"]}))
+        score_rows(case, pd.DataFrame({"scorch": ["yes"]}))
     with pytest.raises(bl.CaseError, match=r"column 'first witness' .* \(conditional chain"):
-        score_cases(case, pd.DataFrame({"first witness": ["hall"], "breaker": ["on"]}))
+        score_rows(case, pd.DataFrame({"first witness": ["hall"], "breaker": ["on"]}))
     # the items outside any stated dependence are still scored
     frame = pd.DataFrame({"breaker": ["tripped"]})
-    got = score_cases(case, frame).iloc[0]
+    got = score_rows(case, frame).iloc[0]
     assert got["kitchen"] == pytest.approx(0.4 * 0.2 / (0.4 * 0.2 + 0.6 * 0.7), rel=1e-12)
 
 
 def test_exported_at_top_level():
-    assert bl.score_cases is score_cases
+    assert bl.score_rows is score_rows
 
 
 def test_pandas_scoring_loads_no_dask_and_no_notebook_packages():
     code = ("import sys, pandas as pd, beliefledger as bl\n"
             "m = bl.example_case()\n"
             "e = m.evidence_names[0]\n"
-            "r = bl.score_cases(m, pd.DataFrame({e: [m.evidence[e].states[0], None]}))\n"
+            "r = bl.score_rows(m, pd.DataFrame({e: [m.evidence[e].states[0], None]}))\n"
             "assert len(r) == 2\n"
             "print(sorted(x for x in ('dask', 'distributed', 'altair', 'ipywidgets', "
             "'nbformat', 'scipy.stats') if x in sys.modules))\n")

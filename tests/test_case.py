@@ -24,16 +24,16 @@ def test_design_interface_example():
     case.add_evidence("E1", states=["present", "absent"],
                       likelihoods={"H1": [0.9, 0.1], "H2": [0.2, 0.8], "Other": [0.5, 0.5]},
                       observed="present")
-    trace = case.update()
-    assert isinstance(trace.posterior, pd.Series)
-    assert trace.posterior.sum() == pytest.approx(1)
-    assert list(trace.steps.index) == ["prior", "E1"]
-    assert list(trace.steps.columns) == ["H1", "H2", "Other"]
+    ledger = case.update()
+    assert isinstance(ledger.posterior, pd.Series)
+    assert ledger.posterior.sum() == pytest.approx(1)
+    assert list(ledger.steps.index) == ["prior", "E1"]
+    assert list(ledger.steps.columns) == ["H1", "H2", "Other"]
     # 0.45 / (0.45 + 0.06 + 0.10)
-    assert trace.posterior["H1"] == pytest.approx(0.45 / 0.61)
-    assert trace.map_hypothesis == "H1"
-    assert trace.ml_hypothesis == "H1"
-    assert all(isinstance(f, bl.Finding) for f in trace.findings)
+    assert ledger.posterior["H1"] == pytest.approx(0.45 / 0.61)
+    assert ledger.map_hypothesis == "H1"
+    assert ledger.ml_hypothesis == "H1"
+    assert all(isinstance(f, bl.Flag) for f in ledger.flags)
 
 
 def test_hypotheses_from_dicts_lists_series_frames_and_csv(tmp_path):
@@ -117,7 +117,7 @@ def test_column_sum_error_message_follows_the_style_guide():
     case = bl.Case("c", {"seal failure": 0.5, "Other": 0.5})
     with pytest.raises(CaseError, match=(r"likelihoods of evidence 'valve residue' for hypothesis "
                                          r"'seal failure' sum to 1.4 over its states \(want 1 "
-                                         r"within 1e-09\).*observed_only=True")):
+                                         r"within 1e-09\).*likelihood_evidence=True")):
         case.add_evidence("valve residue", states=["yes", "no"],
                           likelihoods={"seal failure": [0.9, 0.5], "Other": [0.5, 0.5]})
     assert case.evidence == {}
@@ -178,9 +178,9 @@ def test_single_prior_edit_may_leave_the_sum_off_and_is_reported():
     case = bl.Case("c", {"A": 0.5, "B": 0.3, "Other": 0.2})
     case.set_prior("A", 0.6, source="revised log count")
     assert case.base_priors.sum() == pytest.approx(1.1)
-    trace = case.update()
-    assert [f.code for f in trace.findings if f.severity == "error"] == ["prior-sum"]
-    assert trace.posterior.sum() == pytest.approx(1)
+    ledger = case.update()
+    assert [f.code for f in ledger.flags if f.severity == "error"] == ["prior-sum"]
+    assert ledger.posterior.sum() == pytest.approx(1)
     assert case.hypotheses["A"].source.where == "revised log count"
     case.normalize_priors()
     assert case.base_priors.sum() == pytest.approx(1)
@@ -188,20 +188,20 @@ def test_single_prior_edit_may_leave_the_sum_off_and_is_reported():
     assert case.update().ok
 
 
-def test_prior_edit_with_rebalance_keeps_the_sum_and_records_it():
+def test_prior_edit_with_rescale_keeps_the_sum_and_records_it():
     case = bl.Case("c", {"A": 0.5, "B": 0.3, "Other": 0.2})
-    case.set_prior("A", 0.6, rebalance=True)
+    case.set_prior("A", 0.6, rescale=True)
     assert case.base_priors.to_dict() == pytest.approx({"A": 0.6, "B": 0.24, "Other": 0.16})
-    assert case.assumptions[-1]["kind"] == "rebalance-priors"
+    assert case.assumptions[-1]["kind"] == "rescale-priors"
 
 
 def test_single_likelihood_cell_edit_flags_the_column(small_case):
     small_case.set_likelihood("E1", "H1", 0.7, state="present", source="bench test 4")
-    codes = [f.code for f in small_case.update().findings]
+    codes = [f.code for f in small_case.update().flags]
     assert "column-sum" in codes
     assert small_case.evidence["E1"].source_of("present", "H1").where == "bench test 4"
     small_case.set_likelihood("E1", "H1", 0.3, state="absent")
-    assert "column-sum" not in [f.code for f in small_case.update().findings]
+    assert "column-sum" not in [f.code for f in small_case.update().flags]
 
 
 def test_whole_column_edit_and_table_import(small_case):
@@ -233,7 +233,7 @@ def test_add_remove_rename_hypotheses_keep_everything_in_step(small_case):
     assert small_case.scenario_priors("flat").sum() == pytest.approx(1)
     assert small_case.evidence["E1"].table.shape == (2, 3)
     kinds = [a["kind"] for a in small_case.assumptions]
-    assert kinds.count("rebalance-priors") >= 3
+    assert kinds.count("rescale-priors") >= 3
     assert small_case.update().posterior.sum() == pytest.approx(1)
 
 
@@ -268,21 +268,21 @@ def test_listeners_fire_once_per_successful_edit(small_case):
     small_case.observe("E3", "yes")
     with pytest.raises(CaseError):
         small_case.observe("E3", "maybe")
-    small_case.set_prior("H1", 0.4, rebalance=True)
+    small_case.set_prior("H1", 0.4, rescale=True)
     assert calls == ["observed", "prior"]
     unsubscribe()
     small_case.observe("E3", None)
     assert len(calls) == 2
 
 
-def test_observed_only_evidence_needs_no_column_sum():
+def test_likelihood_evidence_evidence_needs_no_column_sum():
     case = bl.Case("c", {"A": 0.5, "Other": 0.5})
-    case.add_evidence("witness", observed_only=True, observed="saw smoke",
+    case.add_evidence("witness", likelihood_evidence=True, observed="saw smoke",
                       likelihoods={"A": 0.9, "Other": 0.3})
     assert case.evidence["witness"].states == ("saw smoke",)
-    assert "column-sum" not in [f.code for f in case.update().findings]
-    with pytest.raises(CaseError, match="observed_only, so name its observed state"):
-        case.add_evidence("w2", observed_only=True, likelihoods={"A": 0.9, "Other": 0.3})
+    assert "column-sum" not in [f.code for f in case.update().flags]
+    with pytest.raises(CaseError, match="likelihood_evidence, so name its observed state"):
+        case.add_evidence("w2", likelihood_evidence=True, likelihoods={"A": 0.9, "Other": 0.3})
 
 
 def test_evidence_normalize_is_recorded():
@@ -301,7 +301,7 @@ def test_reprs_are_deterministic(demo_case):
         "6 evidence items, 5 observed; scenario 'base')")
     assert repr(demo_case.evidence["suction pressure trend"]) == (
         "Evidence('suction pressure trend': 3 states, not yet observed)")
-    assert repr(demo_case.update()).startswith("Trace('Ammonia odour at the Eastgate cold store': "
+    assert repr(demo_case.update()).startswith("Ledger('Ammonia odour at the Eastgate cold store': "
                                                "5 evidence steps, MAP 'compressor seal leak'")
 
 

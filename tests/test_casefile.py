@@ -30,10 +30,10 @@ def test_round_trip_is_lossless(tmp_path, demo_case):
 
 
 def test_saved_part_way_edits_load_back(tmp_path, small_case):
-    small_case.set_prior("H1", 0.9)  # sum now 1.4: an error finding, but nothing is lost
+    small_case.set_prior("H1", 0.9)  # sum now 1.4: an error flag, but nothing is lost
     again = bl.load_case(small_case.save(tmp_path / "c.json"))
     assert again.base_priors["H1"] == 0.9
-    assert "prior-sum" in [f.code for f in again.update().findings]
+    assert "prior-sum" in [f.code for f in again.update().flags]
 
 
 def test_save_is_atomic_and_leaves_no_temporary_file(tmp_path, small_case):

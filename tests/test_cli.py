@@ -18,7 +18,7 @@ def test_bundled_example_file_matches_the_built_in_case():
     assert bl.load_case(EXAMPLE).to_dict() == bl.example_case().to_dict()
 
 
-def test_update_prints_trace_and_findings(capsys):
+def test_update_prints_ledger_and_flags(capsys):
     assert main(["update", str(EXAMPLE)]) == 0
     out = capsys.readouterr().out
     assert "Case: Ammonia odour at the Eastgate cold store" in out
@@ -32,13 +32,13 @@ def test_update_json_matches_the_engine(capsys):
     data = json.loads(capsys.readouterr().out)
     case = bl.load_case(EXAMPLE)
     case.use_scenario("uniform")
-    trace = case.update()
+    ledger = case.update()
     assert data["scenario"] == "uniform"
-    assert data["map_hypothesis"] == trace.map_hypothesis
-    assert data["posterior"] == {k: float(v) for k, v in trace.posterior.items()}
+    assert data["map_hypothesis"] == ledger.map_hypothesis
+    assert data["posterior"] == {k: float(v) for k, v in ledger.posterior.items()}
 
 
-def test_update_strict_exits_1_on_error_findings(tmp_path, capsys):
+def test_update_strict_exits_1_on_error_flags(tmp_path, capsys):
     case = bl.example_case()
     case.set_prior("other cause", 0.5)  # priors now sum to 1.4
     path = case.save(tmp_path / "c.json")

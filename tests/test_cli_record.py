@@ -19,7 +19,7 @@ def base_record():
     from beliefledger.record import sections
 
     saved = sections.chart_svgs
-    sections.chart_svgs = lambda trace, case: ([], "skipped in a test")
+    sections.chart_svgs = lambda ledger, case: ([], "skipped in a test")
     try:
         return build_record(executed_notebook(bl.example_case()), notebook_name="t.ipynb",
                             sealed_at="2026-11-30T08:00:00Z")
@@ -175,7 +175,7 @@ def test_diff_of_case_files_and_records(tmp_path, rec, capsys):
     assert main(["diff", str(tmp_path / "x.txt"), str(rec)]) == 2
 
 
-def test_findings_that_appear_and_clear_are_listed(tmp_path):
+def test_flags_that_appear_and_clear_are_listed(tmp_path):
     from beliefledger.record.differ import diff
 
     a = bl.Case("F", hypotheses={"A": 0.5, "B": 0.5}, exhaustive=True)

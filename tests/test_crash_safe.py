@@ -156,7 +156,7 @@ def test_a_failed_save_keeps_the_old_file_and_leaves_nothing(tmp_path, small_cas
         raise OSError(28, "No space left on device")
 
     monkeypatch.setattr(os, "replace", refuse)
-    small_case.set_prior("H1", 0.4, rebalance=True)
+    small_case.set_prior("H1", 0.4, rescale=True)
     with pytest.raises(OSError):
         small_case.save(path)
     monkeypatch.undo()

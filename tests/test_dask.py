@@ -1,4 +1,4 @@
-"""score_cases on a Dask DataFrame, on a local two-worker cluster, against the pandas path.
+"""score_rows on a Dask DataFrame, on a local two-worker cluster, against the pandas path.
 
 Needs the optional extra ``beliefledger[dask]``; skipped with a message without it.
 The model and observations are invented, seeded test data (see test_batch.py).
@@ -48,10 +48,10 @@ def data():
 
 def test_dask_path_equals_pandas_path(client, data):
     model, obs = data
-    ref = bl.score_cases(model, obs)
+    ref = bl.score_rows(model, obs)
     assert ref["impossible"].any() and (ref["eliminated"] > 0).any()
     ddf = dd.from_pandas(obs, npartitions=5)
-    lazy = bl.score_cases(model, ddf, chunk_size=97)
+    lazy = bl.score_rows(model, ddf, chunk_size=97)
     assert isinstance(lazy, dd.DataFrame)
     assert list(lazy.columns) == list(ref.columns)
     assert dict(lazy.dtypes) == dict(ref.dtypes)
@@ -66,8 +66,8 @@ def test_dask_categorical_columns_and_skip_option(client, data):
     frame = obs.copy()
     frame.iloc[11, 2] = "not a state"
     cat = frame.astype("category")
-    ref = bl.score_cases(model, frame, on_unknown="skip")
-    got = client.compute(bl.score_cases(model, dd.from_pandas(cat, npartitions=3),
+    ref = bl.score_rows(model, frame, on_unknown="skip")
+    got = client.compute(bl.score_rows(model, dd.from_pandas(cat, npartitions=3),
                                         on_unknown="skip")).result()
     pd.testing.assert_frame_equal(got, ref, check_exact=True)
     assert got["n_unknown"].sum() == 1
@@ -77,7 +77,7 @@ def test_dask_unknown_label_raises_case_error_at_compute(client, data):
     model, obs = data
     frame = obs.copy()
     frame.loc["case-2500", "item 4"] = "typo"
-    lazy = bl.score_cases(model, dd.from_pandas(frame, npartitions=4))
+    lazy = bl.score_rows(model, dd.from_pandas(frame, npartitions=4))
     with pytest.raises(bl.CaseError, match=r"row 'case-2500', column 'item 4': 'typo'"):
         client.compute(lazy).result()
 
@@ -86,4 +86,4 @@ def test_dask_bad_columns_fail_before_compute(data):
     model, obs = data
     ddf = dd.from_pandas(obs.assign(extra=1), npartitions=2)
     with pytest.raises(bl.CaseError, match=r"column 'extra' of observations is not an evidence"):
-        bl.score_cases(model, ddf)
+        bl.score_rows(model, ddf)

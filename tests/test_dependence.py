@@ -472,20 +472,20 @@ def test_hypothesis_edits_carry_groups_and_conditionals():
 # --------------------------------------------------------------------------- shared-source tag
 
 
-def test_shared_source_finding_and_its_weight():
+def test_shared_source_flag_and_its_weight():
     case = two_tests()
     case.set_evidence("dye test", shared_source="swab 7")
     case.set_evidence("sniffer", shared_source="swab 7")
     tr = case.update()
-    found = [f for f in tr.findings if f.code == "shared-source"]
+    found = [f for f in tr.flags if f.code == "shared-source"]
     assert len(found) == 1
     w = bl.step_weights(tr)["decibans"].sum()  # both steps together
     assert f"{w:+.1f} decibans" in found[0].message
     # numbers left alone by the tag
     np.testing.assert_array_equal(tr.posterior, two_tests().update().posterior)
-    # once the two items form one joint group the dependence is stated: no finding
+    # once the two items form one joint group the dependence is stated: no flag
     case.add_joint_group("same sample", ["dye test", "sniffer"], covariance=0.0)
-    assert not [f for f in case.update().findings if f.code == "shared-source"]
+    assert not [f for f in case.update().flags if f.code == "shared-source"]
 
 
 def test_shared_source_across_a_group_and_an_item_counts_the_group_step_once():
@@ -495,7 +495,7 @@ def test_shared_source_across_a_group_and_an_item_counts_the_group_step_once():
     for n in ("dye test", "sniffer", "smell"):
         case.set_evidence(n, shared_source="same crew")
     tr = case.update()
-    found = [f for f in tr.findings if f.code == "shared-source"]
+    found = [f for f in tr.flags if f.code == "shared-source"]
     assert len(found) == 1
     w = bl.step_weights(tr)["decibans"]
     assert f"{w['same sample'] + w['smell']:+.1f} decibans" in found[0].message

@@ -34,7 +34,7 @@ def test_nasa_beta_binomial_example_prior():
     assert f"{prior.mean:.3g}" == "6.56e-06"
     lo, hi = prior.interval(0.9)
     assert (sig2(lo), sig2(hi)) == ("5.4e-07", "1.8e-05")
-    assert [f.code for f in prior.findings] == ["no-data"]
+    assert [f.code for f in prior.flags] == ["no-data"]
 
 
 def test_nasa_beta_binomial_example_posterior():
@@ -59,7 +59,7 @@ def test_nasa_gamma_poisson_example():
     lo, hi = est.interval(0.9)
     assert (sig2(lo), sig2(hi)) == ("5.6e-07", "1.1e-05")
     assert f"{1 - est.probability_of_event(1000):.3f}" == "0.996"
-    assert [f.code for f in est.findings] == ["zero-count"]
+    assert [f.code for f in est.flags] == ["zero-count"]
 
 
 # --- Jeffreys priors (NASA/SP-2009-569 sections 4.2.1 and 4.2.2; CHECKS.md 9-10) ---
@@ -115,7 +115,7 @@ def test_prior_from_counts_dirichlet():
     assert est.priors() == pytest.approx({"seal": 7 / 12, "valve": 4 / 12, "other": 1 / 12})
     # scipy.stats.dirichlet as the reference for the mean
     assert est.mean.to_numpy() == pytest.approx(stats.dirichlet.mean([7, 4, 1]))
-    z = [f for f in est.findings if f.code == "zero-count"]
+    z = [f for f in est.flags if f.code == "zero-count"]
     assert len(z) == 1 and "'other'" in z[0].message and "pseudo-count" in z[0].message
     assert "seal: 6" in est.source.where and "N = 9" in est.source.where
     assert "pseudo-count 1" in est.source.why
@@ -234,12 +234,12 @@ def test_gigerenzer_hoffrage_base_rate():
     assert case.evidence["screen"].source == est.source
 
 
-def test_likelihood_from_test_findings_and_errors():
+def test_likelihood_from_test_flags_and_errors():
     est = bl.likelihood_from_test(1.0, 0.3, target="a", hypotheses=["a", "b"])
-    codes = [f.code for f in est.findings]
+    codes = [f.code for f in est.flags]
     assert "zero-likelihood" in codes and "uninformative-test" not in codes
     est = bl.likelihood_from_test(0.4, 0.5, target="a", hypotheses=["a", "b"])
-    assert "uninformative-test" in [f.code for f in est.findings]
+    assert "uninformative-test" in [f.code for f in est.flags]
     with pytest.raises(CaseError, match="target 'z' is not one of"):
         bl.likelihood_from_test(0.9, 0.9, target="z", hypotheses=["a", "b"])
     with pytest.raises(CaseError, match=r"sensitivity is 1\.2"):

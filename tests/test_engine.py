@@ -33,21 +33,21 @@ def coin_case(n_heads: int, prior_fair: float = 0.75) -> bl.Case:
 
 
 def test_nasa_coin_one_head():
-    trace = coin_case(1).update()
-    assert trace.evidence_probability.iloc[0] == pytest.approx(0.625, abs=5e-4)
-    assert trace.posterior["fair"] == pytest.approx(0.60, abs=5e-3)
-    assert trace.posterior["two-headed"] == pytest.approx(0.40, abs=5e-3)
+    ledger = coin_case(1).update()
+    assert ledger.evidence_probability.iloc[0] == pytest.approx(0.625, abs=5e-4)
+    assert ledger.posterior["fair"] == pytest.approx(0.60, abs=5e-3)
+    assert ledger.posterior["two-headed"] == pytest.approx(0.40, abs=5e-3)
 
 
 def test_nasa_coin_five_heads_sequential():
-    trace = coin_case(5).update()
-    assert list(trace.steps.index) == ["prior"] + [f"toss {k}" for k in range(1, 6)]
-    assert trace.posterior["fair"] == pytest.approx(0.0857142857, rel=1e-9)
-    odds_against = trace.posterior["two-headed"] / trace.posterior["fair"]
+    ledger = coin_case(5).update()
+    assert list(ledger.steps.index) == ["prior"] + [f"toss {k}" for k in range(1, 6)]
+    assert ledger.posterior["fair"] == pytest.approx(0.0857142857, rel=1e-9)
+    odds_against = ledger.posterior["two-headed"] / ledger.posterior["fair"]
     assert odds_against == pytest.approx(10.67, abs=0.005)  # "about 10:1"
-    assert trace.map_hypothesis == "two-headed"
+    assert ledger.map_hypothesis == "two-headed"
     # each step's predictive probability of heads: 0.625 first, rising after
-    assert trace.evidence_probability.is_monotonic_increasing
+    assert ledger.evidence_probability.is_monotonic_increasing
 
 
 # --- Gigerenzer & Hoffrage (1995), Psychological Review 102(4): base rate 1 %, hit rate
@@ -61,9 +61,9 @@ def test_screening_posterior():
     case.add_evidence("test", states=["positive", "negative"],
                       likelihoods={"condition": [0.8, 0.2], "no condition": [0.096, 0.904]},
                       observed="positive")
-    trace = case.update()
-    assert trace.posterior["condition"] == pytest.approx(0.07764, abs=5e-6)
-    assert trace.posterior["condition"] == pytest.approx(8 / 103, abs=5e-4)
+    ledger = case.update()
+    assert ledger.posterior["condition"] == pytest.approx(0.07764, abs=5e-6)
+    assert ledger.posterior["condition"] == pytest.approx(8 / 103, abs=5e-4)
     assert bl.likelihood_ratio(case, "test", "condition", "no condition") == pytest.approx(
         8.33, abs=0.005)
 
@@ -80,18 +80,18 @@ def test_three_lines_map_differs_from_ml():
                       likelihoods={"line 1": [0.05, 0.95], "line 2": [0.04, 0.96],
                                    "line 3": [0.02, 0.98]},
                       observed="defective")
-    trace = case.update()
-    assert trace.posterior["line 2"] == pytest.approx(28 / 69, rel=1e-12)
-    assert trace.evidence_probability.iloc[0] == pytest.approx(0.0345, rel=1e-12)
-    assert trace.map_hypothesis == "line 2"
-    assert trace.ml_hypothesis == "line 1"
-    assert "map-differs-from-ml" in {f.code for f in trace.findings}
+    ledger = case.update()
+    assert ledger.posterior["line 2"] == pytest.approx(28 / 69, rel=1e-12)
+    assert ledger.evidence_probability.iloc[0] == pytest.approx(0.0345, rel=1e-12)
+    assert ledger.map_hypothesis == "line 2"
+    assert ledger.ml_hypothesis == "line 1"
+    assert "map-differs-from-ml" in {f.code for f in ledger.flags}
 
 
-def test_observed_only_vector_gives_the_same_answer():
+def test_likelihood_evidence_vector_gives_the_same_answer():
     case = bl.Case("lines", hypotheses={"line 1": 0.25, "line 2": 0.35, "line 3": 0.40},
                    exhaustive=True)
-    case.add_evidence("item", observed_only=True, observed="defective",
+    case.add_evidence("item", likelihood_evidence=True, observed="defective",
                       likelihoods={"line 1": 0.05, "line 2": 0.04, "line 3": 0.02})
     assert case.update().posterior["line 2"] == pytest.approx(28 / 69, rel=1e-12)
 
@@ -103,10 +103,10 @@ def test_observed_only_vector_gives_the_same_answer():
 
 def test_twenty_heads_deciban_example():
     case = coin_case(20, prior_fair=1e4 / (1e4 + 1))
-    trace = case.update()
-    odds_on = trace.posterior["two-headed"] / trace.posterior["fair"]
+    ledger = case.update()
+    odds_on = ledger.posterior["two-headed"] / ledger.posterior["fair"]
     assert odds_on == pytest.approx(104.8576, rel=1e-9)
-    w = bl.step_weights(trace, focus="two-headed")
+    w = bl.step_weights(ledger, focus="two-headed")
     assert w["decibans"].sum() == pytest.approx(60.206, abs=0.001)
     assert w["decibans"].iloc[0] == pytest.approx(3.0103, abs=1e-4)  # "3 db" per head
     lo = w["log_odds_after"].iloc[-1] * 10 / math.log(10)
@@ -152,14 +152,14 @@ def test_many_items_do_not_underflow():
     for j in range(k):  # built directly: this test is about the engine, not input checks
         table = np.vstack([lik[j], 1 - lik[j]])
         case._evidence[f"E{j}"] = Evidence(f"E{j}", ("yes", "no"), names, table, observed="yes")
-    trace = case.update()
+    ledger = case.update()
     total = np.log(lik).sum(axis=0)
     assert total.max() < -700  # the plain product underflows
     expected = np.exp(total - logsumexp(total))
-    np.testing.assert_allclose(trace.posterior.to_numpy(), expected, rtol=1e-8, atol=1e-300)
-    assert trace.posterior.sum() == pytest.approx(1.0, abs=1e-12)
-    assert len(trace.steps) == k + 1
-    assert not trace.steps.isna().any().any()
+    np.testing.assert_allclose(ledger.posterior.to_numpy(), expected, rtol=1e-8, atol=1e-300)
+    assert ledger.posterior.sum() == pytest.approx(1.0, abs=1e-12)
+    assert len(ledger.steps) == k + 1
+    assert not ledger.steps.isna().any().any()
 
 
 # --- exact zeros -----------------------------------------------------------------
@@ -170,10 +170,10 @@ def test_zero_prior_stays_exactly_zero():
     case.add_evidence("E", states=["x", "y"],
                       likelihoods={"A": [1.0, 0.0], "B": [0.01, 0.99], "Other": [0.5, 0.5]},
                       observed="x")
-    trace = case.update()
-    assert trace.posterior["A"] == 0.0
-    assert (trace.steps["A"] == 0.0).all()
-    assert "zero-prior" in {f.code for f in trace.findings}
+    ledger = case.update()
+    assert ledger.posterior["A"] == 0.0
+    assert (ledger.steps["A"] == 0.0).all()
+    assert "zero-prior" in {f.code for f in ledger.flags}
 
 
 def test_zero_likelihood_eliminates_and_is_reported():
@@ -184,10 +184,10 @@ def test_zero_likelihood_eliminates_and_is_reported():
     case.add_evidence("E2", states=["x", "y"],
                       likelihoods={"A": [1.0, 0.0], "B": [0.5, 0.5], "Other": [0.5, 0.5]},
                       observed="x")
-    trace = case.update()
-    assert trace.posterior["A"] == 0.0
-    assert trace.eliminated == ["A"]
-    elim = [f for f in trace.findings if f.code == "eliminated"]
+    ledger = case.update()
+    assert ledger.posterior["A"] == 0.0
+    assert ledger.eliminated == ["A"]
+    elim = [f for f in ledger.flags if f.code == "eliminated"]
     assert len(elim) == 1 and "'E1'" in elim[0].message and "'A'" in elim[0].message
 
 
@@ -199,37 +199,37 @@ def test_impossible_evidence_stops_at_previous_step():
                       likelihoods={"A": [0.0, 1.0], "B": [0.0, 1.0]}, observed="x")
     case.add_evidence("E3", states=["x", "y"],
                       likelihoods={"A": [0.5, 0.5], "B": [0.5, 0.5]}, observed="x")
-    trace = case.update()
-    assert trace.stopped_at == "E2"
-    assert trace.skipped == ["E2", "E3"]
-    assert list(trace.steps.index) == ["prior", "E1"]
-    assert trace.posterior["A"] == pytest.approx(0.45 / 0.55)
-    codes = [f.code for f in trace.findings]
+    ledger = case.update()
+    assert ledger.stopped_at == "E2"
+    assert ledger.skipped == ["E2", "E3"]
+    assert list(ledger.steps.index) == ["prior", "E1"]
+    assert ledger.posterior["A"] == pytest.approx(0.45 / 0.55)
+    codes = [f.code for f in ledger.flags]
     assert codes[0] == "impossible-evidence"
-    assert not trace.ok
-    assert not trace.posterior.isna().any()
+    assert not ledger.ok
+    assert not ledger.posterior.isna().any()
 
 
 def test_unobserved_evidence_is_carried_but_does_not_update(small_case):
-    trace = small_case.update()
-    assert "E3" not in trace.steps.index
+    ledger = small_case.update()
+    assert "E3" not in ledger.steps.index
     small_case.observe("E3", "yes")
     assert "E3" in small_case.update().steps.index
 
 
 def test_no_evidence_posterior_is_prior():
     case = bl.Case("p", hypotheses={"A": 0.7, "Other": 0.3})
-    trace = case.update()
-    assert trace.posterior.to_dict() == {"A": 0.7, "Other": 0.3}
-    assert trace.ml_hypothesis is None
-    assert "no-evidence" in {f.code for f in trace.findings}
+    ledger = case.update()
+    assert ledger.posterior.to_dict() == {"A": 0.7, "Other": 0.3}
+    assert ledger.ml_hypothesis is None
+    assert "no-evidence" in {f.code for f in ledger.flags}
 
 
 def test_steps_rows_sum_to_one_and_order_is_evidence_order(demo_case):
-    trace = demo_case.update()
-    np.testing.assert_allclose(trace.steps.sum(axis=1), 1.0, rtol=1e-12)
+    ledger = demo_case.update()
+    np.testing.assert_allclose(ledger.steps.sum(axis=1), 1.0, rtol=1e-12)
     observed = [e.name for e in demo_case.evidence.values() if e.observed is not None]
-    assert trace.evidence_steps == observed
+    assert ledger.evidence_steps == observed
 
 
 def test_update_under_named_scenario_leaves_case_alone(demo_case):
@@ -242,7 +242,7 @@ def test_update_under_named_scenario_leaves_case_alone(demo_case):
     pd.testing.assert_series_equal(demo_case.update().posterior, other.posterior)
 
 
-def test_trace_to_dict_is_json_ready(demo_case):
+def test_ledger_to_dict_is_json_ready(demo_case):
     import json
 
     text = json.dumps(demo_case.update().to_dict(), allow_nan=False)
@@ -295,7 +295,7 @@ def test_product_of_likelihoods_equals_two_updates(case):
     joint = {h: float(e1.likelihood_of(e1.observed)[h] * e2.likelihood_of(e2.observed)[h])
              for h in case.hypothesis_names}
     one = bl.Case("one", hypotheses=dict(case.priors), normalize=True)
-    one.add_evidence("both", observed_only=True, observed="seen", likelihoods=joint)
+    one.add_evidence("both", likelihood_evidence=True, observed="seen", likelihoods=joint)
     np.testing.assert_allclose(one.update().posterior, case.update().posterior, rtol=1e-9)
 
 

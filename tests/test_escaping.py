@@ -19,7 +19,7 @@ from html.parser import HTMLParser
 import pytest
 
 import beliefledger as bl
-from beliefledger.display import case_html, trace_html, trace_text
+from beliefledger.display import case_html, ledger_html, ledger_text
 from helpers import records, report
 from helpers.casegen import HOSTILE
 
@@ -57,7 +57,7 @@ def build_case(texts: list[str]) -> bl.Case:
                           observed=states[k % 2], source={"where": next(t), "why": next(t)},
                           description=next(t), shared_source=next(t) if k < 2 else None)
     case.add_scenario(next(t), {h: 0.25 for h in hyps}, source=next(t), note=next(t))
-    case.set_prior(hyps[0], 0.5)  # off the sum: a finding quotes the scenario's name
+    case.set_prior(hyps[0], 0.5)  # off the sum: a flag quotes the scenario's name
     return case
 
 
@@ -123,11 +123,11 @@ def twins():
     return build_case(hostile_texts()), build_case(plain_texts())
 
 
-def test_case_and_trace_html(twins):
+def test_case_and_ledger_html(twins):
     hostile, plain = twins
     assert_no_injection(case_html(hostile), case_html(plain), "case_html")
     assert_no_injection(hostile._repr_html_(), plain._repr_html_(), "Case._repr_html_")
-    assert_no_injection(trace_html(hostile.update()), trace_html(plain.update()), "trace_html")
+    assert_no_injection(ledger_html(hostile.update()), ledger_html(plain.update()), "ledger_html")
     bundle = hostile._repr_mimebundle_()
     assert_no_injection(bundle["text/html"], plain._repr_mimebundle_()["text/html"],
                         "case MIME bundle")
@@ -137,7 +137,7 @@ def test_terminal_output(twins, tmp_path, capsys):
     from beliefledger import cli
 
     hostile, _ = twins
-    assert_terminal_safe(trace_text(hostile.update()), "trace_text")
+    assert_terminal_safe(ledger_text(hostile.update()), "ledger_text")
     path = hostile.save(tmp_path / "hostile.json")
     assert cli.main(["update", str(path)]) == 0
     out = capsys.readouterr()
@@ -230,12 +230,12 @@ def test_chart_svg(twins):
     from beliefledger import charts
 
     hostile, _ = twins
-    trace = hostile.update()
+    ledger = hostile.update()
     scen = {s: hostile.update() for s in hostile.scenario_names}
     shown = ""
-    for name, chart in [("waterfall", charts.waterfall(trace)),
-                        ("probability_path", charts.probability_path(trace)),
-                        ("prior_posterior", charts.prior_posterior(trace, scen))]:
+    for name, chart in [("waterfall", charts.waterfall(ledger)),
+                        ("probability_path", charts.probability_path(ledger)),
+                        ("prior_posterior", charts.prior_posterior(ledger, scen))]:
         shown += _svg_check(charts.to_svg(chart), name)
     # the names are drawn as text, dotted and bracketed ones included
     assert "a.b[0]" in shown or "alert(1)" in shown

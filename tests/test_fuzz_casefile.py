@@ -211,14 +211,14 @@ def test_loaded_but_odd_files_compute():
     obj = _set(["case", "hypotheses", 0, "prior"], 0.9)
     case = casefile.loads(json.dumps(obj))
     check_computes(case, "prior sum 1.55")
-    assert any(f.code == "prior-sum" for f in case.update().findings)
+    assert any(f.code == "prior-sum" for f in case.update().flags)
     obj = _example_obj()
     for h in obj["case"]["hypotheses"]:
         h["prior"] = 0
     case = casefile.loads(json.dumps(obj))
-    trace = case.update()
-    assert not math.isnan(trace.posterior.sum())
-    assert any(f.code == "prior-sum" and f.severity == "error" for f in trace.findings)
+    ledger = case.update()
+    assert not math.isnan(ledger.posterior.sum())
+    assert any(f.code == "prior-sum" and f.severity == "error" for f in ledger.flags)
 
 
 def test_load_case_from_disk(tmp_path):
@@ -256,8 +256,8 @@ def test_large_case_files_load_compute_and_page(tmp_path, n_hyp, n_ev):
     loaded = bl.load_case(path)
     assert len(loaded.hypothesis_names) == n_hyp and len(loaded.evidence_names) == n_ev
     assert casefile.loads(casefile.dumps(loaded)).to_dict() == loaded.to_dict()
-    trace = loaded.update()
-    assert abs(trace.posterior.sum() - 1) < 1e-9
+    ledger = loaded.update()
+    assert abs(ledger.posterior.sum() - 1) < 1e-9
     _assert_views_page(loaded)
     html = bl.display.case_html(loaded)
     assert "more hypotheses" in html or "more items" in html  # paged, not 10,000 rows

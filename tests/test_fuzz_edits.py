@@ -63,7 +63,7 @@ def test_bad_probabilities_refused_everywhere(small_case, bad):
     small_case.on_change(lambda c, what: events.append(what))
     calls = {
         "set_prior": lambda: small_case.set_prior("H1", bad),
-        "set_prior rebalance": lambda: small_case.set_prior("H1", bad, rebalance=True),
+        "set_prior rescale": lambda: small_case.set_prior("H1", bad, rescale=True),
         "set_priors": lambda: small_case.set_priors({"H1": bad, "H2": 0.3, "Other": 0.2}),
         "set_likelihood cell": lambda: small_case.set_likelihood("E1", "H2", bad,
                                                                  state="present"),
@@ -101,9 +101,9 @@ def test_bad_names_refused(small_case, bad):
         assert outcome == "refused", f"{label} accepted {bad!r}"
 
 
-def test_unobserving_an_observed_only_item_keeps_the_file_loadable(small_case, tmp_path):
+def test_unobserving_an_likelihood_evidence_item_keeps_the_file_loadable(small_case, tmp_path):
     small_case.add_evidence("lab", likelihoods={"H1": 0.9, "H2": 0.2, "Other": 0.4},
-                            observed="positive", observed_only=True)
+                            observed="positive", likelihood_evidence=True)
     events: list[str] = []
     outcome = check_edit(small_case, lambda: small_case.observe("lab", None),
                          {"lab", "observed"}, "observe(lab, None)", events)
@@ -127,9 +127,9 @@ def test_failed_listener_free_edit_leaves_hostile_names_intact(small_case):
 def test_nan_never_reaches_the_posterior_through_tiny_numbers(small_case):
     small_case.set_prior("H1", 5e-324)
     small_case.set_likelihood("E1", "H1", 5e-324, state="present")
-    trace = small_case.update()
-    assert not math.isnan(trace.posterior.sum())
-    assert abs(trace.posterior.sum() - 1) < 1e-12
+    ledger = small_case.update()
+    assert not math.isnan(ledger.posterior.sum())
+    assert abs(ledger.posterior.sum() - 1) < 1e-12
 
 
 def test_constructor_refuses_bad_tables_clearly():

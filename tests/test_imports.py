@@ -27,7 +27,7 @@ def test_import_and_update_load_no_heavy_modules():
 def test_public_names_resolve():
     code = (
         "import beliefledger as bl\n"
-        "core = ['Case','Hypothesis','Evidence','Source','Trace','Finding','load_case',"
+        "core = ['Case','Hypothesis','Evidence','Source','Ledger','Flag','load_case',"
         "'save_case','update','likelihood_ratio','bayes_factor','decibans','example_case']\n"
         "print(all(callable(getattr(bl, n)) for n in core))\n"
     )

@@ -41,7 +41,7 @@ def test_deciban_bits_nats():
 
 @pytest.mark.parametrize("lr, label", [
     (1, "supports neither proposition"),
-    (1.5, "no meaningful support (below 2)"),
+    (1.5, "no meaningful support"),
     (2, "weak support for the proposition"),
     (9.99, "weak support for the proposition"),
     (10, "moderate support for the proposition"),
@@ -133,22 +133,22 @@ def test_rule_of_thumb_covers_only_its_table():
 
 
 def test_bayes_factor_is_posterior_odds_over_prior_odds(small_case):
-    trace = small_case.update()
-    for h in trace.hypotheses:
-        post, pri = trace.posterior[h], trace.priors[h]
+    ledger = small_case.update()
+    for h in ledger.hypotheses:
+        post, pri = ledger.posterior[h], ledger.priors[h]
         expected = (post / (1 - post)) / (pri / (1 - pri))
-        assert m.bayes_factor(trace, h) == pytest.approx(expected, rel=1e-10)
+        assert m.bayes_factor(ledger, h) == pytest.approx(expected, rel=1e-10)
     # pairwise: ratio of the products of the likelihoods
     # E1 present: H1 0.9, H2 0.2; E2 low: H1 0.7, H2 0.4 -> (0.63) / (0.08)
-    assert m.bayes_factor(trace, "H1", "H2") == pytest.approx(0.63 / 0.08)
+    assert m.bayes_factor(ledger, "H1", "H2") == pytest.approx(0.63 / 0.08)
 
 
 def test_step_weights_add_up_to_total_change(demo_case):
-    trace = demo_case.update()
-    w = bl.step_weights(trace)
-    assert list(w.index) == trace.evidence_steps
-    lo = [m.log_odds(trace.priors[trace.map_hypothesis]),
-          m.log_odds(trace.posterior[trace.map_hypothesis])]
+    ledger = demo_case.update()
+    w = bl.step_weights(ledger)
+    assert list(w.index) == ledger.evidence_steps
+    lo = [m.log_odds(ledger.priors[ledger.map_hypothesis]),
+          m.log_odds(ledger.posterior[ledger.map_hypothesis])]
     assert w["nats"].sum() == pytest.approx(lo[1] - lo[0], rel=1e-9)
     assert set(w["direction"]) <= {"for", "against", "neutral"}
     np.testing.assert_allclose(w["decibans"], 10 * np.log10(w["bayes_factor"]), rtol=1e-9)

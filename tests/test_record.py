@@ -156,7 +156,7 @@ def test_cell_digest_ignores_volatile_metadata_only():
 def test_record_keeps_cells_and_adds_every_section(record):
     sections = [c["metadata"]["beliefledger"]["section"] for c in record["cells"]
                 if canonical.cell_role(c)]
-    for name in ("front-matter", "cautions", "assumption-register", "findings", "trace",
+    for name in ("front-matter", "cautions", "assumption-register", "flags", "ledger",
                  "charts", "environment", "manifest"):
         assert name in sections
     assert canonical.cell_role(record["cells"][-1]) == canonical.MANIFEST_ROLE
@@ -210,7 +210,7 @@ def no_charts(monkeypatch):
     """Skip chart drawing where a test is about something else (it costs seconds)."""
     from beliefledger.record import sections
 
-    monkeypatch.setattr(sections, "chart_svgs", lambda trace, case: ([], "skipped in a test"))
+    monkeypatch.setattr(sections, "chart_svgs", lambda ledger, case: ([], "skipped in a test"))
 
 
 def test_last_display_of_each_case_wins(no_charts):

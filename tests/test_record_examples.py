@@ -36,7 +36,7 @@ def test_case_file_matches_its_builder(name):
 @pytest.mark.parametrize("name", sorted(BUILDER.CASES))
 def test_every_number_is_sourced_and_something_is_pending(name):
     case = bl.load_case(EXAMPLES / name)
-    codes = {f.code for f in case.update().findings}
+    codes = {f.code for f in case.update().flags}
     assert "unsourced" not in codes
     assert {"prior-sum", "column-sum"}.isdisjoint(codes)
     assert any(not ev.is_observed for ev in case.evidence.values())

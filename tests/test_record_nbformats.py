@@ -51,7 +51,7 @@ def saved_by_jupyter(minor: int, *, ids: bool) -> dict:
         {"cell_type": "raw", "metadata": {"format": "text/restructuredtext"},
          "source": ["raw text ", "kept as is"]},
         {"cell_type": "code", "execution_count": None, "metadata": {}, "outputs": [],
-         "source": ["trace = case.update()\n", "print(trace.map_hypothesis)"]},
+         "source": ["ledger = case.update()\n", "print(ledger.map_hypothesis)"]},
     ]
     if ids:
         for i, c in enumerate(cells):

@@ -78,7 +78,7 @@ def test_sweep_prior_against_engine(demo_case):
     assert np.allclose(sw.sum(axis=1), 1)
     for v in values:
         c = demo_case.copy()
-        c.set_prior(h, v, rebalance=True)  # the others rescaled in proportion
+        c.set_prior(h, v, rescale=True)  # the others rescaled in proportion
         assert sw.loc[v].to_numpy() == pytest.approx(c.update().posterior.to_numpy(), abs=1e-12)
     assert snapshot(demo_case) == before
     default = bl.sweep_prior(demo_case, h, points=11)
@@ -107,7 +107,7 @@ def test_sweep_likelihood_against_engine(demo_case):
         new[i] = v
         c.set_likelihood(ev, h, list(new))
         assert sw.loc[v].to_numpy() == pytest.approx(c.update().posterior.to_numpy(), abs=1e-12)
-    # sweeping another state moves the observed entry through the renormalisation
+    # sweeping another state moves the observed entry through the renormalization
     other = "cold room first"
     sw2 = bl.sweep_likelihood(demo_case, ev, h, [0.5], state=other)
     c = demo_case.copy()
@@ -222,7 +222,7 @@ def test_tornado_ranges_and_ranking(demo_case):
         for end in ("low", "high"):
             c = demo_case.copy()
             if row["kind"] == "prior":
-                c.set_prior(row["hypothesis"], row[end], rebalance=True)
+                c.set_prior(row["hypothesis"], row[end], rescale=True)
             else:
                 c.set_likelihood(row["evidence"], row["hypothesis"], row[end],
                                  state=row["state"])
@@ -334,7 +334,7 @@ def test_section_round_trip_and_register(small_case, tmp_path):
     bl.set_likelihood_uncertainty(small_case, "E1", "H1", low=0.75, high=0.97)
     bl.set_likelihood_uncertainty(small_case, "E2", "H2", counts={"high": 6, "low": 4})
     sec = small_case.extras["uncertainty"]
-    assert validate_uncertainty(sec, small_case) == sec  # normalised form is a fixed point
+    assert validate_uncertainty(sec, small_case) == sec  # normalized form is a fixed point
     loaded = bl.load_case(small_case.save(tmp_path / "c.json"))
     assert loaded.extras["uncertainty"] == sec
     reg = bl.uncertainty_register(loaded)

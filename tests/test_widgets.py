@@ -1,5 +1,5 @@
 """Notebook views without a browser: set ``.value``, call ``.click()``, then assert
-on the case and the trace (the tests play the front end)."""
+on the case and the ledger (the tests play the front end)."""
 
 from __future__ import annotations
 
@@ -15,13 +15,13 @@ from beliefledger import engine
 from beliefledger.case import CASE_MIMETYPE
 from beliefledger.casefile import envelope
 from beliefledger.widgets import EvidenceEditor, HypothesisEditor, ScenarioPicker, Workbench
-from beliefledger.widgets._base import TraceFeed
+from beliefledger.widgets._base import LedgerFeed
 from beliefledger.widgets.evidence import NOT_OBSERVED
-from beliefledger.widgets.scenarios import ChartPanel, FindingsPanel, TraceTable
+from beliefledger.widgets.scenarios import ChartPanel, FlagsPanel, LedgerTable
 
 
 class EngineCounter:
-    """Counts full engine runs (with findings) made while the counter is installed."""
+    """Counts full engine runs (with flags) made while the counter is installed."""
 
     def __init__(self, monkeypatch):
         self.calls = 0
@@ -60,17 +60,17 @@ def test_scenario_change_recomputes_once_and_matches_the_engine(wb, demo_case, m
     before = wb.recomputes
     paints = wb.charts.paints
     wb.scenarios.dropdown.value = "uniform"
-    # a scenario switch changes no number: the feed reuses the scenario traces it
-    # already holds (no engine run) and recomputes the findings once
+    # a scenario switch changes no number: the feed reuses the scenario ledgers it
+    # already holds (no engine run) and recomputes the flags once
     assert counter.calls == 0
     assert wb.recomputes == before + 1
     assert wb.charts.paints == paints + 1
     assert demo_case.active_scenario == "uniform"
     ref = engine.update(demo_case, scenario="uniform")
-    pd.testing.assert_series_equal(wb.trace.posterior, ref.posterior)
-    assert wb.trace.findings == ref.findings
-    pd.testing.assert_frame_equal(wb.trace.steps, ref.steps)
-    assert wb.trace.scenario == "uniform"
+    pd.testing.assert_series_equal(wb.ledger.posterior, ref.posterior)
+    assert wb.ledger.flags == ref.flags
+    pd.testing.assert_frame_equal(wb.ledger.steps, ref.steps)
+    assert wb.ledger.scenario == "uniform"
     assert f">{ref.map_hypothesis}<" in wb.scenarios.summary.value
     assert "| scenario uniform" in wb.charts.waterfall.value
     assert wb.status.kind == "ok" and "uniform" in wb.status.message
@@ -78,13 +78,13 @@ def test_scenario_change_recomputes_once_and_matches_the_engine(wb, demo_case, m
 
 def test_scenario_switch_after_an_edit_uses_fresh_numbers(wb, demo_case):
     wb.scenarios.dropdown.value = "uniform"
-    wb.hypotheses.rebalance.value = True
+    wb.hypotheses.rescale.value = True
     wb.hypotheses.row_for("other cause").prior.value = 0.3  # edits the base priors
     wb.scenarios.dropdown.value = "base"
     ref = engine.update(demo_case)
-    pd.testing.assert_series_equal(wb.trace.posterior, ref.posterior)
-    assert wb.trace.findings == ref.findings
-    assert wb.feed.scenario_traces["uniform"].posterior.equals(
+    pd.testing.assert_series_equal(wb.ledger.posterior, ref.posterior)
+    assert wb.ledger.flags == ref.flags
+    assert wb.feed.scenario_ledgers["uniform"].posterior.equals(
         engine.update(demo_case, scenario="uniform").posterior)
 
 
@@ -93,13 +93,13 @@ def test_observed_state_change_recomputes_once(wb, demo_case, monkeypatch):
     wb.evidence.select("suction pressure trend")
     assert counter.calls == 0  # choosing an item to edit is no edit
     assert wb.evidence.observed.value == NOT_OBSERVED
-    steps = len(wb.trace.steps)
+    steps = len(wb.ledger.steps)
     wb.evidence.observed.value = "step drop"
     assert counter.calls == 1
     assert demo_case.evidence["suction pressure trend"].observed == "step drop"
-    assert len(wb.trace.steps) == steps + 1
-    assert wb.trace.evidence_steps[-1] == "suction pressure trend"
-    pd.testing.assert_series_equal(wb.trace.posterior, engine.update(demo_case).posterior)
+    assert len(wb.ledger.steps) == steps + 1
+    assert wb.ledger.evidence_steps[-1] == "suction pressure trend"
+    pd.testing.assert_series_equal(wb.ledger.posterior, engine.update(demo_case).posterior)
     wb.evidence.observed.value = NOT_OBSERVED
     assert counter.calls == 2
     assert demo_case.evidence["suction pressure trend"].observed is None
@@ -109,13 +109,13 @@ def test_edits_made_in_code_refresh_the_workbench(wb, demo_case):
     before = wb.recomputes
     demo_case.observe("suction pressure trend", "slow decline")
     assert wb.recomputes == before + 1
-    assert wb.trace.evidence_steps[-1] == "suction pressure trend"
+    assert wb.ledger.evidence_steps[-1] == "suction pressure trend"
     wb.evidence.select("suction pressure trend")
     assert wb.evidence.observed.value == "slow decline"
 
 
 def test_robustness_line_agrees_with_a_loop_over_scenarios(wb, demo_case):
-    ref = wb.trace.map_hypothesis
+    ref = wb.ledger.map_hypothesis
     maps = {n: engine.update(demo_case, scenario=n).map_hypothesis
             for n in demo_case.scenario_names}
     same = sum(m == ref for m in maps.values())
@@ -130,7 +130,7 @@ def test_robustness_line_names_a_scenario_that_changes_the_map():
                                                            "Other": [0.5, 0.5]}, observed="s")
     case.add_scenario("B favoured", {"A": 0.2, "B": 0.7, "Other": 0.1}, source="invented")
     picker = ScenarioPicker(case)
-    assert picker.trace.map_hypothesis == "A"
+    assert picker.ledger.map_hypothesis == "A"
     assert picker.feed.robustness_line() == (
         "MAP 'A' unchanged under 1 of 2 prior scenarios; 'B favoured' gives 'B'")
     # the same MAPs as the sensitivity module's own scenario comparison
@@ -160,14 +160,14 @@ def test_reprs_are_deterministic_and_informative(demo_case):
     assert repr(a) == repr(b)
     assert repr(a) == ("Workbench('Ammonia odour at the Eastgate cold store': 5 hypotheses, "
                        "5 of 6 evidence items applied; scenario 'base'; MAP "
-                       f"'compressor seal leak' at {a.trace.posterior['compressor seal leak']:.4f};"
-                       f" {sum(f.severity == 'error' for f in a.trace.findings)} errors, "
-                       f"{sum(f.severity == 'warning' for f in a.trace.findings)} warnings)")
+                       f"'compressor seal leak' at {a.ledger.posterior['compressor seal leak']:.4f};"
+                       f" {sum(f.severity == 'error' for f in a.ledger.flags)} errors, "
+                       f"{sum(f.severity == 'warning' for f in a.ledger.flags)} warnings)")
     assert repr(a.hypotheses).startswith("HypothesisEditor('Ammonia odour at the Eastgate cold "
                                          "store': 5 hypotheses, priors sum to 1; page 1 of 1")
     assert repr(a.evidence).endswith("editing 'detector alarm order', observed "
                                      "'machine room first')")
-    assert "0x" not in repr(a) + repr(a.scenarios) + repr(a.charts) + repr(a.trace_table)
+    assert "0x" not in repr(a) + repr(a.scenarios) + repr(a.charts) + repr(a.ledger_table)
 
 
 def test_static_html_escapes_user_text():
@@ -185,10 +185,10 @@ def test_static_html_escapes_user_text():
 
 
 def test_a_view_that_fails_to_refresh_shows_the_error(wb, demo_case, monkeypatch):
-    def broken(trace):
+    def broken(ledger):
         raise RuntimeError("boom")
 
-    monkeypatch.setattr(wb.trace_table, "_render", broken)
+    monkeypatch.setattr(wb.ledger_table, "_render", broken)
     wb.scenarios.dropdown.value = "uniform"
     assert demo_case.active_scenario == "uniform"
     assert wb.feed.last_error == "RuntimeError: boom"
@@ -224,7 +224,7 @@ def test_refused_prior_shows_the_error_and_leaves_the_case_unchanged(demo_case):
     assert row.prior.value == pytest.approx(0.10)  # the control shows the case again
 
 
-def test_prior_edit_sum_banner_and_explicit_normalise(demo_case):
+def test_prior_edit_sum_banner_and_explicit_normalize(demo_case):
     ed = HypothesisEditor(demo_case)
     row = ed.row_for("maintenance venting")
     row.prior.value = 0.0
@@ -240,9 +240,9 @@ def test_prior_edit_sum_banner_and_explicit_normalise(demo_case):
     assert "bl-sum-ok" in ed.sum_label.value
 
 
-def test_prior_edit_with_rebalance_keeps_the_sum(demo_case):
+def test_prior_edit_with_rescale_keeps_the_sum(demo_case):
     ed = HypothesisEditor(demo_case)
-    ed.rebalance.value = True
+    ed.rescale.value = True
     ed.row_for("relief valve lifted").prior.value = 0.4
     assert demo_case.base_priors["relief valve lifted"] == pytest.approx(0.4)
     assert demo_case.base_priors.sum() == pytest.approx(1.0)
@@ -274,7 +274,7 @@ def test_unsourced_prior_gets_a_banner(demo_case):
     row = ed.row_for("other cause")
     assert "no source" not in row.banner.value
     row.where.value = ""
-    assert any(f.code == "unsourced" for f in ed.trace.findings)
+    assert any(f.code == "unsourced" for f in ed.ledger.flags)
     assert "prior has no source" in row.banner.value
     assert "prior has no source" not in ed.row_for("relief valve lifted").banner.value
 
@@ -340,8 +340,8 @@ def test_large_case_is_paged(rng):
     assert wb.hypotheses.rows[8].box.layout.display == "none"
     wb.evidence.select("item 499")
     wb.evidence.observed.value = "b"
-    assert wb.trace.evidence_steps[-1] == "item 499"
-    assert wb.trace_table.page_count == int(np.ceil(len(wb.trace.steps) / 20))
+    assert wb.ledger.evidence_steps[-1] == "item 499"
+    assert wb.ledger_table.page_count == int(np.ceil(len(wb.ledger.steps) / 20))
 
 
 # --------------------------------------------------------------------------- evidence editor
@@ -356,7 +356,7 @@ def test_likelihood_cell_edit_flags_the_column_sum(demo_case):
         "present", "relief valve lifted"] == 0.25
     assert "not 1" in ed.sums["relief valve lifted"].value
     assert "not 1" not in ed.sums["compressor seal leak"].value
-    assert any(f.code == "column-sum" for f in ed.trace.findings)
+    assert any(f.code == "column-sum" for f in ed.ledger.flags)
     ed.cells[("absent", "relief valve lifted")].value = 0.75
     assert "not 1" not in ed.sums["relief valve lifted"].value
     before = _snapshot(demo_case)
@@ -414,9 +414,9 @@ def test_standalone_views_have_their_own_status_and_feed(demo_case):
     for cls in (HypothesisEditor, EvidenceEditor, ScenarioPicker):
         view = cls(demo_case)
         assert view.status in view.children
-        assert isinstance(view.feed, TraceFeed)
+        assert isinstance(view.feed, LedgerFeed)
         view.close()
-    for cls in (FindingsPanel, TraceTable, ChartPanel):
+    for cls in (FlagsPanel, LedgerTable, ChartPanel):
         view = cls(demo_case)
         assert view._repr_html_()
         view.close()
@@ -427,7 +427,7 @@ def test_standalone_views_have_their_own_status_and_feed(demo_case):
 def test_chart_panel_focus_and_reference_charts(wb, demo_case):
     wb.charts.focus.value = "relief valve lifted"
     assert "Weight of evidence for &#x27;relief valve lifted&#x27;" in wb.charts.waterfall.value
-    data = wb.charts.chart_data(wb.trace)
+    data = wb.charts.chart_data(wb.ledger)
     assert data["focus"] == "relief valve lifted"
     charts = wb.altair_charts()
     assert set(charts) == {"waterfall", "path", "prior_posterior"}
@@ -467,96 +467,13 @@ def test_workbench_template_executes_and_emits_the_case(tmp_path):
                 assert "<script" not in value
 
 
-# --------------------------------------------------------------------------- live charts
-
-
-SVG_NS = "{http://www.w3.org/2000/svg}"
-
-
-def _parse_svg(text: str):
-    import xml.etree.ElementTree as ET
-
-    root = ET.fromstring(text)  # well-formed XML, or this raises
-    assert root.tag == f"{SVG_NS}svg"
-    return root
-
-
-def _by_class(root, tag: str, cls: str) -> list:
-    return [e for e in root.iter(f"{SVG_NS}{tag}") if cls in e.get("class", "").split()]
-
-
-def test_live_waterfall_draws_one_bar_per_row_in_the_palette(demo_case):
-    from beliefledger import charts
-    from beliefledger.widgets import livecharts
-
-    trace = demo_case.update()
-    data = charts.waterfall_data(trace, "relief valve lifted")
-    root = _parse_svg(livecharts.waterfall_svg(data, focus="relief valve lifted"))
-    bars = _by_class(root, "rect", "bl-bar")
-    assert len(bars) == len(data)
-    colour = {"for": charts.SUPPORT_COLOUR, "against": charts.AGAINST_COLOUR}
-    for bar, kind in zip(bars, data["kind"], strict=True):
-        if kind in colour:
-            assert bar.get("fill") == colour[kind]
-    titles = [b.find(f"{SVG_NS}title").text for b in bars]
-    assert titles[1].startswith(f"{trace.evidence_steps[0]}: {data['decibans'].iloc[1]:+.2f} dB")
-
-
-def test_live_charts_escape_user_text_and_mark_eliminations():
-    from beliefledger import charts
-    from beliefledger.widgets import livecharts
-
-    nasty = 'A <b>&"x"'
-    case = bl.Case("esc", hypotheses={nasty: 0.5, "B": 0.3, "Other": 0.2})
-    case.add_evidence("E1 <i>", states=["x", "y"],
-                      likelihoods={nasty: [1.0, 0.0], "B": [0.5, 0.5], "Other": [0.5, 0.5]},
-                      observed="y")
-    trace = case.update()
-    path = _parse_svg(livecharts.path_svg(charts.probability_path_data(trace)))
-    groups = _by_class(path, "g", "bl-path")
-    assert [g.get("data-hypothesis") for g in groups] == [nasty, "B", "Other"]
-    assert len(_by_class(path, "path", "bl-eliminated")) == 1
-    wf = _parse_svg(livecharts.waterfall_svg(charts.waterfall_data(trace, nasty), focus=nasty))
-    assert any(t.text == "E1 <i>" for t in wf.iter(f"{SVG_NS}text"))
-    pp = _parse_svg(livecharts.prior_posterior_svg(
-        charts.prior_posterior_data(trace), map_hypothesis=trace.map_hypothesis))
-    assert len(_by_class(pp, "rect", "bl-posterior")) == 3
-    bold = [t.text for t in pp.iter(f"{SVG_NS}text") if t.get("font-weight") == "bold"]
-    assert "B" in bold
-
-
-def test_live_charts_stay_well_formed_with_control_characters():
-    from beliefledger import charts
-    from beliefledger.widgets import livecharts
-
-    odd = "A\x00\x1b[31m\u202e"
-    case = bl.Case("ctl\x07", hypotheses={odd: 0.5, "Other": 0.5})
-    case.add_evidence("E\x1b", states=["s", "t"],
-                      likelihoods={odd: [0.6, 0.4], "Other": [0.5, 0.5]}, observed="s")
-    trace = case.update()
-    for svg in (livecharts.waterfall_svg(charts.waterfall_data(trace), focus=odd),
-                livecharts.path_svg(charts.probability_path_data(trace)),
-                livecharts.prior_posterior_svg(charts.prior_posterior_data(trace),
-                                               map_hypothesis=trace.map_hypothesis)):
-        root = _parse_svg(svg)  # XML forbids raw control characters: they are shown as \uXXXX
-        assert "\\u001b" in "".join(root.itertext()) + svg
-
-
-def test_nice_ticks():
-    from beliefledger.widgets.livecharts import nice_ticks
-
-    assert nice_ticks(-5.7, 18.2) == [-5.0, 0.0, 5.0, 10.0, 15.0]
-    assert nice_ticks(0, 1, 5) == [0.0, 0.2, 0.4, 0.6, 0.8, 1.0]
-    assert nice_ticks(3, 3) == [3]
-
-
 ACTIONS = {
     "prior": lambda wb: setattr(wb.hypotheses.row_for("other cause").prior, "value", 0.2),
     "rename": lambda wb: setattr(wb.hypotheses.row_for("other cause").name, "value", "else"),
     "source": lambda wb: setattr(wb.hypotheses.row_for("other cause").where, "value", "log"),
     "catch-all": lambda wb: setattr(wb.hypotheses.row_for("relief valve lifted").catch_all,
                                     "value", True),
-    "normalise": lambda wb: (wb.case.set_prior("other cause", 0.3),
+    "normalize": lambda wb: (wb.case.set_prior("other cause", 0.3),
                              wb.hypotheses.normalize_button.click()),
     "cell": lambda wb: setattr(wb.evidence.cells[("machine room first",
                                                   "other cause")], "value", 0.3),
@@ -571,13 +488,13 @@ ACTIONS = {
 def test_each_user_action_causes_exactly_one_recompute(wb, demo_case, action):
     edits = []
     demo_case.on_change(lambda case, what: edits.append(what))
-    setup = 1 if action == "normalise" else 0  # that action makes one edit in code first
+    setup = 1 if action == "normalize" else 0  # that action makes one edit in code first
     before = wb.recomputes
     ACTIONS[action](wb)
     assert wb.status.kind == "ok", wb.status.message
     assert len(edits) == 1 + setup
     assert wb.recomputes == before + 1 + setup
-    pd.testing.assert_series_equal(wb.trace.posterior, engine.update(demo_case).posterior)
+    pd.testing.assert_series_equal(wb.ledger.posterior, engine.update(demo_case).posterior)
 
 
 def test_rerunning_the_cell_replaces_the_workbench(demo_case, monkeypatch):
@@ -589,7 +506,7 @@ def test_rerunning_the_cell_replaces_the_workbench(demo_case, monkeypatch):
     second.evidence.observed.value = "steady"
     assert counter.calls == 1
     assert first.charts.paints == paints  # the replaced workbench no longer refreshes
-    assert second.trace.evidence_steps[-1] == "suction pressure trend"
+    assert second.ledger.evidence_steps[-1] == "suction pressure trend"
 
 
 def test_views_of_one_case_share_one_recompute(demo_case, monkeypatch):
@@ -600,7 +517,7 @@ def test_views_of_one_case_share_one_recompute(demo_case, monkeypatch):
     counter = EngineCounter(monkeypatch)
     editor.row_for("other cause").prior.value = 0.12
     assert counter.calls == 1
-    assert wb.trace is other.trace is editor.trace
+    assert wb.ledger is other.ledger is editor.ledger
     assert wb.hypotheses.row_for("other cause").prior.value == pytest.approx(0.12)
     assert editor.status.kind == "ok" and wb.status.kind == ""  # each view its own status
     for view in (wb, other, editor):

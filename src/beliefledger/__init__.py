@@ -22,8 +22,8 @@ _EXPORTS: dict[str, str] = {
     "JointGroup": "case",
     "CaseError": "errors", "CaseTypeError": "errors", "CaseFileError": "errors",
     # engine and diagnostics
-    "Trace": "engine", "update": "engine",
-    "Finding": "findings", "diagnose": "findings",
+    "Ledger": "engine", "update": "engine",
+    "Flag": "flags", "diagnose": "flags",
     # measures
     "odds": "measures", "probability_from_odds": "measures", "log_odds": "measures",
     "decibans": "measures", "bits": "measures", "nats": "measures",
@@ -50,13 +50,13 @@ _EXPORTS: dict[str, str] = {
     "set_loss_table": "value", "loss_table": "value", "decision_summary": "value",
     "decision_threshold": "value", "predictive": "value", "preposterior": "value",
     # batch scoring
-    "score_cases": "batch",
+    "score_rows": "batch",
     # notebook views (optional dependencies)
     "Workbench": "widgets", "HypothesisEditor": "widgets", "EvidenceEditor": "widgets",
     "ScenarioPicker": "widgets",
 }
 
-_SUBMODULES = {"charts", "widgets", "record", "engine", "case", "findings", "measures",
+_SUBMODULES = {"charts", "widgets", "record", "engine", "case", "flags", "measures",
                "casefile", "elicit", "sensitivity", "value", "batch", "display", "examples"}
 
 _INSTALL_HINT = {

@@ -1,4 +1,4 @@
-"""Log-space array helpers shared by the engine, findings, measures and batch code.
+"""Log-space array helpers shared by the engine, flags, measures and batch code.
 
 Pure numpy: no pandas, no case objects.
 """
@@ -32,7 +32,7 @@ def log_normalizer(logw: np.ndarray, axis: int = -1) -> np.ndarray:
 
 
 def normalize_log(logw: np.ndarray, axis: int = -1) -> np.ndarray:
-    """Normalised probabilities from unnormalised log weights (rows of all -inf give NaN)."""
+    """Normalized probabilities from unnormalized log weights (rows of all -inf give NaN)."""
     z = log_normalizer(logw, axis=axis)
     with np.errstate(invalid="ignore"):
         return np.exp(logw - np.expand_dims(z, axis))
@@ -47,7 +47,7 @@ def posterior_from_logs(log_prior: np.ndarray, total_loglik: np.ndarray) -> np.n
 def log_odds_path(log_steps: np.ndarray, j: int) -> np.ndarray:
     """Natural-log odds of hypothesis ``j`` against all the others at each step.
 
-    ``log_steps`` holds normalised log probabilities (steps x hypotheses). The
+    ``log_steps`` holds normalized log probabilities (steps x hypotheses). The
     "rest" is the mixture of the other hypotheses weighted by their current
     probabilities, so the change between two steps is the log Bayes factor of
     that step's evidence for ``j`` against the rest.

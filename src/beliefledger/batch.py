@@ -1,6 +1,6 @@
 """Batch scoring: one audited evidence model applied to many cases at once.
 
-:func:`score_cases` takes a model :class:`~beliefledger.case.Case` (its
+:func:`score_rows` takes a model :class:`~beliefledger.case.Case` (its
 hypotheses, the priors of its active scenario and the likelihood table of
 each evidence item) and a table of observations, one row per case and one
 column per evidence item, and returns the posterior of every row.
@@ -51,7 +51,7 @@ if TYPE_CHECKING:
 
 RESULT_COLUMNS = ("map", "n_observed", "eliminated", "impossible", "stopped_at",
                   "log_evidence")
-"""Columns of a :func:`score_cases` result after the posterior columns."""
+"""Columns of a :func:`score_rows` result after the posterior columns."""
 
 UNKNOWN_COLUMN = "n_unknown"
 """Extra result column with ``on_unknown="skip"``: unknown labels skipped per row."""
@@ -79,11 +79,11 @@ class _Model:
 
 
 def compile_model(case: Case) -> _Model:
-    """Check ``case`` as a batch model and reduce it to arrays (see :func:`score_cases`)."""
+    """Check ``case`` as a batch model and reduce it to arrays (see :func:`score_rows`)."""
     from .case import Case
 
     if not isinstance(case, Case):
-        raise CaseTypeError(f"score_cases needs a beliefledger Case as the model, got "
+        raise CaseTypeError(f"score_rows needs a beliefledger Case as the model, got "
                             f"{type(case).__name__}")
     hyps = tuple(case.hypothesis_names)
     p = case.priors.to_numpy(dtype=float)
@@ -95,7 +95,7 @@ def compile_model(case: Case) -> _Model:
     items, states, tables = [], [], []
     for ev in case.evidence.values():
         t = ev.table
-        if not ev.observed_only:
+        if not ev.likelihood_evidence:
             sums = t.sum(axis=0)
             bad = np.flatnonzero(np.abs(sums - 1) > SUM_TOL)
             if bad.size:
@@ -130,7 +130,7 @@ def _check_count(name: str, value: Any, kind: str, fix: str) -> None:
         raise CaseError(f"{name} is {value}; {fix}")
 
 
-def score_cases(case: Case, observations: Any, *, chunk_size: int | None = None,
+def score_rows(case: Case, observations: Any, *, chunk_size: int | None = None,
                 on_unknown: str = "raise", prefix: str = "", threads: int | None = None) -> Any:
     """Posterior of every case in a table of observations, under one model case.
 
@@ -140,7 +140,7 @@ def score_cases(case: Case, observations: Any, *, chunk_size: int | None = None,
         The model: its hypotheses, the priors of its active scenario and the
         likelihood table of each evidence item. The states the model case
         itself has observed are ignored; each row brings its own. The priors
-        must sum to 1 and each likelihood column to 1 (observed-only items
+        must sum to 1 and each likelihood column to 1 (likelihood evidence items
         excepted), else a :class:`~beliefledger.errors.CaseError` is raised.
     observations : pandas.DataFrame or dask.dataframe.DataFrame
         One row per case, one column per evidence item of the model (a
@@ -185,7 +185,7 @@ def score_cases(case: Case, observations: Any, *, chunk_size: int | None = None,
             The impossible item (categorical; missing when not stopped).
         ``log_evidence``
             ln P(the applied evidence) under the priors (the log marginal
-            likelihood; ``Trace.log_evidence``).
+            likelihood; ``Ledger.log_evidence``).
 
     Raises
     ------
@@ -204,7 +204,7 @@ def score_cases(case: Case, observations: Any, *, chunk_size: int | None = None,
     >>> _ = model.add_evidence("vibration", states=["high", "normal"],
     ...                        likelihoods={"bearing": [0.8, 0.2], "Other": [0.1, 0.9]})
     >>> rows = pd.DataFrame({"vibration": ["high", "normal", None]})
-    >>> bl.score_cases(model, rows).round(4)[["bearing", "Other", "map"]]
+    >>> bl.score_rows(model, rows).round(4)[["bearing", "Other", "map"]]
        bearing   Other      map
     0   0.7742  0.2258  bearing
     1   0.0870  0.9130    Other
@@ -282,7 +282,7 @@ def _refuse_dependent(case: Case, names: list[str]) -> None:
     for name in names:
         if name in links:
             raise CaseError(f"column '{name}' is evidence in a stated dependence ({links[name]}); "
-                            "score_cases handles independent evidence items only: drop the "
+                            "score_rows handles independent evidence items only: drop the "
                             "column, or score such cases one by one with case.update()")
 
 
@@ -292,7 +292,7 @@ def _output_names(model: _Model, prefix: str, on_unknown: str) -> tuple[str, ...
     clash = [c for c in post if c in extra]
     if clash:
         raise CaseError(f"hypothesis column {clash[0]!r} would collide with a result column "
-                        f"{list(extra)}; pass prefix='p_' (or another) to score_cases")
+                        f"{list(extra)}; pass prefix='p_' (or another) to score_rows")
     return post + extra
 
 
@@ -512,4 +512,4 @@ def _stop_early(model: _Model, series: list, codes: list[np.ndarray],
     return w, stop
 
 
-__all__ = ["score_cases", "compile_model", "RESULT_COLUMNS", "UNKNOWN_COLUMN"]
+__all__ = ["score_rows", "compile_model", "RESULT_COLUMNS", "UNKNOWN_COLUMN"]

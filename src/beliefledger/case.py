@@ -13,8 +13,8 @@ Sums are handled in two tiers. Whole tables given at once (``Case(...)``,
 sum to 1 and each likelihood column sums to 1 within ``SUM_TOL`` unless
 ``normalize=True`` (recorded as an assumption). Single-cell edits
 (``set_prior``, ``set_likelihood(..., state=...)``) may leave a sum off while
-the analyst is part-way through typing; the trace then carries a
-``prior-sum`` or ``column-sum`` finding of severity ``error`` until it is
+the analyst is part-way through typing; the ledger then carries a
+``prior-sum`` or ``column-sum`` flag of severity ``error`` until it is
 fixed. Loaded files follow the second rule so that nothing saved is lost.
 """
 
@@ -124,7 +124,7 @@ class Source:
     """Where a number came from, who set it, when, and why.
 
     ``Source()`` with an empty ``where`` is the "unsourced" default: allowed,
-    but reported by the ``unsourced`` finding and listed in the record.
+    but reported by the ``unsourced`` flag and listed in the record.
     """
 
     where: str = ""
@@ -224,14 +224,14 @@ class Evidence:
     """One piece of evidence: its states and P(state | hypothesis).
 
     ``likelihoods`` is a DataFrame with the states as rows and the case's
-    hypotheses as columns. With ``observed_only=True`` the table has a single
+    hypotheses as columns. With ``likelihood_evidence=True`` the table has a single
     row, the observed state, and its entries need not sum to 1 (a likelihood
     vector). Instances are immutable; the case replaces them on edit.
     """
 
     __slots__ = (
         "name", "states", "hypotheses", "_table", "observed", "description",
-        "source", "shared_source", "observed_only", "entry_sources", "given",
+        "source", "shared_source", "likelihood_evidence", "entry_sources", "given",
         "parent_states", "_conditional",
     )
 
@@ -245,7 +245,7 @@ class Evidence:
         description: str = "",
         source: Source = UNSOURCED,
         shared_source: str | None = None,
-        observed_only: bool = False,
+        likelihood_evidence: bool = False,
         entry_sources: Mapping[tuple[str, str], Source] | None = None,
         given: str | None = None,
         parent_states: tuple[str, ...] = (),
@@ -261,7 +261,7 @@ class Evidence:
         self.description = description
         self.source = source
         self.shared_source = shared_source
-        self.observed_only = observed_only
+        self.likelihood_evidence = likelihood_evidence
         self.entry_sources = dict(entry_sources or {})
         # A conditional item: P(state | parent state, H) as a read-only array
         # (parent states x states x hypotheses); ``table`` is then the item's
@@ -350,7 +350,7 @@ class Evidence:
                 h: [float(v) for v in self._table[:, j]] for j, h in enumerate(self.hypotheses)
             },
             "observed": self.observed,
-            "observed_only": self.observed_only,
+            "likelihood_evidence": self.likelihood_evidence,
             "shared_source": self.shared_source,
             "source": self.source.to_dict(),
             "entry_sources": [
@@ -369,7 +369,7 @@ class Evidence:
 
     def __repr__(self) -> str:
         obs = f"observed {self.observed!r}" if self.observed is not None else "not yet observed"
-        kind = "likelihood vector" if self.observed_only else f"{len(self.states)} states"
+        kind = "likelihood evidence" if self.likelihood_evidence else f"{len(self.states)} states"
         given = f", given {self.given!r}" if self.given is not None else ""
         return f"Evidence({self.name!r}: {kind}{given}, {obs})"
 
@@ -490,7 +490,7 @@ class Case:
         Rescale priors that do not sum to 1; recorded as an assumption.
     exhaustive : bool
         Declare the hypothesis set provably exhaustive (silences the
-        ``no-catch-all`` finding; say why in ``notes``).
+        ``no-catch-all`` flag; say why in ``notes``).
     source : Source, str or dict, optional
         Default Source for priors given without one.
     safety_related : bool
@@ -607,7 +607,7 @@ class Case:
 
     # ------------------------------------------------------------------ compute
     def update(self):
-        """Run the sequential Bayesian update; returns a :class:`~beliefledger.engine.Trace`."""
+        """Run the sequential Bayesian update; returns a :class:`~beliefledger.engine.Ledger`."""
         from .engine import update
 
         return update(self)
@@ -799,7 +799,7 @@ class Case:
             if ev.given is None:
                 continue
             parent = self._evidence.get(ev.given)
-            if (parent is None or parent.observed_only or ev.conditional is None
+            if (parent is None or parent.likelihood_evidence or ev.conditional is None
                     or parent.states != ev.parent_states
                     or ev.conditional.shape[2] != parent.table.shape[1]):
                 continue  # _validate_dependence reports it
@@ -832,8 +832,8 @@ class Case:
                                     "the groups into one with a joint table)")
                 group_of[m] = g.name
                 ev = self._evidence[m]
-                if ev.observed_only:
-                    raise CaseError(f"evidence '{m}' in joint group '{g.name}' is observed-only; "
+                if ev.likelihood_evidence:
+                    raise CaseError(f"evidence '{m}' in joint group '{g.name}' is likelihood evidence; "
                                     "a joint table needs each member's full table over its states")
         for ev in self._evidence.values():
             if ev.given is None:
@@ -847,8 +847,8 @@ class Case:
                 raise CaseError(f"{what} is stated given '{parent.name}', which comes after it "
                                 "(or is itself); a likelihood may only be stated given an "
                                 "earlier item")
-            if parent.observed_only:
-                raise CaseError(f"{what} is stated given '{parent.name}', which is observed-only; "
+            if parent.likelihood_evidence:
+                raise CaseError(f"{what} is stated given '{parent.name}', which is likelihood evidence; "
                                 "the parent needs a full table over its states")
             if parent.states != ev.parent_states:
                 raise CaseError(f"{what} has tables for states {list(ev.parent_states)} of "
@@ -952,29 +952,29 @@ class Case:
 
     # ------------------------------------------------------------------ priors
     def set_prior(self, hypothesis: str, prior: float, *, source: Any = None,
-                  rebalance: bool = False) -> None:
+                  rescale: bool = False) -> None:
         """Set one hypothesis' base prior.
 
-        With ``rebalance=True`` the other priors are rescaled in proportion so
+        With ``rescale=True`` the other priors are rescaled in proportion so
         the sum stays 1 (recorded as an assumption); otherwise the sum may be
-        left off 1, which the trace reports as a ``prior-sum`` error until fixed.
+        left off 1, which the ledger reports as a ``prior-sum`` error until fixed.
         """
         h = self._get_hyp(hypothesis)
         p = _check_probability(f"prior of hypothesis '{h.name}'", prior)
         src = h.source if source is None else Source.coerce(source, what=f"source of prior '{h.name}'")
         with self._edit("prior"):
-            if rebalance:
+            if rescale:
                 rest = sum(x.prior for n, x in self._hyps.items() if n != h.name)
                 if rest <= 0 and p < 1:
                     raise CaseError(
-                        f"cannot rebalance: the other hypotheses' priors sum to 0, so they "
+                        f"cannot rescale: the other hypotheses' priors sum to 0, so they "
                         f"cannot absorb the change of '{h.name}' to {_fmt(p)}; set them explicitly"
                     )
                 scale = (1 - p) / rest if rest > 0 else 0.0
                 self._hyps = {n: (replace(x, prior=p, source=src) if n == h.name
                                   else replace(x, prior=x.prior * scale))
                               for n, x in self._hyps.items()}
-                self._record("rebalance-priors", BASE_SCENARIO,
+                self._record("rescale-priors", BASE_SCENARIO,
                              f"prior of '{h.name}' set to {_fmt(p)}; the others rescaled by "
                              f"{_fmt(scale)} to keep the sum at 1")
             else:
@@ -1004,7 +1004,7 @@ class Case:
         """Rescale the base priors to sum to 1 (an explicit choice, recorded)."""
         total = float(self.base_priors.sum())
         if total <= 0:
-            raise CaseError("priors sum to 0; set at least one positive prior before normalising")
+            raise CaseError("priors sum to 0; set at least one positive prior before normalizing")
         with self._edit("priors"):
             if abs(total - 1) > 0:
                 self._hyps = _rescaled(self._hyps, total)
@@ -1034,7 +1034,7 @@ class Case:
 
         ``likelihoods`` maps every existing evidence item to this hypothesis'
         column (a list over the item's states, a dict state -> p, or a number
-        for an observed-only item; for a conditional item, a dict parent state
+        for an likelihood evidence item; for a conditional item, a dict parent state
         -> column). ``scenario_priors`` gives its prior in each named scenario
         (default: the same ``prior``). ``extra_values`` gives the new
         hypothesis' entries of extras sections keyed by hypothesis (e.g.
@@ -1102,7 +1102,7 @@ class Case:
             self._hyps = {n: replace(h, prior=h.prior * scale) for n, h in self._hyps.items()}
             self._hyps[nm] = hyp
             if self._hyps and scale != 1:
-                self._record("rebalance-priors", BASE_SCENARIO,
+                self._record("rescale-priors", BASE_SCENARIO,
                              f"hypothesis '{nm}' added with prior {_fmt(p)}; the others "
                              f"rescaled by {_fmt(scale)}")
             for sname, sc in self._scenarios.items():
@@ -1110,7 +1110,7 @@ class Case:
                 pri = {k: v * (1 - q) for k, v in sc.priors.items()}
                 pri[nm] = q
                 self._scenarios[sname] = replace(sc, priors=pri)
-                self._record("rebalance-priors", sname,
+                self._record("rescale-priors", sname,
                              f"hypothesis '{nm}' added with prior {_fmt(q)}; the others rescaled")
             names = tuple(self._hyps)
             for ename, ev in self._evidence.items():
@@ -1148,7 +1148,7 @@ class Case:
             del self._hyps[h.name]
             total = sum(x.prior for x in self._hyps.values())
             self._hyps = _rescaled(self._hyps, total)
-            self._record("rebalance-priors", BASE_SCENARIO,
+            self._record("rescale-priors", BASE_SCENARIO,
                          f"hypothesis '{h.name}' (prior {_fmt(h.prior)}) removed; the others "
                          f"rescaled by {_fmt(1 / rest) if rest > 0 else 'n/a'}")
             for sname, sc in self._scenarios.items():
@@ -1201,14 +1201,14 @@ class Case:
     # ------------------------------------------------------------------ evidence
     def add_evidence(self, name: str, *, likelihoods: Any, states: Iterable[str] | None = None,
                      observed: str | None = None, source: Any = None, description: str = "",
-                     shared_source: str | None = None, observed_only: bool = False,
+                     shared_source: str | None = None, likelihood_evidence: bool = False,
                      normalize: bool = False) -> Evidence:
         """Add an evidence item with its likelihood table P(state | hypothesis).
 
         ``likelihoods`` may be a dict hypothesis -> list over ``states``, a dict
         hypothesis -> {state: p}, a DataFrame (states as rows, hypotheses as
         columns) or the path of a CSV file in that layout (first column: the
-        states). With ``observed_only=True``, give P(observed state | H) per
+        states). With ``likelihood_evidence=True``, give P(observed state | H) per
         hypothesis (dict hypothesis -> number); ``observed`` names the state and
         the numbers need not sum to 1.
         """
@@ -1217,33 +1217,33 @@ class Case:
                             "share the step names, so choose another name")
         ev = self._build_evidence(name, likelihoods=likelihoods, states=states, observed=observed,
                                   source=source, description=description,
-                                  shared_source=shared_source, observed_only=observed_only,
+                                  shared_source=shared_source, likelihood_evidence=likelihood_evidence,
                                   normalize=normalize)
         with self._edit("evidence"):
-            if normalize and not observed_only:
+            if normalize and not likelihood_evidence:
                 self._record("normalize-likelihoods", ev.name,
                              "likelihood columns rescaled to sum to 1 over the states")
             self._evidence[ev.name] = ev
         return ev
 
     def _build_evidence(self, name, *, likelihoods, states, observed, source, description,
-                        shared_source, observed_only, normalize,
+                        shared_source, likelihood_evidence, normalize,
                         replacing: bool = False) -> Evidence:
         nm = _check_name("evidence", name)
         if nm in self._evidence and not replacing:
             raise CaseError(f"evidence '{nm}' already exists; choose another name or edit it")
         hyps = tuple(self._hyps)
-        if observed_only:
+        if likelihood_evidence:
             if observed is None:
-                raise CaseError(f"evidence '{nm}' is observed_only, so name its observed state "
+                raise CaseError(f"evidence '{nm}' is likelihood_evidence, so name its observed state "
                                 "with observed='...'")
             obs = _check_name(f"observed state of '{nm}'", observed)
             if states is not None and list(states) not in ([obs], []):
-                raise CaseError(f"evidence '{nm}' is observed_only: give only the observed state")
+                raise CaseError(f"evidence '{nm}' is likelihood_evidence: give only the observed state")
             if isinstance(likelihoods, pd.Series):
                 likelihoods = likelihoods.to_dict()
             if not isinstance(likelihoods, Mapping):
-                raise CaseTypeError(f"likelihoods of observed-only evidence '{nm}' must map each "
+                raise CaseTypeError(f"likelihoods of likelihood evidence evidence '{nm}' must map each "
                                     "hypothesis to P(observed | hypothesis)")
             _check_keys(nm, likelihoods, hyps)
             row = []
@@ -1265,7 +1265,7 @@ class Case:
                     raise CaseError(
                         f"likelihoods of evidence '{nm}' for hypothesis '{h}' sum to "
                         f"{sums[j]:.4g} over its states (want 1 within {SUM_TOL:g}); fix the "
-                        "column, pass normalize=True, or declare the evidence with observed_only=True"
+                        "column, pass normalize=True, or declare the evidence with likelihood_evidence=True"
                     )
             if normalize:
                 table = table / sums
@@ -1280,7 +1280,7 @@ class Case:
         return Evidence(nm, st, hyps, table, observed=observed,
                         description=_check_text("description", description),
                         source=Source.coerce(source, what=f"source of evidence '{nm}'"),
-                        shared_source=tag, observed_only=bool(observed_only))
+                        shared_source=tag, likelihood_evidence=bool(likelihood_evidence))
 
     def remove_evidence(self, name: str) -> None:
         ev = self._get_ev(name)
@@ -1349,10 +1349,10 @@ class Case:
         """Set likelihoods of one hypothesis for an evidence item.
 
         With ``state`` given, ``value`` is the single entry P(state | hypothesis);
-        the column may then no longer sum to 1 (a ``column-sum`` error finding
+        the column may then no longer sum to 1 (a ``column-sum`` error flag
         until it is fixed). Without ``state``, ``value`` is the whole column (a
         list over the states or a dict state -> p) and must sum to 1 unless
-        ``normalize=True`` or the item is observed-only.
+        ``normalize=True`` or the item is likelihood evidence.
         """
         ev = self._get_ev(evidence)
         h = self._get_hyp(hypothesis)
@@ -1372,7 +1372,7 @@ class Case:
         else:
             col = _parse_column(ev, h.name, value)
             s = col.sum()
-            if not ev.observed_only and abs(s - 1) > SUM_TOL:
+            if not ev.likelihood_evidence and abs(s - 1) > SUM_TOL:
                 if not normalize or s <= 0:
                     raise CaseError(
                         f"likelihoods of evidence '{ev.name}' for hypothesis '{h.name}' sum to "
@@ -1384,7 +1384,7 @@ class Case:
                 for st in ev.states:
                     entry_sources[(st, h.name)] = src
         with self._edit("likelihood"):
-            if state is None and normalize and not ev.observed_only:
+            if state is None and normalize and not ev.likelihood_evidence:
                 self._record("normalize-likelihoods", ev.name,
                              f"column of '{h.name}' rescaled to sum to 1")
             self._evidence[ev.name] = ev._replace(table=table, entry_sources=entry_sources)
@@ -1394,14 +1394,14 @@ class Case:
         """Replace an item's whole likelihood table (same states; e.g. imported from CSV)."""
         ev = self._get_ev(evidence)
         _refuse_conditional_edit(ev)
-        if ev.observed_only:
+        if ev.likelihood_evidence:
             new = self._build_evidence(ev.name, replacing=True, likelihoods=likelihoods, states=None,
                                        observed=ev.observed, source=None, description="",
-                                       shared_source=None, observed_only=True, normalize=False)
+                                       shared_source=None, likelihood_evidence=True, normalize=False)
         else:
             new = self._build_evidence(ev.name, replacing=True, likelihoods=likelihoods, states=None,
                                        observed=None, source=None, description="",
-                                       shared_source=None, observed_only=False,
+                                       shared_source=None, likelihood_evidence=False,
                                        normalize=normalize)
         if new.states != ev.states:
             if set(new.states) == set(ev.states):
@@ -1439,7 +1439,7 @@ class Case:
             Name of the group (and of its update step); distinct from every
             evidence item's name.
         members : list of str
-            Existing evidence items with full tables (not observed-only).
+            Existing evidence items with full tables (not likelihood evidence).
         covariance : float or mapping hypothesis -> float, optional
             For two items of two states each: Cov(1[A = a1], 1[B = b1] | H),
             where a1 and b1 are each item's *first* state, so that
@@ -1579,9 +1579,9 @@ class Case:
 
     def _parse_conditional(self, nm: str, parent: Evidence, likelihoods: Any,
                            states: Iterable[str] | None) -> tuple[tuple[str, ...], np.ndarray]:
-        if parent.observed_only:
+        if parent.likelihood_evidence:
             raise CaseError(f"evidence '{nm}' cannot be stated given '{parent.name}': that item "
-                            "is observed-only, and a parent needs a full table over its states")
+                            "is likelihood evidence, and a parent needs a full table over its states")
         if not isinstance(likelihoods, Mapping):
             raise CaseTypeError(f"likelihoods of conditional evidence '{nm}' must map each state "
                                 f"of '{parent.name}' {list(parent.states)} to a table, got "
@@ -2128,7 +2128,7 @@ def _probability_table(columns: list[list[Any]], describe: Callable[[int, int], 
 
 def _parse_column(ev: Evidence, hyp: str, value: Any) -> np.ndarray:
     what = f"likelihoods of evidence '{ev.name}' for hypothesis '{hyp}'"
-    if ev.observed_only and not isinstance(value, list | tuple | Mapping | np.ndarray):
+    if ev.likelihood_evidence and not isinstance(value, list | tuple | Mapping | np.ndarray):
         return np.array([_check_probability(what, value)])
     if isinstance(value, pd.Series):
         value = value.to_dict()

@@ -42,7 +42,7 @@ MAX_FILE_BYTES = 512 * 1024 * 1024
 _CASE_KEYS = {"title", "question", "analyst", "notes", "exhaustive", "safety_related",
               "hypotheses", "evidence", "scenarios", "active_scenario", "assumptions", "extras",
               "groups"}
-_EVIDENCE_KEYS = {"name", "description", "states", "likelihoods", "observed", "observed_only",
+_EVIDENCE_KEYS = {"name", "description", "states", "likelihoods", "observed", "likelihood_evidence",
                   "shared_source", "source", "entry_sources", "given", "conditional_likelihoods"}
 _GROUP_KEYS = {"name", "members", "kind", "covariance", "joint", "source", "note"}
 _SCENARIO_KEYS = {"name", "priors", "source", "note"}
@@ -225,7 +225,7 @@ def case_from_dict(data: Any) -> Case:
     """Rebuild a case from :meth:`Case.to_dict` output, validating every field.
 
     Sums that are off 1 (a part-way edit that was saved) are accepted and
-    reported by the trace's findings, so that nothing saved is lost.
+    reported by the ledger's flags, so that nothing saved is lost.
     """
     d = _obj(data, "case")
     _keys(d, _CASE_KEYS, "case")
@@ -245,7 +245,7 @@ def case_from_dict(data: Any) -> Case:
         rows.append(row)
     exhaustive = _bool(d.get("exhaustive", False), "case 'exhaustive'")
     safety = _bool(d.get("safety_related", False), "case 'safety_related'")
-    # Build with priors as given; tolerate an off sum (recorded by findings, not by us).
+    # Build with priors as given; tolerate an off sum (recorded by flags, not by us).
     total = 0.0
     for i, r in enumerate(rows):
         _req(r, "prior", f"hypothesis #{i + 1}")
@@ -289,11 +289,11 @@ def case_from_dict(data: Any) -> Case:
             if not isinstance(observed, str) or observed not in st:
                 raise CaseFileError(f"observed state {observed!r:.60} of {what} is not among its "
                                     f"states {list(st)}")
-        observed_only = _bool(e.get("observed_only", False), f"observed_only of {what}")
-        # an observed-only item set back to "not yet observed" (observe(item, None)) keeps
+        likelihood_evidence = _bool(e.get("likelihood_evidence", False), f"likelihood_evidence of {what}")
+        # an likelihood evidence item set back to "not yet observed" (observe(item, None)) keeps
         # its one state; refusing it here would make a saved case unloadable
-        if observed_only and (len(st) != 1 or observed not in (None, st[0])):
-            raise CaseFileError(f"{what} is observed_only: it must have one state, the observed one")
+        if likelihood_evidence and (len(st) != 1 or observed not in (None, st[0])):
+            raise CaseFileError(f"{what} is likelihood_evidence: it must have one state, the observed one")
         tag = e.get("shared_source")
         if tag is not None:
             tag = _check_name(f"shared-source tag of {what}", tag)
@@ -312,7 +312,7 @@ def case_from_dict(data: Any) -> Case:
         case._evidence[name] = Evidence(
             name, st, names, table, observed=observed,
             description=_check_text(f"description of {what}", e.get("description", "")),
-            source=src, shared_source=tag, observed_only=observed_only,
+            source=src, shared_source=tag, likelihood_evidence=likelihood_evidence,
             entry_sources=entry_sources, given=given, parent_states=parent_states,
             conditional=cond)
 
@@ -435,7 +435,7 @@ EXTRA_VALIDATORS: dict[str, str] = {
     "decision": "beliefledger.value:validate_decision",
 }
 """extras key -> "module:function" validating that section: ``fn(value, case) -> value``
-(JSON-ready, normalised) or raise CaseError naming the field. Modules that keep
+(JSON-ready, normalized) or raise CaseError naming the field. Modules that keep
 inputs on the case register here (e.g. ``"uncertainty": "beliefledger.uncertainty:validate_uncertainty"``)."""
 
 

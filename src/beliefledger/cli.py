@@ -28,35 +28,35 @@ COMMAND_MODULES = ["beliefledger.cli", "beliefledger.record.commands"]
 
 def _cmd_update(args: argparse.Namespace) -> int:
     from .casefile import load_case
-    from .display import trace_text
+    from .display import ledger_text
 
     case = load_case(args.case)
     if args.scenario:
         case.use_scenario(args.scenario)
-    trace = case.update()
+    ledger = case.update()
     if args.json:
-        print(json.dumps(trace.to_dict(), indent=1, ensure_ascii=False, allow_nan=False))
+        print(json.dumps(ledger.to_dict(), indent=1, ensure_ascii=False, allow_nan=False))
     else:
-        print(trace_text(trace))
-    return EXIT_OK if trace.ok or not args.strict else EXIT_FAILED
+        print(ledger_text(ledger))
+    return EXIT_OK if ledger.ok or not args.strict else EXIT_FAILED
 
 
 def _cmd_demo_engine(args: argparse.Namespace) -> int:
     """The demo without the record layer: the example case through the engine."""
-    from .display import trace_text
+    from .display import ledger_text
     from .examples import example_case
 
     case = example_case()
-    print(trace_text(case.update()))
+    print(ledger_text(case.update()))
     return EXIT_OK
 
 
 def add_parsers(sub: argparse._SubParsersAction) -> None:
-    p = sub.add_parser("update", help="run the update of a case file and print the trace")
+    p = sub.add_parser("update", help="run the update of a case file and print the ledger")
     p.add_argument("case", help="a case JSON file")
     p.add_argument("--json", action="store_true", help="machine-readable output")
     p.add_argument("--scenario", help="prior scenario to use (default: the file's active one)")
-    p.add_argument("--strict", action="store_true", help="exit 1 when any finding is an error")
+    p.add_argument("--strict", action="store_true", help="exit 1 when any flag is an error")
     p.set_defaults(handler=_cmd_update)
     if "demo" not in sub.choices:
         d = sub.add_parser("demo", help="run the built-in example case through the engine")

@@ -1,4 +1,4 @@
-"""Static HTML and text views of cases and traces (escaped; no JavaScript).
+"""Static HTML and text views of cases and ledgers (escaped; no JavaScript).
 
 These are the fallbacks a notebook shows without live widgets, and the
 building blocks of records. Everything a user typed passes through
@@ -13,7 +13,7 @@ from typing import TYPE_CHECKING
 
 if TYPE_CHECKING:
     from .case import Case
-    from .engine import Trace
+    from .engine import Ledger
 
 SEVERITY_MARK = {"error": "ERROR", "warning": "warning", "info": "info"}
 
@@ -63,57 +63,57 @@ def case_html(case: Case, max_rows: int = 50) -> str:
     )
 
 
-def findings_html(findings) -> str:
-    if not findings:
-        return '<p class="bl-findings-none">No findings.</p>'
+def flags_html(flags) -> str:
+    if not flags:
+        return '<p class="bl-flags-none">No review flags.</p>'
     items = "".join(
-        f'<li class="bl-finding bl-{esc(f.severity)}"><b>{esc(SEVERITY_MARK[f.severity])}</b> '
-        f"<code>{esc(f.code)}</code> {esc(f.message)}</li>" for f in findings)
-    return f'<ul class="bl-findings">{items}</ul>'
+        f'<li class="bl-flag bl-{esc(f.severity)}"><b>{esc(SEVERITY_MARK[f.severity])}</b> '
+        f"<code>{esc(f.code)}</code> {esc(f.message)}</li>" for f in flags)
+    return f'<ul class="bl-flags">{items}</ul>'
 
 
-def trace_html(trace: Trace, max_cols: int = 30) -> str:
-    cols = trace.hypotheses[:max_cols]
+def ledger_html(ledger: Ledger, max_cols: int = 30) -> str:
+    cols = ledger.hypotheses[:max_cols]
     header = ["step", *cols]
-    rows = [[s, *[f"{v:.4f}" for v in row[cols]]] for s, row in trace.steps.iterrows()]
+    rows = [[s, *[f"{v:.4f}" for v in row[cols]]] for s, row in ledger.steps.iterrows()]
     return (
-        f'<div class="bl-trace"><h4>{esc(trace.title)}: trace under scenario '
-        f"{esc(trace.scenario)}</h4>"
+        f'<div class="bl-ledger"><h4>{esc(ledger.title)}: ledger under scenario '
+        f"{esc(ledger.scenario)}</h4>"
         + _table(header, rows)
         + "".join(f"<p>{esc(s)}: one step combining {esc(', '.join(m))}</p>"
-                  for s, m in trace.members.items() if len(m) > 1 or m != (s,))
-        + f"<p>MAP: <b>{esc(trace.map_hypothesis)}</b> "
-        f"({trace.posterior[trace.map_hypothesis]:.4f}); maximum likelihood: "
-        f"{esc(trace.ml_hypothesis or 'n/a')}</p>"
-        + findings_html(trace.findings) + "</div>"
+                  for s, m in ledger.members.items() if len(m) > 1 or m != (s,))
+        + f"<p>MAP: <b>{esc(ledger.map_hypothesis)}</b> "
+        f"({ledger.posterior[ledger.map_hypothesis]:.4f}); maximum likelihood: "
+        f"{esc(ledger.ml_hypothesis or 'n/a')}</p>"
+        + flags_html(ledger.flags) + "</div>"
     )
 
 
-def trace_text(trace: Trace, max_cols: int = 12) -> str:
-    """A plain-text trace table and findings for the terminal."""
-    cols = trace.hypotheses[:max_cols]
-    name_w = max([len(visible(s)) for s in trace.step_names] + [4])
+def ledger_text(ledger: Ledger, max_cols: int = 12) -> str:
+    """A plain-text ledger table and flags for the terminal."""
+    cols = ledger.hypotheses[:max_cols]
+    name_w = max([len(visible(s)) for s in ledger.step_names] + [4])
     col_w = [max(len(visible(c)), 8) for c in cols]
-    lines = [f"Case: {visible(trace.title)}   (scenario: {visible(trace.scenario)})", ""]
+    lines = [f"Case: {visible(ledger.title)}   (scenario: {visible(ledger.scenario)})", ""]
     lines.append("step".ljust(name_w) + "  " + "  ".join(visible(c).rjust(w)
                                                           for c, w in zip(cols, col_w, strict=True)))
-    for step, row in trace.steps.iterrows():
+    for step, row in ledger.steps.iterrows():
         lines.append(visible(step).ljust(name_w) + "  " + "  ".join(
             f"{row[c]:.4f}".rjust(w) for c, w in zip(cols, col_w, strict=True)))
-    if len(trace.hypotheses) > max_cols:
-        lines.append(f"... {len(trace.hypotheses) - max_cols} more hypotheses not shown")
-    grouped = [(s, m) for s, m in trace.members.items() if len(m) > 1 or m != (s,)]
+    if len(ledger.hypotheses) > max_cols:
+        lines.append(f"... {len(ledger.hypotheses) - max_cols} more hypotheses not shown")
+    grouped = [(s, m) for s, m in ledger.members.items() if len(m) > 1 or m != (s,)]
     for step, members in grouped:
         lines.append(f"  {visible(step)}: one step combining {', '.join(map(visible, members))}")
     lines.append("")
-    lines.append(f"MAP: {visible(trace.map_hypothesis)} "
-                 f"({trace.posterior[trace.map_hypothesis]:.4f})   maximum likelihood: "
-                 f"{visible(trace.ml_hypothesis or 'n/a')}")
+    lines.append(f"MAP: {visible(ledger.map_hypothesis)} "
+                 f"({ledger.posterior[ledger.map_hypothesis]:.4f})   maximum likelihood: "
+                 f"{visible(ledger.ml_hypothesis or 'n/a')}")
     lines.append("")
-    lines.append(f"Findings ({len(trace.findings)}):")
-    for f in trace.findings:
+    lines.append(f"Review flags ({len(ledger.flags)}):")
+    for f in ledger.flags:
         lines.append(f"  [{f.severity}] {f.code}: {visible(f.message)}")
     return "\n".join(lines)
 
 
-__all__ = ["esc", "visible", "case_html", "trace_html", "trace_text", "findings_html"]
+__all__ = ["esc", "visible", "case_html", "ledger_html", "ledger_text", "flags_html"]

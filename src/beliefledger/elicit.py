@@ -4,8 +4,8 @@ Each function returns an *estimate*: a small object holding the fitted
 distribution (Dirichlet, Beta or Gamma), its summaries, a ready-to-use form
 for the case (``est.priors()``, ``est.likelihoods()``), a
 :class:`~beliefledger.case.Source` filled in from the data and the method
-(``est.source``) and any :class:`~beliefledger.findings.Finding` the
-estimate raises (``est.findings``, e.g. a hypothesis with zero historical
+(``est.source``) and any :class:`~beliefledger.flags.Flag` the
+estimate raises (``est.flags``, e.g. a hypothesis with zero historical
 count that only has its pseudo-count).
 
 All intervals are equal-tailed and come from the exact marginal
@@ -34,7 +34,7 @@ import pandas as pd
 
 from .case import Source, _check_name, _check_probability, _check_text
 from .errors import CaseError, CaseTypeError
-from .findings import Finding
+from .flags import Flag
 
 if TYPE_CHECKING:
     from .case import Case, Evidence
@@ -156,16 +156,16 @@ class DirichletEstimate:
         The pseudo-count added to every category.
     source : Source
         Filled in from the counts, the pseudo-count and the method.
-    findings : list of Finding
+    flags : list of Flag
     """
 
     def __init__(self, alpha: pd.Series, counts: pd.Series, pseudo: float, source: Source,
-                 findings: list[Finding]) -> None:
+                 flags: list[Flag]) -> None:
         self.alpha = alpha.astype(float).rename("alpha")
         self.counts = counts.rename("count")
         self.pseudo = float(pseudo)
         self.source = source
-        self.findings = list(findings)
+        self.flags = list(flags)
 
     @property
     def concentration(self) -> float:
@@ -211,7 +211,7 @@ class DirichletEstimate:
                 "alpha": {str(k): float(v) for k, v in self.alpha.items()},
                 "counts": {str(k): int(v) for k, v in self.counts.items()},
                 "pseudo": self.pseudo, "source": self.source.to_dict(),
-                "findings": [f.to_dict() for f in self.findings]}
+                "flags": [f.to_dict() for f in self.flags]}
 
     def __repr__(self) -> str:
         return (f"DirichletEstimate({len(self.alpha)} categories, {int(self.counts.sum())} "
@@ -279,13 +279,13 @@ def prior_from_counts(counts: Any, pseudo: float = 1.0, *, data: str = "", who: 
                         "positive pseudo-count (e.g. pseudo=0.5 or 1)")
     counts_s = pd.Series(c, dtype=np.int64)
     alpha = counts_s.astype(float) + pseudo
-    findings = [Finding("zero-count", "info",
+    flags = [Flag("zero-count", "info",
                         f"Hypothesis '{k}' has no past occurrence in the counts; its prior rests "
                         f"on the pseudo-count {_g(pseudo)} alone ({_g(alpha[k] / alpha.sum())}).",
                         f"hypothesis '{k}'") for k in zeros]
     total = int(counts_s.sum())
     if total == 0:
-        findings.append(Finding("no-data", "warning",
+        flags.append(Flag("no-data", "warning",
                                 "All counts are zero, so the priors come from the pseudo-counts "
                                 "alone (equal priors).", "counts"))
     listed = ", ".join(f"{k}: {v}" for k, v in c.items())
@@ -293,7 +293,7 @@ def prior_from_counts(counts: Any, pseudo: float = 1.0, *, data: str = "", who: 
                        f"Dirichlet posterior mean, alpha = count + pseudo-count {_g(pseudo)} "
                        f"per hypothesis (concentration {_g(float(alpha.sum()))})",
                        data, who, when)
-    return DirichletEstimate(alpha, counts_s, pseudo, src, findings)
+    return DirichletEstimate(alpha, counts_s, pseudo, src, flags)
 
 
 # --------------------------------------------------------------------------- Beta
@@ -312,14 +312,14 @@ class BetaEstimate:
     """
 
     def __init__(self, a: float, b: float, prior_a: float, prior_b: float, successes: int,
-                 trials: int, prior_label: str, source: Source, findings: list[Finding],
+                 trials: int, prior_label: str, source: Source, flags: list[Flag],
                  what: str = "probability") -> None:
         self.a, self.b = float(a), float(b)
         self.prior_a, self.prior_b = float(prior_a), float(prior_b)
         self.successes, self.trials = int(successes), int(trials)
         self.prior_label = prior_label
         self.source = source
-        self.findings = list(findings)
+        self.flags = list(flags)
         self.what = what
 
     @property
@@ -348,7 +348,7 @@ class BetaEstimate:
         return {"distribution": "beta", "a": self.a, "b": self.b, "prior": [self.prior_a,
                 self.prior_b], "prior_label": self.prior_label, "successes": self.successes,
                 "trials": self.trials, "mean": self.mean, "source": self.source.to_dict(),
-                "findings": [f.to_dict() for f in self.findings]}
+                "flags": [f.to_dict() for f in self.flags]}
 
     def __repr__(self) -> str:
         return (f"BetaEstimate({self.what}: Beta({_g(self.a)}, {_g(self.b)}), mean "
@@ -359,19 +359,19 @@ def _beta_posterior(successes: int, trials: int, prior: Any, what: str, data: st
                     when: str, unit: str) -> BetaEstimate:
     a0, b0, label = _beta_prior(prior, what)
     a, b = a0 + successes, b0 + trials - successes
-    findings = []
+    flags = []
     if trials == 0:
-        findings.append(Finding("no-data", "warning",
+        flags.append(Flag("no-data", "warning",
                                 f"No {unit} recorded, so the {what} is the prior alone "
                                 f"({label}).", what))
     elif successes == 0:
-        findings.append(Finding("zero-count", "info",
+        flags.append(Flag("zero-count", "info",
                                 f"No events in {trials} {unit}; the {what} rests on the "
                                 f"{label} for its size.", what))
     src = _make_source(f"{successes} in {trials} {unit}",
                        f"Beta-binomial update of the {label}: posterior Beta({_g(a)}, {_g(b)}), "
                        f"mean {a / (a + b):.4g}", data, who, when)
-    return BetaEstimate(a, b, a0, b0, successes, trials, label, src, findings, what)
+    return BetaEstimate(a, b, a0, b0, successes, trials, label, src, flags, what)
 
 
 def probability_from_demands(failures: int, demands: int, prior: Any = JEFFREYS, *,
@@ -417,14 +417,14 @@ class GammaEstimate:
 
     def __init__(self, shape: float, rate: float, prior_shape: float, prior_rate: float,
                  events: int, exposure: float, unit: str, prior_label: str, source: Source,
-                 findings: list[Finding]) -> None:
+                 flags: list[Flag]) -> None:
         self.shape, self.rate = float(shape), float(rate)
         self.prior_shape, self.prior_rate = float(prior_shape), float(prior_rate)
         self.events, self.exposure = int(events), float(exposure)
         self.unit = unit
         self.prior_label = prior_label
         self.source = source
-        self.findings = list(findings)
+        self.flags = list(flags)
 
     @property
     def mean(self) -> float:
@@ -458,7 +458,7 @@ class GammaEstimate:
                 "prior": [self.prior_shape, self.prior_rate], "prior_label": self.prior_label,
                 "events": self.events, "exposure": self.exposure, "unit": self.unit,
                 "mean": self.mean, "source": self.source.to_dict(),
-                "findings": [f.to_dict() for f in self.findings]}
+                "flags": [f.to_dict() for f in self.flags]}
 
     def __repr__(self) -> str:
         per = f" per {self.unit}" if self.unit else ""
@@ -511,18 +511,18 @@ def rate_from_events(events: int, exposure: float, prior: Any = JEFFREYS, *, uni
                         "improper; give a positive exposure or a proper Gamma prior")
     unit = _check_text("unit", unit)
     shape, rate = s0 + x, r0 + t
-    findings = []
+    flags = []
     if t == 0:
-        findings.append(Finding("no-data", "warning", "No exposure recorded, so the rate is the "
+        flags.append(Flag("no-data", "warning", "No exposure recorded, so the rate is the "
                                 f"prior alone ({label}).", "rate"))
     elif x == 0:
-        findings.append(Finding("zero-count", "info", f"No events in {_g(t)} {unit}".rstrip()
+        flags.append(Flag("zero-count", "info", f"No events in {_g(t)} {unit}".rstrip()
                                 + f"; the rate rests on the {label} for its size.", "rate"))
     src = _make_source(f"{x} events in {_g(t)} {unit}".rstrip(),
                        f"Gamma-Poisson update of the {label}: posterior Gamma({_g(shape)}, "
                        f"{_g(rate)}), mean {shape / rate:.4g} per {unit or 'unit'}",
                        data, who, when)
-    return GammaEstimate(shape, rate, s0, r0, x, t, unit, label, src, findings)
+    return GammaEstimate(shape, rate, s0, r0, x, t, unit, label, src, flags)
 
 
 # --------------------------------------------------------------------------- likelihoods
@@ -544,7 +544,7 @@ class LikelihoodEstimate:
     """
 
     def __init__(self, table: pd.DataFrame, target: str, sensitivity: float,
-                 specificity: float, source: Source, findings: list[Finding],
+                 specificity: float, source: Source, flags: list[Flag],
                  sensitivity_estimate: BetaEstimate | None = None,
                  specificity_estimate: BetaEstimate | None = None) -> None:
         self.table = table
@@ -552,7 +552,7 @@ class LikelihoodEstimate:
         self.sensitivity = float(sensitivity)
         self.specificity = float(specificity)
         self.source = source
-        self.findings = list(findings)
+        self.flags = list(flags)
         self.sensitivity_estimate = sensitivity_estimate
         self.specificity_estimate = specificity_estimate
 
@@ -615,7 +615,7 @@ class LikelihoodEstimate:
         out = {"target": self.target, "sensitivity": self.sensitivity,
                "specificity": self.specificity, "likelihoods": self.likelihoods(),
                "states": self.states, "source": self.source.to_dict(),
-               "findings": [f.to_dict() for f in self.findings]}
+               "flags": [f.to_dict() for f in self.flags]}
         if self.sensitivity_estimate is not None:
             out["sensitivity_estimate"] = self.sensitivity_estimate.to_dict()
             out["specificity_estimate"] = self.specificity_estimate.to_dict()
@@ -658,23 +658,23 @@ def _states(states: Any) -> tuple[str, str]:
 
 
 def _test_table(sens: float, spec: float, names: list[str], target: str,
-                st: tuple[str, str]) -> tuple[pd.DataFrame, list[Finding]]:
+                st: tuple[str, str]) -> tuple[pd.DataFrame, list[Flag]]:
     cols = {h: ([sens, 1 - sens] if h == target else [1 - spec, spec]) for h in names}
     table = pd.DataFrame(cols, index=pd.Index(list(st), name="state"))
     table.columns.name = "hypothesis"
-    findings = []
+    flags = []
     for label, v in (("sensitivity", sens), ("specificity", spec)):
         if v in (0.0, 1.0):
-            findings.append(Finding("zero-likelihood", "warning",
+            flags.append(Flag("zero-likelihood", "warning",
                                     f"A {label} of exactly {v:g} makes one result impossible "
                                     "under some hypothesis, so that result would eliminate it "
                                     "(Cromwell's rule); use a value just inside (0, 1) unless "
                                     "it is truly impossible.", label))
     if sens + spec <= 1:
-        findings.append(Finding("uninformative-test", "warning",
+        flags.append(Flag("uninformative-test", "warning",
                                 f"Sensitivity {sens:.4g} + specificity {spec:.4g} is not above 1: "
                                 "a positive result does not favour the target.", "test"))
-    return table, findings
+    return table, flags
 
 
 def likelihood_from_test(sensitivity: float, specificity: float, *, target: str,
@@ -703,12 +703,12 @@ def likelihood_from_test(sensitivity: float, specificity: float, *, target: str,
     sens = _check_probability("sensitivity", sensitivity)
     spec = _check_probability("specificity", specificity)
     st = _states(states)
-    table, findings = _test_table(sens, spec, names, target, st)
+    table, flags = _test_table(sens, spec, names, target, st)
     src = _make_source(f"test with sensitivity {sens:.6g}, specificity {spec:.6g} for '{target}'",
                        f"P({st[0]} | {target}) = sensitivity; P({st[1]} | other) = specificity "
                        "(false-alarm rate assumed the same under every other hypothesis)",
                        data, who, when)
-    return LikelihoodEstimate(table, target, sens, spec, src, findings)
+    return LikelihoodEstimate(table, target, sens, spec, src, flags)
 
 
 def likelihood_from_counts(true_positives: int, false_positives: int, false_negatives: int,
@@ -746,14 +746,14 @@ def likelihood_from_counts(true_positives: int, false_positives: int, false_nega
     spec_e = _beta_posterior(tn, tn + fp, prior, "specificity", data, who, when,
                              f"cases without '{target}' (true negatives)")
     sens, spec = sens_e.mean, spec_e.mean
-    table, findings = _test_table(sens, spec, names, target, st)
-    findings = sens_e.findings + spec_e.findings + findings
+    table, flags = _test_table(sens, spec, names, target, st)
+    flags = sens_e.flags + spec_e.flags + flags
     src = _make_source(f"confusion counts TP {tp}, FP {fp}, FN {fn}, TN {tn} for '{target}'",
                        f"posterior means under the {sens_e.prior_label}: sensitivity "
                        f"{sens:.4g} (Beta({_g(sens_e.a)}, {_g(sens_e.b)})), specificity "
                        f"{spec:.4g} (Beta({_g(spec_e.a)}, {_g(spec_e.b)})); false-alarm rate "
                        "assumed the same under every other hypothesis", data, who, when)
-    return LikelihoodEstimate(table, target, sens, spec, src, findings, sens_e, spec_e)
+    return LikelihoodEstimate(table, target, sens, spec, src, flags, sens_e, spec_e)
 
 
 __all__ = [

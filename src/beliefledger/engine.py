@@ -1,6 +1,6 @@
 """Sequential Bayesian updating in log space.
 
-The engine turns a :class:`~beliefledger.case.Case` into a :class:`Trace`:
+The engine turns a :class:`~beliefledger.case.Case` into a :class:`Ledger`:
 the prior, one step per observed evidence item, and the posterior. All
 arithmetic is in natural-log space so thousands of items never underflow;
 a zero prior or zero likelihood is ``-inf`` and stays exactly zero in the
@@ -16,7 +16,7 @@ import numpy as np
 import pandas as pd
 
 from ._logmath import log_normalizer, log_odds_path, log_of, normalize_log, posterior_from_logs
-from .findings import Finding, diagnose
+from .flags import Flag, diagnose
 
 if TYPE_CHECKING:
     from .case import Case
@@ -25,7 +25,7 @@ PRIOR_STEP = "prior"
 
 
 @dataclass
-class Trace:
+class Ledger:
     """The result of an update: every step from prior to posterior.
 
     Attributes
@@ -51,7 +51,7 @@ class Trace:
         the update stops before it (its row and later rows are absent).
     members : dict
         Step name -> the evidence items it combines (one unless grouped).
-    findings : list of Finding
+    flags : list of Flag
     """
 
     title: str
@@ -68,7 +68,7 @@ class Trace:
     skipped: list[str]
     members: dict[str, tuple[str, ...]]
     total_log_likelihood: pd.Series
-    findings: list[Finding] = field(default_factory=list)
+    flags: list[Flag] = field(default_factory=list)
 
     @property
     def posterior(self) -> pd.Series:
@@ -99,11 +99,11 @@ class Trace:
 
     @property
     def ok(self) -> bool:
-        """False when any finding has severity ``error``."""
-        return not any(f.severity == "error" for f in self.findings)
+        """False when any flag has severity ``error``."""
+        return not any(f.severity == "error" for f in self.flags)
 
-    def findings_frame(self) -> pd.DataFrame:
-        return pd.DataFrame([f.to_dict() for f in self.findings],
+    def flags_frame(self) -> pd.DataFrame:
+        return pd.DataFrame([f.to_dict() for f in self.flags],
                             columns=["code", "severity", "message", "where"])
 
     def to_dict(self) -> dict:
@@ -122,41 +122,41 @@ class Trace:
             "ml_hypothesis": self.ml_hypothesis,
             "evidence_probability": {k: float(v) for k, v in self.evidence_probability.items()},
             "stopped_at": self.stopped_at,
-            "findings": [f.to_dict() for f in self.findings],
+            "flags": [f.to_dict() for f in self.flags],
         }
 
     def __repr__(self) -> str:
         n = len(self.steps) - 1
         p = float(self.posterior[self.map_hypothesis])
-        errors = sum(f.severity == "error" for f in self.findings)
-        warnings = sum(f.severity == "warning" for f in self.findings)
-        return (f"Trace({self.title!r}: {n} evidence steps, MAP {self.map_hypothesis!r} at "
+        errors = sum(f.severity == "error" for f in self.flags)
+        warnings = sum(f.severity == "warning" for f in self.flags)
+        return (f"Ledger({self.title!r}: {n} evidence steps, MAP {self.map_hypothesis!r} at "
                 f"{p:.4f}; {errors} errors, {warnings} warnings)")
 
     def _repr_html_(self) -> str:
-        from .display import trace_html
+        from .display import ledger_html
 
-        return trace_html(self)
+        return ledger_html(self)
 
 
-def update(case: Case, *, scenario: str | None = None, diagnose_findings: bool = True) -> Trace:
+def update(case: Case, *, scenario: str | None = None, with_flags: bool = True) -> Ledger:
     """Run the sequential update of ``case`` under its active (or the named) scenario."""
     if scenario is not None and scenario != case.active_scenario:
         with case.scenario(scenario):
-            return update(case, diagnose_findings=diagnose_findings)
+            return update(case, with_flags=with_flags)
     hyps = case.hypothesis_names
     priors = case.priors
     p = priors.to_numpy(dtype=float)
     total = p.sum()
     # Priors off 1 (a part-way edit) are used as relative weights; the
-    # prior-sum finding says so. A zero total cannot be used at all.
+    # prior-sum flag says so. A zero total cannot be used at all.
     log_prior = log_of(p / total) if total > 0 else np.full(len(p), -np.inf)
     steps_in = case.observed_steps()
     names = [s[0] for s in steps_in]
     members = {s[0]: tuple(s[1]) for s in steps_in}
     n_h = len(hyps)
     # One buffer: row 0 the log prior, then ln P(observed | H) per step, computed in
-    # place; the running sum down the rows is the unnormalised log posterior.
+    # place; the running sum down the rows is the unnormalized log posterior.
     buf = np.empty((len(steps_in) + 1, n_h))
     buf[0] = log_prior
     loglik = buf[1:]
@@ -206,7 +206,7 @@ def update(case: Case, *, scenario: str | None = None, diagnose_findings: bool =
     ml_h = None
     if len(names) and np.isfinite(np.max(total_ll)):
         ml_h = hyps[int(np.argmax(total_ll))]
-    trace = Trace(
+    ledger = Ledger(
         title=case.title,
         scenario=case.active_scenario,
         hypotheses=list(hyps),
@@ -222,10 +222,10 @@ def update(case: Case, *, scenario: str | None = None, diagnose_findings: bool =
         members=members,
         total_log_likelihood=pd.Series(total_ll, index=hyps, name="log_likelihood"),
     )
-    if diagnose_findings:
-        trace.findings = diagnose(case, trace)
-    return trace
+    if with_flags:
+        ledger.flags = diagnose(case, ledger)
+    return ledger
 
 
-__all__ = ["Trace", "update", "log_of", "log_odds_path", "log_normalizer", "normalize_log",
+__all__ = ["Ledger", "update", "log_of", "log_odds_path", "log_normalizer", "normalize_log",
            "posterior_from_logs", "PRIOR_STEP"]

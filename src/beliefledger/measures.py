@@ -25,7 +25,7 @@ from .errors import CaseError
 
 if TYPE_CHECKING:
     from .case import Case
-    from .engine import Trace
+    from .engine import Ledger
 
 LN10 = math.log(10.0)
 DECIBANS_PER_NAT = 10.0 / LN10
@@ -87,10 +87,28 @@ def factor_from_decibans(db: float) -> float:
     return 10 ** (float(db) / 10)
 
 
+def format_lr(factor: float) -> str:
+    """A likelihood ratio for people: ``"LR 2.5"``, ``"LR 1/40"`` below 0.1, ``"LR 12,000"``,
+    ``"LR 0"`` or ``"LR inf"`` (three significant figures; no float noise)."""
+    f = float(factor)
+    if math.isnan(f):
+        return "LR undefined"
+    if math.isinf(f):
+        return "LR inf"
+    if f == 0:
+        return "LR 0"
+    if f < 0.1:
+        inv = 1 / f
+        return f"LR 1/{inv:,.0f}" if inv >= 100 else f"LR 1/{inv:.3g}"
+    if f >= 1000:
+        return f"LR {f:,.0f}" if f < 1e7 else f"LR {f:.2e}"
+    return f"LR {f:.3g}"
+
+
 # --------------------------------------------------------------------------- verbal scales
 
 _ENFSI = [
-    (2.0, "no meaningful support (below 2)"),
+    (2.0, "no meaningful support"),
     (10.0, "weak support"),
     (100.0, "moderate support"),
     (1_000.0, "moderately strong support"),
@@ -214,7 +232,7 @@ def update_probability(p: float, lr: float) -> float:
     return probability_from_odds(o * lr)
 
 
-# --------------------------------------------------------------------------- on cases and traces
+# --------------------------------------------------------------------------- on cases and ledgers
 
 
 def likelihood_ratio(case: Case, evidence: str, hypothesis: str, against: str | None = None,
@@ -223,7 +241,7 @@ def likelihood_ratio(case: Case, evidence: str, hypothesis: str, against: str | 
 
     ``state`` defaults to the observed state. With ``against=None`` the
     denominator is the rest: the other hypotheses mixed by their probabilities
-    just before this item in the trace (for an unobserved item, by the
+    just before this item in the ledger (for an unobserved item, by the
     current posterior).
     """
     ev = case.evidence.get(evidence)
@@ -242,12 +260,12 @@ def likelihood_ratio(case: Case, evidence: str, hypothesis: str, against: str | 
             raise CaseError(f"no hypothesis named {against!r}; the hypotheses are {names}")
         den = float(row[against])
     else:
-        trace = case.update()
-        if evidence in trace.evidence_steps:
-            k = trace.step_names.index(evidence) - 1
-            w = trace.steps.iloc[k]
+        ledger = case.update()
+        if evidence in ledger.evidence_steps:
+            k = ledger.step_names.index(evidence) - 1
+            w = ledger.steps.iloc[k]
         else:
-            w = trace.posterior
+            w = ledger.posterior
         w = w.drop(hypothesis)
         tot = float(w.sum())
         if tot <= 0:
@@ -259,28 +277,28 @@ def likelihood_ratio(case: Case, evidence: str, hypothesis: str, against: str | 
     return num / den
 
 
-def bayes_factor(trace: Trace, hypothesis: str, against: str | None = None) -> float:
+def bayes_factor(ledger: Ledger, hypothesis: str, against: str | None = None) -> float:
     """Bayes factor of all applied evidence for ``hypothesis`` against ``against``
     (or against the prior-weighted rest): posterior odds / prior odds."""
-    names = trace.hypotheses
+    names = ledger.hypotheses
     if hypothesis not in names:
         raise CaseError(f"no hypothesis named {hypothesis!r}; the hypotheses are {names}")
     j = names.index(hypothesis)
     if against is not None:
         if against not in names:
             raise CaseError(f"no hypothesis named {against!r}; the hypotheses are {names}")
-        ll = trace.log_likelihoods
+        ll = ledger.log_likelihoods
         a = float(ll[hypothesis].sum())
         b = float(ll[against].sum())
         with np.errstate(invalid="ignore"):
             return float(np.exp(a - b)) if np.isfinite(b) else (math.inf if np.isfinite(a)
                                                                  else math.nan)
-    lo = log_odds_path(trace.log_steps[[0, -1]], j)
+    lo = log_odds_path(ledger.log_steps[[0, -1]], j)
     with np.errstate(invalid="ignore"):
         return float(np.exp(lo[1] - lo[0]))
 
 
-def step_weights(trace: Trace, focus: str | None = None, scale: str = "enfsi") -> pd.DataFrame:
+def step_weights(ledger: Ledger, focus: str | None = None, scale: str = "enfsi") -> pd.DataFrame:
     """Per-step weight of evidence for ``focus`` (default: the MAP) against the rest.
 
     Columns: ``log_odds_before``, ``log_odds_after`` (natural log),
@@ -289,15 +307,15 @@ def step_weights(trace: Trace, focus: str | None = None, scale: str = "enfsi") -
     the mixture of the other hypotheses at each step, so the decibans of the
     rows add up to the total change from prior to posterior log-odds.
     """
-    focus = trace.map_hypothesis if focus is None else focus
-    if focus not in trace.hypotheses:
-        raise CaseError(f"no hypothesis named {focus!r}; the hypotheses are {trace.hypotheses}")
-    j = trace.hypotheses.index(focus)
-    lo = log_odds_path(trace.log_steps, j)
+    focus = ledger.map_hypothesis if focus is None else focus
+    if focus not in ledger.hypotheses:
+        raise CaseError(f"no hypothesis named {focus!r}; the hypotheses are {ledger.hypotheses}")
+    j = ledger.hypotheses.index(focus)
+    lo = log_odds_path(ledger.log_steps, j)
     with np.errstate(invalid="ignore"):
         d = np.diff(lo)
     rows = []
-    for k, step in enumerate(trace.evidence_steps):
+    for k, step in enumerate(ledger.evidence_steps):
         n = float(d[k])
         if np.isnan(n):  # -inf to -inf: the focus is already out; no information
             n = 0.0
@@ -328,7 +346,7 @@ def entropy_bits(p: np.ndarray, axis: int = -1) -> np.ndarray:
 
 __all__ = [
     "odds", "probability_from_odds", "log_odds", "decibans", "bits", "nats",
-    "factor_from_decibans", "enfsi_label", "kass_raftery_label", "jeffreys_label", "verbal",
+    "factor_from_decibans", "format_lr", "enfsi_label", "kass_raftery_label", "jeffreys_label", "verbal",
     "SCALES", "rule_of_thumb_shift", "update_probability", "likelihood_ratio", "bayes_factor",
     "step_weights", "entropy_bits", "log_normalizer",
 ]

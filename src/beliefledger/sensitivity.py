@@ -88,7 +88,7 @@ def _check_defined(log_prior: np.ndarray, total: np.ndarray, what: str) -> None:
     if not np.any(np.isfinite(log_prior + total)):
         raise CaseError(f"{what}: the observed evidence is impossible under every hypothesis "
                         "with a positive prior, so the posterior is undefined; fix the "
-                        "likelihoods (see the trace's findings)")
+                        "likelihoods (see the ledger's flags)")
 
 
 def _values(values: Any, points: Any, what: str) -> np.ndarray:
@@ -224,7 +224,7 @@ def robustness(case: Case, scenarios: Iterable[str] | None = None) -> Robustness
         raise CaseError(f"scenarios {names} list one scenario twice")
     rows, maps = [], []
     for s in names:
-        tr = update(case, scenario=s, diagnose_findings=False)
+        tr = update(case, scenario=s, with_flags=False)
         rows.append(tr.posterior.to_numpy())
         maps.append(tr.map_hypothesis)
     frame = pd.DataFrame(rows, index=pd.Index(names, name="scenario"),
@@ -281,7 +281,7 @@ def sweep_likelihood(case: Case, evidence: str, hypothesis: str, values: Any = N
 
     ``state`` defaults to the item's observed state; the other states of the
     column are rescaled in proportion so the column keeps summing to 1 (an
-    observed-only item has just the one entry).
+    likelihood evidence item has just the one entry).
 
     Returns
     -------
@@ -510,8 +510,8 @@ def tornado(case: Case, focus: str | None = None, *, ranges: Mapping[Any, Any] |
     sc = _scenario(case, scenario)
     lv = check_level(level)
     names = case.hypothesis_names
-    trace = update(case, scenario=sc, diagnose_findings=False)
-    f = trace.map_hypothesis if focus is None else case._get_hyp(focus).name
+    ledger = update(case, scenario=sc, with_flags=False)
+    f = ledger.map_hypothesis if focus is None else case._get_hyp(focus).name
     fj = names.index(f)
     p = _priors(case, sc)
     steps, ll = _loglik(case)
@@ -612,7 +612,7 @@ def tornado(case: Case, focus: str | None = None, *, ranges: Mapping[Any, Any] |
     frame["focus_at_high"] = post[1::2]
     frame["swing"] = np.abs(frame["focus_at_high"] - frame["focus_at_low"])
     frame = frame.sort_values("swing", ascending=False, kind="stable").reset_index(drop=True)
-    frame.attrs.update(focus=f, base_posterior=float(trace.posterior[f]), scenario=sc,
+    frame.attrs.update(focus=f, base_posterior=float(ledger.posterior[f]), scenario=sc,
                        level=lv)
     return frame
 

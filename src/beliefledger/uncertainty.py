@@ -28,7 +28,7 @@ the same under every non-target hypothesis). Exact zeros stay exact: a zero
 prior or likelihood is zero in every draw.
 
 :func:`simulate` draws only what moves the posterior: the priors (a
-Dirichlet, as normalised Gamma draws) and, for each hypothesis, the total
+Dirichlet, as normalized Gamma draws) and, for each hypothesis, the total
 log-likelihood of the observed states. By default the independent uncertain
 entries of one hypothesis are drawn together from the exact distribution of
 their sum (:class:`LogBetaSum`), so the cost per draw does not grow with the
@@ -37,7 +37,7 @@ number of evidence items; ``method="direct"`` draws every entry instead.
 References
 ----------
 Gelman, A. et al. (2013). *Bayesian Data Analysis*, 3rd ed., section 3.4 and
-appendix A (Dirichlet marginals are Beta; a Dirichlet draw is a normalised
+appendix A (Dirichlet marginals are Beta; a Dirichlet draw is a normalized
 vector of independent Gamma draws).
 """
 
@@ -231,8 +231,8 @@ def _validate_entry(i: int, e: Any, case: Case, strict: bool) -> dict[str, Any]:
     kind = e.get("kind")
     out: dict[str, Any] = {"evidence": ev_name, "hypothesis": h, "kind": kind}
     if kind == "dirichlet":
-        if known and ev.observed_only:
-            raise CaseError(f"{what}: evidence '{ev_name}' is a likelihood vector (observed only), "
+        if known and ev.likelihood_evidence:
+            raise CaseError(f"{what}: evidence '{ev_name}' is likelihood evidence (the observed state only), "
                             "so it has no column to put a Dirichlet on; give a range or a "
                             "concentration instead")
         alpha = e.get("alpha")
@@ -267,7 +267,7 @@ def _validate_entry(i: int, e: Any, case: Case, strict: bool) -> dict[str, Any]:
 
 
 def validate_uncertainty(value: Any, case: Case, *, strict: bool = False) -> dict[str, Any]:
-    """Validate and normalise the ``uncertainty`` section of ``case.extras``.
+    """Validate and normalize the ``uncertainty`` section of ``case.extras``.
 
     Runs on ``case.set_extra("uncertainty", ...)`` and when a case file is
     loaded; raises :class:`~beliefledger.errors.CaseError` naming the field.
@@ -844,7 +844,7 @@ class _Plan:
                     rng.standard_gamma(a, out=g[j])
             with np.errstate(divide="ignore"):
                 s += np.log(g)
-        # normalise over hypotheses (axis 0) with one exp; a draw in which every
+        # normalize over hypotheses (axis 0) with one exp; a draw in which every
         # hypothesis is impossible (all -inf) gives NaN, as normalize_log does
         top = s.max(axis=0)
         s -= np.where(np.isfinite(top), top, 0.0)
@@ -1066,9 +1066,9 @@ def simulate(case: Case, draws: int = 100_000, seed: int | None = None, *, level
     sc = case.active_scenario if scenario is None else scenario
     if sc not in case.scenario_names:
         raise CaseError(f"no scenario named {sc!r}; the scenarios are {case.scenario_names}")
-    trace = update(case, scenario=sc, diagnose_findings=False)
-    if trace.stopped_at is not None:
-        raise CaseError(f"evidence '{trace.stopped_at}' is impossible under every hypothesis "
+    ledger = update(case, scenario=sc, with_flags=False)
+    if ledger.stopped_at is not None:
+        raise CaseError(f"evidence '{ledger.stopped_at}' is impossible under every hypothesis "
                         "still in play, so the posterior is undefined; fix its likelihoods "
                         "before simulating")
     if method not in METHODS:
@@ -1118,8 +1118,8 @@ def simulate(case: Case, draws: int = 100_000, seed: int | None = None, *, level
             bar.close()
     return SimulationResult(title=case.title, scenario=sc, hypotheses=plan.hypotheses,
                             methods=plan.methods, notes=plan.notes,
-                            samples=out.T, base_posterior=trace.posterior,
-                            base_map=trace.map_hypothesis, seed=sd, draws=n, level=lv,
+                            samples=out.T, base_posterior=ledger.posterior,
+                            base_map=ledger.map_hypothesis, seed=sd, draws=n, level=lv,
                             inputs=plan.inputs, seconds=time.perf_counter() - t0)
 
 

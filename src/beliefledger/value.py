@@ -252,7 +252,7 @@ def loss_table(case: Case, loss: Any = None, *, kind: str = "loss") -> pd.DataFr
 def _posterior(case: Case, scenario: str | None) -> np.ndarray:
     from .engine import update
 
-    post = update(case, scenario=scenario, diagnose_findings=False).posterior.to_numpy(float)
+    post = update(case, scenario=scenario, with_flags=False).posterior.to_numpy(float)
     if not np.all(np.isfinite(post)) or post.sum() <= 0:
         raise CaseError(f"the posterior under scenario '{scenario or case.active_scenario}' is "
                         "undefined (all priors zero); fix the priors before deciding")

@@ -9,14 +9,14 @@ plain string columns is given beside it.
 The per-row baselines are timed on a sample of rows and scaled to the full
 table, in the same run:
 
-- the single-case API a user would reach for without ``score_cases``: per row,
+- the single-case API a user would reach for without ``score_rows``: per row,
   ``case.observe(...)`` for each item, then ``case.update()``;
 - a hand-written per-row loop over precomputed log tables (numpy adds, one
   log-sum-exp per row): the fastest plain Python loop we could write, so the
   ratio against it is the honest floor of the speed-up.
 
 The memory figure runs in a child process (so its peak RSS is its own):
-10,000,000 cases scored in chunks by one ``score_cases`` call; the input and
+10,000,000 cases scored in chunks by one ``score_rows`` call; the input and
 the result table themselves take about 1.4 GB of it.
 """
 
@@ -34,7 +34,7 @@ import pandas as pd
 from _timing import median_time
 
 import beliefledger as bl
-from beliefledger.batch import score_cases
+from beliefledger.batch import score_rows
 
 N_HYP, N_EV, N_STATES = 10, 30, 3
 N_ROWS = 1_000_000
@@ -98,12 +98,12 @@ def _numpy_loop(case: bl.Case, frame: pd.DataFrame) -> np.ndarray:
 def bench_batch() -> list[dict]:
     case = make_model()
     frame = make_frame(N_ROWS)
-    score_cases(case, frame.iloc[:1000])  # warm up
+    score_rows(case, frame.iloc[:1000])  # warm up
     c0 = time.process_time()
-    t = median_time(lambda: score_cases(case, frame), 5)
+    t = median_time(lambda: score_rows(case, frame), 5)
     cpu = (time.process_time() - c0) / 5  # all threads together
     load = os.getloadavg()[0]
-    result = score_cases(case, frame)
+    result = score_rows(case, frame)
     # the baselines, on samples, checked against the batch result before timing counts
     api_n, loop_n = 100, 20_000
     t0 = time.perf_counter()
@@ -119,7 +119,7 @@ def bench_batch() -> list[dict]:
     api_ratio = api_row * N_ROWS / t
     loop_ratio = loop_row * N_ROWS / t
     as_str = frame.iloc[:200_000].astype(object)
-    t_str = median_time(lambda: score_cases(case, as_str), 3) * N_ROWS / len(as_str)
+    t_str = median_time(lambda: score_rows(case, as_str), 3) * N_ROWS / len(as_str)
     return [
         {"name": "batch 1M cases x 30 evidence x 10 hyp", "value": t, "unit": "s",
          "target": "< 1 s", "ok": t < 1.0,
@@ -164,7 +164,7 @@ def _memory_child(n: int) -> None:
     frame = make_frame(n)
     before = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
     t0 = time.perf_counter()
-    res = score_cases(case, frame)
+    res = score_rows(case, frame)
     sec = time.perf_counter() - t0
     peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss  # KB on Linux
     assert len(res) == n and math.isfinite(float(res["log_evidence"].sum()))

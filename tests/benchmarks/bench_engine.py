@@ -4,9 +4,9 @@ The case is random and invented for timing only: 1,000 hypotheses, 1,000
 observed two-state evidence items. The reference is the time numpy takes to
 copy the same bytes once: the 1,000 x 1,000 float64 matrix of observed
 likelihoods (8 MB). Two engine figures are reported: the numeric core
-(``update(case, diagnose_findings=False)``: log-likelihoods, running sums,
-normalisation, the Trace frames) and the whole ``case.update()`` including the
-findings. A third figure, one ``np.log`` plus one ``np.exp`` over the same
+(``update(case, with_flags=False)``: log-likelihoods, running sums,
+normalization, the Ledger frames) and the whole ``case.update()`` including the
+flags. A third figure, one ``np.log`` plus one ``np.exp`` over the same
 array, is the floor any log-space engine pays for its two transcendental passes.
 """
 
@@ -52,12 +52,12 @@ def bench_engine() -> list[dict]:
     case = make_case()
     lik = np.vstack([s[2] for s in case.observed_steps()])
     assert lik.shape == (N_EV, N_HYP)
-    update(case, diagnose_findings=False)  # warm up
+    update(case, with_flags=False)  # warm up
     # interleave the figures so a busy machine slows all of them alike
     copy_t, core_t, floor_t = [], [], []
     for _ in range(9):
         copy_t.append(median_time(lambda: lik.copy(), 5))
-        core_t.append(median_time(lambda: update(case, diagnose_findings=False), 1))
+        core_t.append(median_time(lambda: update(case, with_flags=False), 1))
         floor_t.append(median_time(lambda: np.exp(np.log(lik)), 1))
     full = median_time(case.update, 3)
     c, core, floor = (statistics.median(x) for x in (copy_t, core_t, floor_t))
@@ -66,10 +66,10 @@ def bench_engine() -> list[dict]:
          "target": "<= 3x numpy copy of the 8 MB", "ok": core <= 3 * c,
          "note": f"ratio {core / c:.1f}x copy ({c * 1e3:.2f} ms); {core / floor:.2f}x one log "
                  f"+ one exp over the same array ({floor * 1e3:.1f} ms = {floor / c:.1f}x copy); "
-                 "update(diagnose_findings=False), median of 9"},
+                 "update(with_flags=False), median of 9"},
         {"name": "engine full case.update() 1000 x 1000", "value": full * 1e3, "unit": "ms",
          "target": "<= 3x numpy copy of the 8 MB", "ok": full <= 3 * c,
-         "note": f"ratio {full / c:.1f}x copy; includes the findings "
+         "note": f"ratio {full / c:.1f}x copy; includes the flags "
                  f"({(full - core) * 1e3:.0f} ms); median of 3"},
     ]
 
@@ -80,7 +80,7 @@ def bench_engine_interactive() -> list[dict]:
     t = median_time(case.update, 51)
     # Nielsen (1993), Usability Engineering, ch. 5: 0.1 s is about the limit for a
     # response to feel instantaneous.
-    return [{"name": "example case update (with findings)", "value": t * 1e3, "unit": "ms",
+    return [{"name": "example case update (with flags)", "value": t * 1e3, "unit": "ms",
              "target": "< 100 ms", "ok": t < 0.1,
              "note": "the built-in example case; median of 51; what each edit in a notebook "
                      "view recomputes"}]

@@ -5,7 +5,7 @@ excluded), median of several runs, the measurements interleaved so that a
 busy machine slows them alike. The target is judged on the process's CPU
 time, which waiting for a shared CPU does not inflate; the wall-clock ratio
 is given beside it. "Ready to compute" means the import plus the first use of
-the core (case model, engine, findings, measures), which is what a notebook's
+the core (case model, engine, flags, measures), which is what a notebook's
 first cell pays.
 """
 

@@ -52,7 +52,7 @@ def bench_large_case_files() -> list[dict]:
                          "target": f"< {TARGET_S:g} s", "ok": t_load < TARGET_S,
                          "note": f"{size_mb:.1f} MB; json.loads alone {t_parse:.2f} s "
                                  f"({t_load / t_parse:.1f}x)"})
-            rows.append({"name": f"update + findings, {label}", "value": t_update, "unit": "s",
+            rows.append({"name": f"update + flags, {label}", "value": t_update, "unit": "s",
                          "target": "-", "ok": None, "note": ""})
             rows.append({"name": f"save case file, {label}", "value": t_save, "unit": "s",
                          "target": "-", "ok": None, "note": "atomic write with fsync"})

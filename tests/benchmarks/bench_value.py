@@ -83,7 +83,7 @@ def bench_rank_next_evidence() -> list[dict]:
     return [
         {"name": "rank_next_evidence, 30 pending items x 20 hyp, loss table of 5 actions",
          "value": t_rank * 1e3, "unit": "ms", "target": "< 20 ms", "ok": t_rank < 0.020,
-         "note": f"of which the update with findings {t_update * 1e3:.2f} ms; per-item loop "
+         "note": f"of which the update with flags {t_update * 1e3:.2f} ms; per-item loop "
                  f"{t_loop * 1e3:.2f} ms ({t_loop / t_rank:.1f}x the whole ranking)"},
         {"name": "rank_next_evidence, same case, no loss table", "value": t_info * 1e3,
          "unit": "ms", "target": "< 20 ms", "ok": t_info < 0.020, "note": ""},

@@ -69,7 +69,7 @@ def _load() -> str:
 
 
 def bench_kernel_dropdown_change():
-    """20 x 30 case: a scenario or observed-state change -> trace, chart data, views."""
+    """20 x 30 case: a scenario or observed-state change -> ledger, chart data, views."""
     case = synthetic_case()
     wb = bl.Workbench(case)
     names = case.scenario_names
@@ -83,28 +83,28 @@ def bench_kernel_dropdown_change():
     full, worst = _median_ms(scenario_change, 40)
     assert wb.recomputes == recomputes + 41, "one change must cause exactly one recompute"
 
-    # the part the target names: recomputed trace plus refreshed chart data, measured
+    # the part the target names: recomputed ledger plus refreshed chart data, measured
     # on a bare feed whose one subscriber rebuilds the three charts' tables
-    from beliefledger import charts
-    from beliefledger.widgets._base import TraceFeed
+    from beliefledger import chartdata, charts
+    from beliefledger.widgets._base import LedgerFeed
 
     bare = synthetic_case()
-    feed = TraceFeed(bare)
+    feed = LedgerFeed(bare)
 
-    def tables(trace):
-        charts.waterfall_data(trace)
-        charts.probability_path_data(trace)
-        charts.prior_posterior_data(trace, feed.scenario_traces, max_bars=15)
+    def tables(ledger):
+        chartdata.waterfall_data(ledger)
+        chartdata.probability_path_data(ledger)
+        chartdata.prior_posterior_data(ledger, feed.scenario_ledgers, max_bars=15)
 
     feed.subscribe(tables)
     bare_names = bare.scenario_names
 
-    def trace_and_data(i):
+    def ledger_and_data(i):
         now = bare_names.index(bare.active_scenario)
         bare.use_scenario(bare_names[(now + 1) % len(bare_names)])
 
-    trace_and_data(0)
-    core, _ = _median_ms(trace_and_data, 40)
+    ledger_and_data(0)
+    core, _ = _median_ms(ledger_and_data, 40)
     states = ["low", "mid", "high", None]
 
     def observe_data(i):
@@ -119,9 +119,9 @@ def bench_kernel_dropdown_change():
 
     obs, _ = _median_ms(observe_change, 40)
     return [
-        {"name": "kernel: scenario dropdown -> trace + chart data (20x30)", "value": core,
+        {"name": "kernel: scenario dropdown -> ledger + chart data (20x30)", "value": core,
          "unit": "ms", "target": "< 30 ms median", "ok": core < 30,
-         "note": f"CPU {CPU['trace_and_data']:.1f} ms ({_load()}); findings for the new "
+         "note": f"CPU {CPU['ledger_and_data']:.1f} ms ({_load()}); flags for the new "
                  "scenario and the three charts' tables; an edit that changes numbers (engine "
                  f"run per scenario + tables) takes {core_obs:.1f} ms, CPU "
                  f"{CPU['observe_data']:.1f} ms"},

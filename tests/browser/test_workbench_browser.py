@@ -106,11 +106,11 @@ def _expected(scenario: str, observe: tuple[str, str] | None = None):
     return case.update()
 
 
-def _assert_shows(shown: dict, trace) -> None:
+def _assert_shows(shown: dict, ledger) -> None:
     assert shown is not None, "the page showed no posterior"
-    assert shown["map"] == trace.map_hypothesis, shown["text"]
-    assert shown["map_p"] == f"P = {fmt_p(float(trace.posterior[trace.map_hypothesis]))}"
-    assert shown["posterior"] == {h: fmt_p(float(p)) for h, p in trace.posterior.items()}
+    assert shown["map"] == ledger.map_hypothesis, shown["text"]
+    assert shown["map_p"] == f"P = {fmt_p(float(ledger.posterior[ledger.map_hypothesis]))}"
+    assert shown["posterior"] == {h: fmt_p(float(p)) for h, p in ledger.posterior.items()}
 
 
 def test_workbench_runs_offline_and_follows_the_engine(browser_run):

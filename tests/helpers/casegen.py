@@ -87,7 +87,7 @@ def _weights(n: int):
     return st.lists(_WEIGHT, min_size=n, max_size=n)
 
 
-def _normalised(w: list[float]) -> list[float]:
+def _normalized(w: list[float]) -> list[float]:
     if sum(w) <= 0:
         w = [1.0] + w[1:]
     total = math.fsum(w)
@@ -97,7 +97,7 @@ def _normalised(w: list[float]) -> list[float]:
 @functools.cache
 def distributions(n: int):
     """``n`` non-negative numbers summing to 1 (some exact zeros)."""
-    return _weights(n).map(_normalised)
+    return _weights(n).map(_normalized)
 
 
 json_leaf = st.one_of(st.none(), st.booleans(), st.integers(-10**6, 10**6),
@@ -157,7 +157,7 @@ def case_dicts(draw, max_hypotheses: int = 6, max_evidence: int = 5,
         e: dict[str, Any] = {"name": ename, "states": states, "likelihoods": lik,
                              "observed": observed}
         if only or draw(st.booleans()):
-            e["observed_only"] = only
+            e["likelihood_evidence"] = only
         if draw(st.booleans()):
             e["shared_source"] = draw(st.sampled_from(["panel A", "lab B", "witness"]))
         if draw(st.booleans()):
@@ -277,7 +277,7 @@ def _singular(tokens: set[str]) -> set[str]:
                             ("states", "state"), ("scenarios", "scenario"),
                             ("assumptions", "assumption"), ("entry_sources", "entry source"),
                             ("shared_source", "shared-source"), ("active_scenario", "scenario"),
-                            ("observed_only", "observed")):
+                            ("likelihood_evidence", "observed")):
             if t == plural:
                 extra.add(one)
     return tokens | extra

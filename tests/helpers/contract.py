@@ -1,6 +1,6 @@
 """The contract every input must meet, checked by the fuzz tests.
 
-A case file either loads and computes (a trace with no NaN anywhere, a
+A case file either loads and computes (a ledger with no NaN anywhere, a
 posterior that sums to 1 or a ``prior-sum`` error saying why not, and a save
 that loads back to the same case), or it is refused with a beliefledger
 ``CaseError``/``CaseTypeError`` (``ValueError``/``TypeError`` subclasses)
@@ -19,7 +19,7 @@ import numpy as np
 
 from beliefledger import casefile
 from beliefledger.case import Case
-from beliefledger.display import case_html, trace_text
+from beliefledger.display import case_html, ledger_text
 from beliefledger.errors import CaseError, CaseTypeError
 
 ALLOWED = (CaseError, CaseTypeError)
@@ -55,28 +55,28 @@ def check_refusal(exc: BaseException, tokens: Iterable[str], what: str) -> None:
 
 
 def check_computes(case: Case, what: str) -> None:
-    """The case computes: finite, NaN-free trace; displays; survives a save and load."""
-    trace = case.update()
-    steps = trace.steps.to_numpy(dtype=float)
+    """The case computes: finite, NaN-free ledger; displays; survives a save and load."""
+    ledger = case.update()
+    steps = ledger.steps.to_numpy(dtype=float)
     if np.isnan(steps).any():
-        raise ContractBroken(f"{what}: NaN in the trace steps\n{trace.steps}")
-    if np.isnan(trace.log_steps).any():
+        raise ContractBroken(f"{what}: NaN in the ledger steps\n{ledger.steps}")
+    if np.isnan(ledger.log_steps).any():
         raise ContractBroken(f"{what}: NaN in the log steps")
-    post = trace.posterior.to_numpy(dtype=float)
-    total_prior = float(trace.priors.sum())
+    post = ledger.posterior.to_numpy(dtype=float)
+    total_prior = float(ledger.priors.sum())
     if total_prior > 0:
         if not math.isclose(post.sum(), 1.0, abs_tol=1e-9):
             raise ContractBroken(f"{what}: posterior sums to {post.sum()!r}")
-    elif not any(f.code == "prior-sum" and f.severity == "error" for f in trace.findings):
-        raise ContractBroken(f"{what}: all priors zero but no prior-sum error finding")
-    if trace.map_hypothesis not in case.hypothesis_names:
-        raise ContractBroken(f"{what}: MAP {trace.map_hypothesis!r} is not a hypothesis")
-    if np.isnan(trace.evidence_probability.to_numpy(dtype=float)).any():
+    elif not any(f.code == "prior-sum" and f.severity == "error" for f in ledger.flags):
+        raise ContractBroken(f"{what}: all priors zero but no prior-sum error flag")
+    if ledger.map_hypothesis not in case.hypothesis_names:
+        raise ContractBroken(f"{what}: MAP {ledger.map_hypothesis!r} is not a hypothesis")
+    if np.isnan(ledger.evidence_probability.to_numpy(dtype=float)).any():
         raise ContractBroken(f"{what}: NaN evidence probability")
-    for f in trace.findings:
+    for f in ledger.flags:
         if not isinstance(f.message, str) or not f.message:
-            raise ContractBroken(f"{what}: finding {f.code} has no message")
-    trace_text(trace)
+            raise ContractBroken(f"{what}: flag {f.code} has no message")
+    ledger_text(ledger)
     case_html(case)
     again = casefile.loads(casefile.dumps(case))
     if again.to_dict() != case.to_dict():

@@ -147,9 +147,9 @@ def draw_edit(data, case: Case) -> tuple[str, Callable[[], Any], set[str]]:
     if method == "set_prior":
         p = d(probs)
         reb = d(st.booleans())
-        return (f"set_prior({h!r:.40}, {p!r:.30}, rebalance={reb})",
-                lambda: case.set_prior(h, p, source=src, rebalance=reb),
-                words | {"prior", "rebalance"})
+        return (f"set_prior({h!r:.40}, {p!r:.30}, rescale={reb})",
+                lambda: case.set_prior(h, p, source=src, rescale=reb),
+                words | {"prior", "rescale"})
     if method == "set_priors":
         m = d(prior_maps(hyps))
         norm = d(st.booleans())
@@ -168,7 +168,7 @@ def draw_edit(data, case: Case) -> tuple[str, Callable[[], Any], set[str]]:
         p = d(probs)
         lik: Any = {}
         for name, item in case.evidence.items():
-            if item.observed_only:
+            if item.likelihood_evidence:
                 lik[name] = d(probs)
             else:
                 lik[name] = d(columns(item.states))
@@ -211,9 +211,9 @@ def draw_edit(data, case: Case) -> tuple[str, Callable[[], Any], set[str]]:
             lik = {hh: d(probs) for hh in hyps}
             if d(st.booleans()):
                 lik = d(prior_maps(hyps))
-            return (f"add_evidence({name!r:.40}, observed_only, {lik!r:.80}, observed={observed!r:.30})",
+            return (f"add_evidence({name!r:.40}, likelihood_evidence, {lik!r:.80}, observed={observed!r:.30})",
                     lambda: case.add_evidence(name, likelihoods=lik, observed=observed,
-                                              observed_only=True, source=src, description=desc),
+                                              likelihood_evidence=True, source=src, description=desc),
                     w)
         if method == "add_conditional_evidence":
             parent = e
@@ -267,7 +267,7 @@ def draw_edit(data, case: Case) -> tuple[str, Callable[[], Any], set[str]]:
                 lambda: case.set_likelihood(e, h, value, source=src, normalize=norm),
                 words | {"likelihood", "state"})
     if method == "set_likelihoods":
-        lik = d(tables(hyps, ev_states)) if ev is None or not ev.observed_only else {
+        lik = d(tables(hyps, ev_states)) if ev is None or not ev.likelihood_evidence else {
             hh: d(probs) for hh in hyps}
         norm = d(st.booleans())
         return (f"set_likelihoods({e!r:.40}, {lik!r:.100}, normalize={norm})",

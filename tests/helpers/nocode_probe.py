@@ -40,7 +40,7 @@ def main() -> int:
     sys.addaudithook(hook)
     case = bl.load_case(case_file)
     case.update()
-    display.trace_text(case.update())
+    display.ledger_text(case.update())
     display.case_html(case)
     result = verify(record)
     text = result.text()

@@ -62,14 +62,14 @@ def executed_notebook(cases: list[bl.Case], *, heading: str = "Conveyor stoppage
             "outputs": [{"output_type": "execute_result", "execution_count": n,
                          "metadata": {}, "data": _bundle(case)}]})
         n += 1
-        trace = case.update()
+        ledger = case.update()
         cells.append({
-            "cell_type": "code", "id": f"trace-{k}", "metadata": {}, "execution_count": n,
-            "source": "trace = case.update()\nprint(trace.map_hypothesis)\ntrace",
+            "cell_type": "code", "id": f"ledger-{k}", "metadata": {}, "execution_count": n,
+            "source": "ledger = case.update()\nprint(ledger.map_hypothesis)\nledger",
             "outputs": [{"output_type": "stream", "name": "stdout",
-                         "text": f"{trace.map_hypothesis}\n"},
+                         "text": f"{ledger.map_hypothesis}\n"},
                         {"output_type": "execute_result", "execution_count": n,
-                         "metadata": {}, "data": _bundle(trace)}]})
+                         "metadata": {}, "data": _bundle(ledger)}]})
     # code that must never run outside a seal: verify, diff and the loaders read it as text
     cells.append({"cell_type": "code", "id": "payload", "metadata": {}, "execution_count": n + 1,
                   "source": PAYLOAD, "outputs": []})

@@ -4,7 +4,7 @@ Reads records as plain JSON (no nbformat). For each pair of cases (matched
 by title; a single case on each side is paired whatever its title) it lists
 hypotheses added, removed or renamed; priors (per scenario), likelihood
 entries, observed states and sources changed (old -> new); evidence and
-scenarios added or removed; findings that appeared or cleared; and the
+scenarios added or removed; flags that appeared or cleared; and the
 posterior and MAP changes under each side's active scenario.
 """
 
@@ -21,7 +21,7 @@ POSTERIOR_TOL = 5e-5
 """Posterior changes smaller than this (half the last shown digit of 4) are not listed."""
 
 SECTIONS = ("case", "hypotheses", "priors", "evidence", "likelihoods", "sources", "scenarios",
-            "assumptions", "findings", "results")
+            "assumptions", "flags", "results")
 
 
 @dataclass(frozen=True)
@@ -298,14 +298,14 @@ def diff_cases(old, new, *, label: str = "") -> list[Change]:
                 "(now set)" if k in new.extras and kind == "changed" else None)
     # results
     to, tn = update(old), update(new)
-    fo = {(f.code, f.where): f for f in to.findings}
-    fn = {(f.code, f.where): f for f in tn.findings}
+    fo = {(f.code, f.where): f for f in to.flags}
+    fn = {(f.code, f.where): f for f in tn.flags}
     for key, f in fn.items():
         if key not in fo:
-            add("findings", "appeared", f"{f.severity} {f.code}", None, f.message)
+            add("flags", "appeared", f"{f.severity} {f.code}", None, f.message)
     for key, f in fo.items():
         if key not in fn:
-            add("findings", "cleared", f"{f.severity} {f.code}", f.message)
+            add("flags", "cleared", f"{f.severity} {f.code}", f.message)
     if renames.get(to.map_hypothesis, to.map_hypothesis) != tn.map_hypothesis:
         add("results", "changed", "MAP hypothesis",
             f"{to.map_hypothesis} ({to.posterior[to.map_hypothesis]:.4f})",

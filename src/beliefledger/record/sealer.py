@@ -2,7 +2,7 @@
 
 The sealed notebook keeps the analyst's cells and their fresh outputs,
 adds a generated record section (front matter, cautions, assumption
-register, findings, trace, charts, analyses, environment) and a manifest of
+register, flags, ledger, charts, analyses, environment) and a manifest of
 SHA-256 digests with one root digest over them all. A self-contained HTML
 copy is written beside it. Volatile metadata (widget state, timings, kernel
 ids) is stripped, so two seals of the same inputs differ only in the seal
@@ -223,7 +223,7 @@ def build_record(nb: dict[str, Any], *, notebook_name: str, sealed_at: str | Non
     cases = collect_cases(cells)
     for item in cases:
         case = item["case"]
-        item["trace"] = update(case)
+        item["ledger"] = update(case)
         results = {"base": update(case, scenario="base").to_dict()}
         for sname in case.scenario_names:
             if sname != "base":

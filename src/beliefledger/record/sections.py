@@ -19,7 +19,7 @@ from collections.abc import Mapping, Sequence
 from importlib import metadata as _md
 from typing import Any
 
-from ..display import esc, findings_html, trace_html
+from ..display import esc, flags_html, ledger_html
 from .canonical import META_KEY, RECORD_ROLE, ROLE_KEY
 
 ENV_PACKAGES = ("beliefledger", "numpy", "scipy", "pandas", "altair", "vl-convert-python",
@@ -94,7 +94,7 @@ def _src_cells(src) -> list[str]:
 
 def assumption_register_html(case) -> str:
     """Every prior (per scenario) and likelihood entry with its Source, plus the
-    recorded assumptions (normalisations, rebalances) and the extras sections."""
+    recorded assumptions (normalizations, rescales) and the extras sections."""
     parts = [f"<h3>{esc(case.title)}</h3>"]
     rows = []
     for h in case.hypotheses.values():
@@ -118,13 +118,13 @@ def assumption_register_html(case) -> str:
     parts.append(table(["evidence", "state", "", "hypothesis", "P", "where", "who", "when",
                         "why"], erows) if erows else "<p>No evidence items.</p>")
     irows = [[ev.name, ev.observed if ev.observed is not None else "pending",
-              "likelihood vector" if ev.observed_only else f"{len(ev.states)} states",
+              "likelihood evidence" if ev.likelihood_evidence else f"{len(ev.states)} states",
               ev.shared_source or "", ev.description] for ev in case.evidence.values()]
     if irows:
         parts.append("<h4>Evidence items</h4>")
         parts.append(table(["evidence", "observed state", "kind", "shared-source tag",
                             "description"], irows))
-    parts.append("<h4>Recorded assumptions (normalisations, rebalances, fitted values)</h4>")
+    parts.append("<h4>Recorded assumptions (normalizations, rescales, fitted values)</h4>")
     if case.assumptions:
         parts.append(table(["kind", "target", "detail"],
                            [[a.get("kind", ""), a.get("target", ""), a.get("detail", "")]
@@ -257,7 +257,7 @@ def analyses(case) -> list[tuple[str, str]]:
     return out
 
 
-def chart_svgs(trace, case) -> tuple[list[tuple[str, str]], str | None]:
+def chart_svgs(ledger, case) -> tuple[list[tuple[str, str]], str | None]:
     """(alt text, svg) for the waterfall, probability path and prior/posterior charts;
     or an explanation when the chart layer is not installed."""
     try:
@@ -266,15 +266,15 @@ def chart_svgs(trace, case) -> tuple[list[tuple[str, str]], str | None]:
         return [], f"charts not drawn: {exc}"
     wanted = [
         ("waterfall: how each evidence item moved belief in the MAP hypothesis",
-         "waterfall", (trace,), {}),
-        ("probability path: each hypothesis after each step", "probability_path", (trace,), {}),
+         "waterfall", (ledger,), {}),
+        ("probability path: each hypothesis after each step", "probability_path", (ledger,), {}),
     ]
     if case.scenarios:
         from ..engine import update
 
         others = {name: update(case, scenario=name)
-                  for name in case.scenario_names if name != trace.scenario}
-        wanted.append(("prior and posterior under each scenario", "prior_posterior", (trace,),
+                  for name in case.scenario_names if name != ledger.scenario}
+        wanted.append(("prior and posterior under each scenario", "prior_posterior", (ledger,),
                        {"scenarios": others}))
     svgs = []
     notes = []
@@ -341,17 +341,17 @@ def record_cells(header: Mapping[str, Any], cases: list[dict[str, Any]],
     cells.append(_out_cell("assumption-register",
                            [html_output(assumption_register_html(c), f"assumption register of "
                                         f"{c.title!r}") for c in objs]))
-    find_out, trace_out, chart_out, analysis_out = [], [], [], []
+    find_out, ledger_out, chart_out, analysis_out = [], [], [], []
     for item in cases:
-        case, trace = item["case"], item["trace"]
-        find_out.append(html_output(f"<h3>{esc(case.title)}</h3>" + findings_html(trace.findings),
-                                    f"{len(trace.findings)} findings for {case.title!r}"))
-        body = trace_html(trace)
+        case, ledger = item["case"], item["ledger"]
+        find_out.append(html_output(f"<h3>{esc(case.title)}</h3>" + flags_html(ledger.flags),
+                                    f"{len(ledger.flags)} flags for {case.title!r}"))
+        body = ledger_html(ledger)
         if len(item["results"]) > 1:
             body += "<h4>Posterior under each prior scenario</h4>" + scenario_table_html(
                 case, item["results"])
-        trace_out.append(html_output(body, repr(trace)))
-        svgs, note = chart_svgs(trace, case)
+        ledger_out.append(html_output(body, repr(ledger)))
+        svgs, note = chart_svgs(ledger, case)
         chart_out.append(html_output(f"<h3>{esc(case.title)}</h3>"
                                      + (f"<p>{esc(note)}</p>" if note else ""),
                                      case.title))
@@ -359,12 +359,12 @@ def record_cells(header: Mapping[str, Any], cases: list[dict[str, Any]],
         for heading, body in analyses(case):
             analysis_out.append(html_output(f"<h3>{esc(case.title)}: {esc(heading)}</h3>{body}",
                                             heading))
-    cells.append(_md_cell("findings", "## Findings\n\nWhat the diagnostics flag for a "
+    cells.append(_md_cell("flags", "## Review flags\n\nWhat the checks flag for a "
                           "reviewer (zero priors, eliminated hypotheses, shared sources...)."))
-    cells.append(_out_cell("findings", find_out))
-    cells.append(_md_cell("trace", "## Trace\n\nThe probability of each hypothesis after each "
+    cells.append(_out_cell("flags", find_out))
+    cells.append(_md_cell("ledger", "## Ledger\n\nThe probability of each hypothesis after each "
                           "evidence step, under the active prior scenario."))
-    cells.append(_out_cell("trace", trace_out))
+    cells.append(_out_cell("ledger", ledger_out))
     cells.append(_md_cell("charts", "## Charts\n\nStatic images drawn at sealing."))
     cells.append(_out_cell("charts", chart_out))
     if analysis_out:

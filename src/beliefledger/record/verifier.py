@@ -9,7 +9,7 @@ installed versions differ from the sealed environment.
 
 Tolerance of the reproduction check: every step probability must agree
 within ``RESULT_TOL`` (absolute); the MAP and maximum-likelihood hypotheses,
-the stop step and the set of findings (code, severity, where) must be equal.
+the stop step and the set of flags (code, severity, where) must be equal.
 """
 
 from __future__ import annotations
@@ -225,14 +225,14 @@ def _compare_results(title: str, scen: str, old: dict[str, Any], new: dict[str, 
 
     def fset(res):
         return sorted((f.get("code"), f.get("severity"), f.get("where"))
-                      for f in res.get("findings", []) if isinstance(f, dict))
+                      for f in res.get("flags", []) if isinstance(f, dict))
 
     fo, fn = fset(old), fset(new)
     if fo != fn:
         gone = [f"{c} ({w})" for c, _, w in fo if (c, _, w) not in fn]
         new_f = [f"{c} ({w})" for c, _, w in fn if (c, _, w) not in fo]
         out.append(Problem("results-differ", where,
-                           "findings differ: " + "; ".join(
+                           "flags differ: " + "; ".join(
                                ([f"sealed only: {', '.join(gone)}"] if gone else [])
                                + ([f"recomputed only: {', '.join(new_f)}"] if new_f else []))))
     return out

@@ -1,11 +1,11 @@
-"""Shared pieces of the notebook views: the trace feed, the status area, styles.
+"""Shared pieces of the notebook views: the ledger feed, the status area, styles.
 
-A :class:`TraceFeed` is the one place where a case is recomputed. It
+A :class:`LedgerFeed` is the one place where a case is recomputed. It
 listens to ``case.on_change`` once, runs ``case.update()`` once per
-successful edit (plus each scenario's trace for the robustness line and the
+successful edit (plus each scenario's ledger for the robustness line and the
 chart overlay; a mere switch of scenario reuses those), and hands the new
-trace to every view that subscribed. All views of one case share one feed
-(:meth:`TraceFeed.shared`), and views never call the engine themselves, so
+ledger to every view that subscribed. All views of one case share one feed
+(:meth:`LedgerFeed.shared`), and views never call the engine themselves, so
 one user action costs exactly one recompute however many views are on
 screen; ``feed.recomputes`` counts them.
 
@@ -29,11 +29,11 @@ import ipywidgets as W
 from ..display import esc
 from ..engine import update
 from ..errors import CaseError, CaseTypeError
-from ..findings import diagnose
+from ..flags import diagnose
 
 if TYPE_CHECKING:  # pragma: no cover
     from ..case import Case
-    from ..engine import Trace
+    from ..engine import Ledger
 
 STYLE = """<style>
 .bl-w { font-family: "DejaVu Sans", Verdana, sans-serif; font-size: 13px; }
@@ -51,9 +51,9 @@ STYLE = """<style>
 .bl-table { border-collapse: collapse; font-size: 12px; }
 .bl-table th, .bl-table td { padding: 2px 6px; border-bottom: 1px solid #ddd; text-align: right; }
 .bl-table th:first-child, .bl-table td:first-child { text-align: left; }
-.bl-findings { margin: 2px 0; padding-left: 1.2em; font-size: 12px; }
-.bl-finding.bl-error { color: #7a2600; }
-.bl-finding.bl-warning { color: #6b3b00; }
+.bl-flags { margin: 2px 0; padding-left: 1.2em; font-size: 12px; }
+.bl-flag.bl-error { color: #7a2600; }
+.bl-flag.bl-warning { color: #6b3b00; }
 .bl-caution { font-size: 12px; color: #444; border-left: 4px solid #999; padding-left: 6px; }
 .bl-posterior b { font-size: 14px; }
 .bl-robustness { font-size: 12px; }
@@ -96,8 +96,8 @@ def check_case(case: Any, who: str) -> None:
                             "build one with bl.Case(...) or bl.load_case(path)")
 
 
-class TraceFeed:
-    """Recomputes a case's trace once per successful edit and tells the views.
+class LedgerFeed:
+    """Recomputes a case's ledger once per successful edit and tells the views.
 
     Parameters
     ----------
@@ -108,8 +108,8 @@ class TraceFeed:
 
     Attributes
     ----------
-    trace : Trace
-        The trace of the case as it is now (under its active scenario).
+    ledger : Ledger
+        The ledger of the case as it is now (under its active scenario).
     scenario_maps : dict
         Scenario name -> MAP hypothesis under it, for the robustness line.
     recomputes : int
@@ -119,29 +119,29 @@ class TraceFeed:
     """
 
     def __init__(self, case: Case, status: StatusArea | None = None) -> None:
-        check_case(case, "TraceFeed")
+        check_case(case, "LedgerFeed")
         self.case = case
         self.status = status if status is not None else StatusArea()
         self._shared = False
-        self._subscribers: list[tuple[Callable[[Trace], None], StatusArea | None]] = []
+        self._subscribers: list[tuple[Callable[[Ledger], None], StatusArea | None]] = []
         self.recomputes = 0
         self.last_seconds = 0.0
         self.last_error: str | None = None
-        self.trace: Trace = None  # type: ignore[assignment]
+        self.ledger: Ledger = None  # type: ignore[assignment]
         self.scenario_maps: dict[str, str] = {}
-        self.scenario_traces: dict[str, Trace] = {}
+        self.scenario_ledgers: dict[str, Ledger] = {}
         self._compute()
         self._unsubscribe = case.on_change(self._on_change)
 
     @classmethod
-    def shared(cls, case: Case) -> TraceFeed:
+    def shared(cls, case: Case) -> LedgerFeed:
         """The one feed of ``case`` that every view shares (created on first use).
 
         However many views show a case (a workbench, a standalone editor, a
         cell run twice), an edit is then recomputed once. The feed lets go of
         the case when its last view is closed.
         """
-        check_case(case, "TraceFeed")
+        check_case(case, "LedgerFeed")
         feed = _SHARED.get(case)
         if feed is None:
             feed = cls(case)
@@ -149,9 +149,9 @@ class TraceFeed:
             _SHARED[case] = feed
         return feed
 
-    def subscribe(self, callback: Callable[[Trace], None],
+    def subscribe(self, callback: Callable[[Ledger], None],
                   status: StatusArea | None = None) -> Callable[[], None]:
-        """Call ``callback(trace)`` after each recompute; returns an unsubscribe.
+        """Call ``callback(ledger)`` after each recompute; returns an unsubscribe.
 
         ``status`` (the view's status area) also shows an unexpected error
         raised while refreshing any view.
@@ -177,30 +177,30 @@ class TraceFeed:
         return out
 
     def _compute(self, what: str | None = None) -> None:
-        """Recompute the trace (and each scenario's, for the robustness line).
+        """Recompute the ledger (and each scenario's, for the robustness line).
 
         Switching the active scenario changes no number in the case, so on a
-        ``what == "scenario"`` edit the scenario traces already computed are
-        reused: the new active trace is the stored one for that scenario,
-        given its findings by :func:`beliefledger.findings.diagnose`.
+        ``what == "scenario"`` edit the scenario ledgers already computed are
+        reused: the new active ledger is the stored one for that scenario,
+        given its flags by :func:`beliefledger.flags.diagnose`.
         """
         case = self.case
         names = case.scenario_names
         active = case.active_scenario
-        cached = self.scenario_traces
+        cached = self.scenario_ledgers
         if what == "scenario" and set(cached) == set(names) and active in cached:
-            trace = cached[active]
-            if not trace.findings and trace is not self.trace:
-                trace.findings = diagnose(case, trace)
-            self.trace = trace
-            self.scenario_traces = {n: cached[n] for n in names}
+            ledger = cached[active]
+            if not ledger.flags and ledger is not self.ledger:
+                ledger.flags = diagnose(case, ledger)
+            self.ledger = ledger
+            self.scenario_ledgers = {n: cached[n] for n in names}
         else:
-            self.trace = update(case)
-            self.scenario_traces = {
-                n: self.trace if n == active else update(case, scenario=n,
-                                                         diagnose_findings=False)
+            self.ledger = update(case)
+            self.scenario_ledgers = {
+                n: self.ledger if n == active else update(case, scenario=n,
+                                                         with_flags=False)
                 for n in names}
-        self.scenario_maps = {n: t.map_hypothesis for n, t in self.scenario_traces.items()}
+        self.scenario_maps = {n: t.map_hypothesis for n, t in self.scenario_ledgers.items()}
         self.recomputes += 1
 
     def _on_change(self, case: Case, what: str) -> None:
@@ -208,7 +208,7 @@ class TraceFeed:
         try:
             self._compute(what)
             for cb, _ in list(self._subscribers):
-                cb(self.trace)
+                cb(self.ledger)
             self.last_error = None
         except Exception as exc:  # a bug in a view must be seen, never swallowed
             self.last_error = "".join(traceback.format_exception_only(type(exc), exc)).strip()
@@ -219,7 +219,7 @@ class TraceFeed:
 
     def robustness_line(self) -> str:
         """'MAP unchanged under k of n scenarios', naming the scenarios that differ."""
-        ref = self.trace.map_hypothesis
+        ref = self.ledger.map_hypothesis
         maps = self.scenario_maps
         if len(maps) < 2:
             return (f"MAP '{ref}' under the only prior scenario; add scenarios with "
@@ -237,7 +237,7 @@ class TraceFeed:
             del _SHARED[self.case]
 
     def __repr__(self) -> str:
-        return (f"TraceFeed({self.case.title!r}: {self.recomputes} recomputes, "
+        return (f"LedgerFeed({self.case.title!r}: {self.recomputes} recomputes, "
                 f"{len(self._subscribers)} views)")
 
 
@@ -247,22 +247,22 @@ _SHARED: weakref.WeakKeyDictionary = weakref.WeakKeyDictionary()
 class CaseView(W.VBox):
     """Base of every beliefledger view: a VBox bound to a case through a feed."""
 
-    def __init__(self, case: Case, *, feed: TraceFeed | None = None,
+    def __init__(self, case: Case, *, feed: LedgerFeed | None = None,
                  status: StatusArea | None = None, **kwargs: Any) -> None:
         check_case(case, type(self).__name__)
         super().__init__(**kwargs)
         self.case = case
         self._own_feed = feed is None  # standalone: shows its own status area
         self.status = status if status is not None else StatusArea()
-        self.feed = feed if feed is not None else TraceFeed.shared(case)
+        self.feed = feed if feed is not None else LedgerFeed.shared(case)
         self._syncing = False
         self.add_class("bl-w")
-        self._unsubscribe = self.feed.subscribe(self._on_trace, self.status)
+        self._unsubscribe = self.feed.subscribe(self._on_ledger, self.status)
 
     @property
-    def trace(self) -> Trace:
-        """The trace this view currently shows."""
-        return self.feed.trace
+    def ledger(self) -> Ledger:
+        """The ledger this view currently shows."""
+        return self.feed.ledger
 
     # editing ------------------------------------------------------------
     def _apply(self, what: str, fn: Callable[..., Any], *args: Any, **kwargs: Any) -> bool:
@@ -290,14 +290,14 @@ class CaseView(W.VBox):
         self._syncing = True
         try:
             with self.hold_sync():
-                self._render(self.feed.trace)
+                self._render(self.feed.ledger)
         finally:
             self._syncing = False
 
-    def _on_trace(self, trace: Trace) -> None:
+    def _on_ledger(self, ledger: Ledger) -> None:
         self.sync()
 
-    def _render(self, trace: Trace) -> None:  # pragma: no cover - abstract
+    def _render(self, ledger: Ledger) -> None:  # pragma: no cover - abstract
         raise NotImplementedError
 
     def close(self) -> None:
@@ -332,5 +332,5 @@ def fmt_p(p: float) -> str:
     return f"{p:.4f}"
 
 
-__all__ = ["TraceFeed", "StatusArea", "CaseView", "STYLE", "style_widget", "set_if_changed",
+__all__ = ["LedgerFeed", "StatusArea", "CaseView", "STYLE", "style_widget", "set_if_changed",
            "fmt_p", "check_case"]

@@ -15,7 +15,7 @@ from ._base import CaseView, set_if_changed
 if TYPE_CHECKING:  # pragma: no cover
     import pandas as pd
 
-    from ..engine import Trace
+    from ..engine import Ledger
 
 NOT_OBSERVED = ""  # dropdown value for "not yet observed" (state names are never empty)
 NOT_OBSERVED_LABEL = "(not yet observed)"
@@ -150,7 +150,7 @@ class EvidenceEditor(CaseView):
         return self._apply(what, self.case.set_likelihoods, ev, table, normalize=normalize)
 
     # rendering ------------------------------------------------------------------------
-    def _render(self, trace: Trace) -> None:
+    def _render(self, ledger: Ledger) -> None:
         case = self.case
         names = case.evidence_names
         options = list(names)
@@ -169,11 +169,11 @@ class EvidenceEditor(CaseView):
         desc = f"<br><i>{esc(ev.description)}</i>" if ev.description else ""
         tag = (f"<br>shared-source tag: <b>{esc(ev.shared_source)}</b>"
                if ev.shared_source else "")
-        kind = ("likelihood vector (observed state only; entries need not sum to 1)"
-                if ev.observed_only else f"{len(ev.states)} states")
+        kind = ("likelihood evidence (the observed state only; only the ratios matter)"
+                if ev.likelihood_evidence else f"{len(ev.states)} states")
         self.info.value = (f"<b>{esc(ev.name)}</b>: {esc(kind)}{desc}{tag}")
         opts = [(NOT_OBSERVED_LABEL, NOT_OBSERVED)] + [(s, s) for s in ev.states]
-        if ev.observed_only:
+        if ev.likelihood_evidence:
             opts = [(s, s) for s in ev.states]
         if list(self.observed.options) != opts:
             self.observed.options = opts
@@ -201,7 +201,7 @@ class EvidenceEditor(CaseView):
             jj = start + j
             for i, s in enumerate(ev.states):
                 set_if_changed(self.cells[(s, h)], value=float(table[i, jj]))
-            ok = ev.observed_only or abs(sums[jj] - 1) <= SUM_TOL
+            ok = ev.likelihood_evidence or abs(sums[jj] - 1) <= SUM_TOL
             text = f"{sums[jj]:.6g}" if np.isfinite(sums[jj]) else "n/a"
             cls = "bl-sum-ok" if ok else "bl-sum-bad"
             flag = "" if ok else " \u2716 not 1"

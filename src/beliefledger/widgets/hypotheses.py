@@ -16,10 +16,10 @@ from ..display import esc
 from ._base import CaseView, set_if_changed
 
 if TYPE_CHECKING:  # pragma: no cover
-    from ..engine import Trace
-    from ..findings import Finding
+    from ..engine import Ledger
+    from ..flags import Flag
 
-#: short banner text per finding code shown beside a hypothesis row
+#: short banner text per flag code shown beside a hypothesis row
 BANNER_TEXT = {
     "zero-prior": "prior is 0: this hypothesis can never gain belief",
     "eliminated": "eliminated by {detail}",
@@ -69,8 +69,8 @@ class HypothesisEditor(CaseView):
     """Edit a case's hypotheses: add, remove, rename, priors with source and rationale.
 
     Shows the running sum of the base priors with a one-click explicit
-    normalise (recorded by the case as an assumption), a catch-all toggle
-    per row, and inline banners for the findings about each hypothesis
+    normalize (recorded by the case as an assumption), a catch-all toggle
+    per row, and inline banners for the flags about each hypothesis
     (a zero prior reads "this hypothesis can never gain belief").
 
     Parameters
@@ -79,7 +79,7 @@ class HypothesisEditor(CaseView):
     page_size : int
         Rows shown at a time.
     feed, status : optional
-        Share a :class:`~beliefledger.widgets._base.TraceFeed` and status area with
+        Share a :class:`~beliefledger.widgets._base.LedgerFeed` and status area with
         other views (the :class:`Workbench` does).
     """
 
@@ -96,11 +96,11 @@ class HypothesisEditor(CaseView):
                            layout=_row_layout())
         self.rows = [_Row(self) for _ in range(page_size)]
         self.sum_label = W.HTML()
-        self.normalize_button = W.Button(description="normalise priors",
+        self.normalize_button = W.Button(description="normalize priors",
                                          tooltip="rescale the base priors to sum to 1 "
                                                  "(recorded as an assumption)")
         self.normalize_button.on_click(lambda _b: self.normalize())
-        self.rebalance = W.Checkbox(value=False, indent=False,
+        self.rescale = W.Checkbox(value=False, indent=False,
                                     description="rescale the others to keep the sum at 1")
         self.scenario_note = W.HTML()
         self.prev_button = W.Button(description="\u25c0 previous", layout=W.Layout(width="110px"))
@@ -116,7 +116,7 @@ class HypothesisEditor(CaseView):
         self.children = [
             self.scenario_note, header, *[r.box for r in self.rows],
             W.HBox([self.prev_button, self.page_label, self.next_button]),
-            W.HBox([self.sum_label, self.normalize_button, self.rebalance]),
+            W.HBox([self.sum_label, self.normalize_button, self.rescale]),
             W.HBox([self.new_name, self.new_prior, self.add_button]),
         ]
         if self._own_feed:
@@ -156,9 +156,9 @@ class HypothesisEditor(CaseView):
         h = row.hypothesis
         if h is None:
             return
-        if self.rebalance.value:
+        if self.rescale.value:
             self._apply(f"prior of '{h}' set to {value:g}; the others rescaled (recorded)",
-                        self.case.set_prior, h, value, rebalance=True)
+                        self.case.set_prior, h, value, rescale=True)
         else:
             self._apply(f"prior of '{h}' set to {value:g}", self.case.set_prior, h, value)
 
@@ -205,14 +205,14 @@ class HypothesisEditor(CaseView):
         When the case already has evidence, the new hypothesis gets a neutral
         likelihood column (equal over the states) for every item, so that it
         neither gains nor loses from existing evidence until the analyst
-        enters real numbers; the status line says so. Observed-only items
+        enters real numbers; the status line says so. Likelihood evidence items
         have no neutral value, so a case with any of them refuses the add
         from here (use ``case.add_hypothesis(..., likelihoods=...)``).
         """
         evidence = self.case.evidence
-        vec = [e.name for e in evidence.values() if e.observed_only]
+        vec = [e.name for e in evidence.values() if e.likelihood_evidence]
         if vec:
-            self.status.show(f"cannot add '{name}' here: observed-only evidence {vec[:5]} needs "
+            self.status.show(f"cannot add '{name}' here: likelihood evidence evidence {vec[:5]} needs "
                              "a likelihood for it; use case.add_hypothesis(name, prior, "
                              "likelihoods={...}) in code", "error")
             return False
@@ -230,25 +230,25 @@ class HypothesisEditor(CaseView):
         return ok
 
     # rendering ----------------------------------------------------------------
-    def _banners(self, trace: Trace) -> dict[str, list[Finding]]:
-        out: dict[str, list[Finding]] = {}
-        for f in trace.findings:
+    def _banners(self, ledger: Ledger) -> dict[str, list[Flag]]:
+        out: dict[str, list[Flag]] = {}
+        for f in ledger.flags:
             if f.where.startswith("hypothesis '"):
                 name = f.where[len("hypothesis '"):].split("'")[0]
                 out.setdefault(name, []).append(f)
             elif f.code == "unsourced" and f.where == "priors":
-                # one finding lists every unsourced prior; show it beside each of them
+                # one flag lists every unsourced prior; show it beside each of them
                 for h in self.case.hypotheses.values():
                     if not h.source.is_sourced:
                         out.setdefault(h.name, []).append(f)
         return out
 
-    def _render(self, trace: Trace) -> None:
+    def _render(self, ledger: Ledger) -> None:
         case = self.case
         names = case.hypothesis_names
         self.page = min(self.page, self.page_count - 1)
         hyps = case.hypotheses
-        banners = self._banners(trace)
+        banners = self._banners(ledger)
         start = self.page * self.page_size
         shown = names[start:start + self.page_size]
         for i, row in enumerate(self.rows):
@@ -272,7 +272,7 @@ class HypothesisEditor(CaseView):
         ok = abs(total - 1) <= SUM_TOL
         self.sum_label.value = (
             f'<span class="{"bl-sum-ok" if ok else "bl-sum-bad"}">sum of priors: {total:.6g}'
-            + ("" if ok else " (must be 1: fix a prior or normalise)") + "</span>")
+            + ("" if ok else " (must be 1: fix a prior or normalize)") + "</span>")
         self.normalize_button.disabled = ok or total <= 0
         first, last = start + 1, min(start + self.page_size, len(names))
         self.page_label.value = (f"&nbsp;hypotheses {first}\u2013{last} of {len(names)} "
@@ -286,9 +286,9 @@ class HypothesisEditor(CaseView):
             f"'{esc(active)}' uses its own priors.</span>")
 
     @staticmethod
-    def _banner_html(findings: list[Finding]) -> str:
+    def _banner_html(flags: list[Flag]) -> str:
         parts = []
-        for f in findings:
+        for f in flags:
             text = BANNER_TEXT.get(f.code)
             if text is None:
                 continue
@@ -306,7 +306,7 @@ class HypothesisEditor(CaseView):
                 f"hypotheses, {sums}; page {self.page + 1} of {self.page_count})")
 
     def _repr_html_(self) -> str:
-        banners = self._banners(self.trace)
+        banners = self._banners(self.ledger)
         rows = []
         for h in self.case.hypotheses.values():
             notes = "; ".join(BANNER_TEXT.get(f.code, f.code).format(detail=f.where)
@@ -316,7 +316,7 @@ class HypothesisEditor(CaseView):
                         f"<td>{'yes' if h.catch_all else ''}</td><td>{esc(notes)}</td></tr>")
         total = float(self.case.base_priors.sum())
         return ('<div class="bl-static"><table class="bl-table"><thead><tr><th>hypothesis</th>'
-                "<th>prior</th><th>source</th><th>rationale</th><th>catch-all</th><th>findings</th>"
+                "<th>prior</th><th>source</th><th>rationale</th><th>catch-all</th><th>flags</th>"
                 f"</tr></thead><tbody>{''.join(rows)}</tbody></table>"
                 f"<p>sum of priors: {total:.6g}</p></div>")
 

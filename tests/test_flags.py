@@ -1,15 +1,15 @@
-"""Each finding fires when it should, says what a reviewer needs, and stays quiet otherwise."""
+"""Each flag fires when it should, says what a reviewer needs, and stays quiet otherwise."""
 
 from __future__ import annotations
 
 import pytest
 
 import beliefledger as bl
-from beliefledger.findings import Finding
+from beliefledger.flags import Flag
 
 
 def codes(case):
-    return [f.code for f in case.update().findings]
+    return [f.code for f in case.update().flags]
 
 
 def sourced_case(**kw):
@@ -20,9 +20,9 @@ def sourced_case(**kw):
 
 
 def test_demo_case_has_only_the_shared_source_warning(demo_case):
-    trace = demo_case.update()
-    assert [(f.code, f.severity) for f in trace.findings] == [("shared-source", "warning")]
-    msg = trace.findings[0].message
+    ledger = demo_case.update()
+    assert [(f.code, f.severity) for f in ledger.flags] == [("shared-source", "warning")]
+    msg = ledger.flags[0].message
     assert "'detector alarm order'" in msg and "'night operator's account'" in msg
     assert "decibans" in msg
 
@@ -30,7 +30,7 @@ def test_demo_case_has_only_the_shared_source_warning(demo_case):
 def test_zero_prior_message_names_cromwell():
     case = sourced_case()
     case.set_priors({"A": 0.0, "B": 0.8, "Other": 0.2})
-    (f,) = [f for f in case.update().findings if f.code == "zero-prior"]
+    (f,) = [f for f in case.update().flags if f.code == "zero-prior"]
     assert f.severity == "warning"
     assert "can never gain belief" in f.message and "Cromwell" in f.message
     assert f.where == "hypothesis 'A'"
@@ -42,14 +42,14 @@ def test_column_sum_after_a_cell_edit():
                       likelihoods={"A": [0.5, 0.5], "B": [0.5, 0.5], "Other": [0.5, 0.5]},
                       observed="x")
     case.set_likelihood("E", "B", 0.7, state="x")
-    (f,) = [f for f in case.update().findings if f.code == "column-sum"]
+    (f,) = [f for f in case.update().flags if f.code == "column-sum"]
     assert f.severity == "error" and "'E'" in f.message and "'B'" in f.message
     assert "1.2" in f.message
 
 
 def test_no_catch_all_is_info_and_silenced_by_exhaustive():
     case = bl.Case("c", {"A": {"prior": 0.5, "source": "x"}, "B": {"prior": 0.5, "source": "x"}})
-    (f,) = [f for f in case.update().findings if f.code == "no-catch-all"]
+    (f,) = [f for f in case.update().flags if f.code == "no-catch-all"]
     assert f.severity == "info"
     case.set_details(exhaustive=True)
     assert "no-catch-all" not in codes(case)
@@ -57,7 +57,7 @@ def test_no_catch_all_is_info_and_silenced_by_exhaustive():
 
 def test_near_certain_prior():
     case = bl.Case("c", {"A": 1e-8, "Other": 1 - 1e-8})
-    found = [f for f in case.update().findings if f.code == "near-certain"]
+    found = [f for f in case.update().flags if f.code == "near-certain"]
     assert {f.where for f in found} == {"hypothesis 'A'", "hypothesis 'Other'"}
 
 
@@ -65,7 +65,7 @@ def test_unsourced_numbers_are_listed():
     case = bl.Case("c", {"A": 0.5, "Other": 0.5})
     case.add_evidence("E", states=["x", "y"], likelihoods={"A": [0.9, 0.1], "Other": [0.5, 0.5]},
                       observed="x")
-    msgs = [f.message for f in case.update().findings if f.code == "unsourced"]
+    msgs = [f.message for f in case.update().flags if f.code == "unsourced"]
     assert any("prior(s) of 'A', 'Other'" in m for m in msgs)
     assert any("evidence 'E'" in m for m in msgs)
 
@@ -78,7 +78,7 @@ def test_dominant_evidence():
     case.add_evidence("strong", states=["x", "y"], source="s",
                       likelihoods={"A": [0.99, 0.01], "B": [0.05, 0.95], "Other": [0.1, 0.9]},
                       observed="x")
-    (f,) = [f for f in case.update().findings if f.code == "dominant-evidence"]
+    (f,) = [f for f in case.update().flags if f.code == "dominant-evidence"]
     assert "'strong'" in f.message and "%" in f.message
 
 
@@ -90,29 +90,29 @@ def test_shared_source_needs_two_observed_items():
     case.observe("alarm A", "on")
     assert "shared-source" not in codes(case)
     case.observe("alarm B", "on")
-    (f,) = [f for f in case.update().findings if f.code == "shared-source"]
+    (f,) = [f for f in case.update().flags if f.code == "shared-source"]
     assert "'bus 3'" in f.message and f.where == "shared source 'bus 3'"
 
 
-def test_errors_come_first_and_findings_serialise():
+def test_errors_come_first_and_flags_serialise():
     case = sourced_case()
     case.set_prior("A", 0.9)
-    trace = case.update()
-    assert trace.findings[0].severity == "error"
-    frame = trace.findings_frame()
+    ledger = case.update()
+    assert ledger.flags[0].severity == "error"
+    frame = ledger.flags_frame()
     assert list(frame.columns) == ["code", "severity", "message", "where"]
-    assert str(trace.findings[0]).startswith("[error] prior-sum:")
+    assert str(ledger.flags[0]).startswith("[error] prior-sum:")
 
 
-def test_finding_rejects_unknown_severity():
+def test_flag_rejects_unknown_severity():
     with pytest.raises(ValueError, match="severity 'fatal'"):
-        Finding("x", "fatal", "m")
+        Flag("x", "fatal", "m")
 
 
 def test_all_zero_priors_give_an_error_not_nan():
     case = sourced_case()
     for h in case.hypothesis_names:
         case.set_prior(h, 0.0)
-    trace = case.update()
-    assert not trace.posterior.isna().any()
-    assert trace.findings[0].code == "prior-sum" and "All priors" in trace.findings[0].message
+    ledger = case.update()
+    assert not ledger.posterior.isna().any()
+    assert ledger.flags[0].code == "prior-sum" and "All priors" in ledger.flags[0].message

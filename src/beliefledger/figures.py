@@ -1,24 +1,32 @@
-"""Fast SVG drawings of the three charts for the live workbench.
+"""Figures: the tool's charts drawn straight to SVG, in a millisecond or two.
 
-The altair charts of :mod:`beliefledger.charts` are the reference pictures
-(records store them as SVG made by vl-convert), but rendering one takes a
-few hundred milliseconds, too slow to repaint on every dropdown change.
-These painters draw the same tidy tables (``charts.waterfall_data`` and
-friends) in the same visual language straight to SVG text in a millisecond
-or two. Everything is static markup: no script, no external reference, and
-every piece of user text is escaped. Each mark carries a ``<title>`` so a
-browser shows its value on hover.
+The workbench repaints on every edit, ``charts.show`` and the notebook
+templates show them, and sealed records store them, so every place shows
+the same picture. Each painter draws one tidy table of
+:mod:`beliefledger.chartdata` (the same tables the altair charts of
+:mod:`beliefledger.charts` bind, for an analyst who wants to restyle one).
+Everything is static markup: no script, no external reference, every piece
+of user text escaped, and each mark carries a ``<title>`` so a browser shows
+its value on hover. Only numpy and pandas are imported.
+
+:func:`waterfall_figure`, :func:`path_figure` and
+:func:`prior_posterior_figure` take a ledger and return a :class:`Figure`,
+which a notebook shows as an image (once, as a cell's last line).
 """
 
 from __future__ import annotations
 
 import math
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 import pandas as pd
 
-from .. import charts as C
-from ..display import esc
+from . import chartdata as C
+from .display import esc
+
+if TYPE_CHECKING:  # pragma: no cover
+    from .engine import Ledger
 
 FONT = f"{C.FONT}, Verdana, sans-serif"
 
@@ -60,11 +68,28 @@ def nice_ticks(lo: float, hi: float, target: int = 6) -> list[float]:
 # --------------------------------------------------------------------------- waterfall
 
 
+def _arrow(cx: float, y0: float, y1: float, half: float, head: float) -> str:
+    """Path of an arrow from level ``y0`` to level ``y1`` (SVG y grows downwards): a
+    shaft of half-width ``half`` and a head of length ``head`` ending exactly at ``y1``."""
+    up = y1 < y0
+    length = abs(y1 - y0)
+    h = min(head, length)
+    neck = y1 + h if up else y1 - h
+    wide = half * 1.9
+    if length - h < 0.5:  # short step: the head alone
+        return (f"M{cx - wide:.1f},{y0:.1f}L{cx + wide:.1f},{y0:.1f}L{cx:.1f},{y1:.1f}Z")
+    return (f"M{cx - half:.1f},{y0:.1f}L{cx - half:.1f},{neck:.1f}L{cx - wide:.1f},{neck:.1f}"
+            f"L{cx:.1f},{y1:.1f}L{cx + wide:.1f},{neck:.1f}L{cx + half:.1f},{neck:.1f}"
+            f"L{cx + half:.1f},{y0:.1f}Z")
+
+
 def waterfall_svg(data: pd.DataFrame, *, focus: str, subtitle: str = "",
                   plot_width: float = 800) -> str:
-    """Draw :func:`beliefledger.charts.waterfall_data` output as SVG text."""
-    colours = {"prior": C.ENDPOINT_COLOUR, "posterior": C.ENDPOINT_COLOUR,
-               "for": C.SUPPORT_COLOUR, "against": C.AGAINST_COLOUR, "neutral": C.NEUTRAL_COLOUR}
+    """Draw :func:`beliefledger.chartdata.waterfall_data` output as SVG text.
+
+    The prior and the posterior are level marks (a dark bar across the column
+    with its value); each evidence item is an arrow from the level before it
+    to the level after it, up (blue) for the focus, down (vermillion) against."""
     n = len(data)
     slot = min(112.0, max(14.0, plot_width / max(n, 1)))
     left, right, top, plot_h = 64.0, 70.0, 74.0, 230.0
@@ -73,21 +98,25 @@ def waterfall_svg(data: pd.DataFrame, *, focus: str, subtitle: str = "",
     height = top + plot_h + label_h
     lo, hi = float(np.min(data["bottom_db"].to_numpy())), float(np.max(data["top_db"].to_numpy()))
     pad = max(3.0, 0.12 * (hi - lo))
-    d0, d1 = min(lo, 0.0) - pad, max(hi, 0.0) + 2.5 * pad
+    d0, d1 = min(lo, 0.0) - pad, max(hi, 0.0) + 3.2 * pad
 
     def y(v: float) -> float:
         return top + plot_h * (d1 - v) / (d1 - d0)
 
     body = _title(8, 18, f"Weight of evidence for '{_short(focus, 60)}'", subtitle)
-    body.append(f'<g font-size="11"><rect x="{left}" y="40" width="10" height="10" '
-                f'fill="{C.SUPPORT_COLOUR}"/><text x="{left + 14}" y="49">for the focus</text>'
-                f'<rect x="{left + 110}" y="40" width="10" height="10" fill="{C.AGAINST_COLOUR}"/>'
-                f'<text x="{left + 124}" y="49">against the focus</text></g>')
+    body.append(f'<g font-size="11"><path d="M{left + 5},50L{left + 5},43L{left + 2},43L{left + 6},'
+                f'38L{left + 10},43L{left + 7},43L{left + 7},50Z" fill="{C.SUPPORT_COLOUR}"/>'
+                f'<text x="{left + 16}" y="49">supports it</text>'
+                f'<path d="M{left + 105},38L{left + 105},45L{left + 102},45L{left + 106},50'
+                f'L{left + 110},45L{left + 107},45L{left + 107},38Z" fill="{C.AGAINST_COLOUR}"/>'
+                f'<text x="{left + 116}" y="49">counts against it</text>'
+                f'<rect x="{left + 232}" y="42" width="14" height="3" fill="{C.LEVEL_COLOUR}"/>'
+                f'<text x="{left + 252}" y="49">prior and posterior level</text></g>')
     x_end = left + slot * n
     for v in nice_ticks(d0, d1):
         yy = y(v)
         body.append(f'<line x1="{left}" x2="{x_end}" y1="{yy:.1f}" y2="{yy:.1f}" '
-                    f'stroke="#e6e6e6"/><text x="{left - 6}" y="{yy + 4:.1f}" '
+                    f'stroke="#ececec"/><text x="{left - 6}" y="{yy + 4:.1f}" '
                     f'text-anchor="end">{v:g}</text>')
     for p in C.PROBABILITY_TICKS:
         v = 10 * math.log10(p / (1 - p))
@@ -98,33 +127,47 @@ def waterfall_svg(data: pd.DataFrame, *, focus: str, subtitle: str = "",
     body.append(f'<line x1="{left}" x2="{left}" y1="{top}" y2="{top + plot_h}" stroke="#888"/>'
                 f'<line x1="{x_end}" x2="{x_end}" y1="{top}" y2="{top + plot_h}" stroke="#888"/>')
     body.append(f'<text transform="translate(14,{top + plot_h / 2:.0f}) rotate(-90)" '
-                f'text-anchor="middle" font-weight="bold">log-odds vs the rest (dB)</text>')
+                f'text-anchor="middle" font-weight="bold">log-odds vs the rest (decibans)</text>')
     body.append(f'<text transform="translate({width - 8:.0f},{top + plot_h / 2:.0f}) rotate(90)" '
                 f'text-anchor="middle" font-weight="bold">P({_t(_short(focus, 30))})</text>')
-    body.append(f'<line x1="{left}" x2="{x_end}" y1="{y(0):.1f}" y2="{y(0):.1f}" stroke="#666" '
-                f'stroke-dasharray="3,3"/>')
-    bar_w = max(4.0, min(28.0, slot * 0.6))
+    body.append(f'<line x1="{left}" x2="{x_end}" y1="{y(0):.1f}" y2="{y(0):.1f}" stroke="#777" '
+                f'stroke-dasharray="3,3"/><text x="{left + 4}" y="{y(0) - 3:.1f}" font-size="9" '
+                f'fill="#555">even odds</text>')
+    half = max(2.0, min(9.0, slot * 0.18))
     every = max(1, math.ceil(12 / slot))
-    cols = {c: data[c].tolist() for c in ("step", "kind", "top_db", "bottom_db", "decibans",
-                                          "verbal", "probability", "label")}
+    cols = {c: data[c].tolist() for c in ("step", "kind", "start_db", "end_db", "top_db",
+                                          "decibans", "verbal", "probability", "label")}
     for k in range(n):
         step, kind, label = cols["step"][k], cols["kind"][k], cols["label"][k]
         verbal, db, prob = cols["verbal"][k], cols["decibans"][k], cols["probability"][k]
         cx = left + slot * (k + 0.5)
-        y_top, y_bot = y(cols["top_db"][k]), y(cols["bottom_db"][k])
-        tip = (f"{step}: {db:+.2f} dB" + (f", {verbal}" if verbal else "")
-               + f"; P(focus) after = {prob:.4g}")
-        body.append(f'<rect class="bl-bar bl-{_t(kind)}" x="{cx - bar_w / 2:.1f}" '
-                    f'y="{y_top:.1f}" width="{bar_w:.1f}" height="{max(1.0, y_bot - y_top):.1f}" '
-                    f'fill="{colours[kind]}" stroke="#222" stroke-width="0.5">'
-                    f"<title>{_t(tip)}</title></rect>")
+        y_top = y(cols["top_db"][k])
+        colour = C.KIND_COLOURS[kind]
+        if kind in ("prior", "posterior"):
+            tip = f"{step}: log-odds {C.fmt_decibans(db)}; P(focus) = {prob:.4g}"
+            yl = y(cols["end_db"][k])
+            body.append(f'<rect class="bl-level bl-{_t(kind)}" x="{cx - slot * 0.36:.1f}" '
+                        f'y="{yl - 2:.1f}" width="{slot * 0.72:.1f}" height="4" '
+                        f'fill="{colour}"><title>{_t(tip)}</title></rect>')
+        else:
+            tip = (f"{step}: {C.fmt_decibans(db)}" + (f", {verbal}" if verbal else "")
+                   + f"; P(focus) after = {prob:.4g}")
+            y0, y1 = y(cols["start_db"][k]), y(cols["end_db"][k])
+            if abs(y1 - y0) < 1.0:  # no weight: a thin neutral tick at the level
+                body.append(f'<rect class="bl-bar bl-{_t(kind)}" x="{cx - half:.1f}" '
+                            f'y="{y0 - 0.75:.1f}" width="{2 * half:.1f}" height="1.5" '
+                            f'fill="{colour}"><title>{_t(tip)}</title></rect>')
+            else:
+                body.append(f'<path class="bl-bar bl-{_t(kind)}" d="{_arrow(cx, y0, y1, half, 9.0)}" '
+                            f'fill="{colour}" stroke="#222" stroke-width="0.4">'
+                            f"<title>{_t(tip)}</title></path>")
         lines = label.split("\n")
         if slot < 100:
-            lines = [ln for ln in lines if "dB" in ln or "P=" in ln] if slot >= 30 else []
+            lines = [ln for ln in lines if "deciban" in ln or "P=" in ln] if slot >= 30 else []
         lines = [ln for ln in lines if ln]
         for i, ln in enumerate(reversed(lines)):
-            size = 10 if ("dB" in ln or "P=" in ln) else 9  # the verbal strength a bit smaller
-            body.append(f'<text x="{cx:.1f}" y="{y_top - 4 - 11 * i:.1f}" text-anchor="middle" '
+            size = 10 if ("deciban" in ln or "P=" in ln) else 9  # the likelihood ratio smaller
+            body.append(f'<text x="{cx:.1f}" y="{y_top - 5 - 11 * i:.1f}" text-anchor="middle" '
                         f'font-size="{size}">{_t(ln)}</text>')
         if k % every == 0 or k == n - 1:
             ly = top + plot_h + 12
@@ -137,7 +180,7 @@ def waterfall_svg(data: pd.DataFrame, *, focus: str, subtitle: str = "",
 
 
 def path_svg(data: pd.DataFrame, *, subtitle: str = "", plot_width: float = 560) -> str:
-    """Draw :func:`beliefledger.charts.probability_path_data` output as SVG text."""
+    """Draw :func:`beliefledger.chartdata.probability_path_data` output as SVG text."""
     cols = {c: data[c].tolist() for c in ("hypothesis", "order", "probability", "eliminated",
                                           "eliminated_here", "step")}
     steps = list(dict.fromkeys(cols["step"]))
@@ -216,7 +259,7 @@ _SHAPES = {
 
 
 def prior_posterior_svg(data: pd.DataFrame, *, map_hypothesis: str, subtitle: str = "") -> str:
-    """Draw :func:`beliefledger.charts.prior_posterior_data` output as SVG text."""
+    """Draw :func:`beliefledger.chartdata.prior_posterior_data` output as SVG text."""
     cols = {c: data[c].tolist() for c in ("hypothesis", "series", "probability", "label")}
     hyps = list(dict.fromkeys(cols["hypothesis"]))
     scen = [s for s in dict.fromkeys(cols["series"]) if s.startswith("scenario: ")]
@@ -233,7 +276,7 @@ def prior_posterior_svg(data: pd.DataFrame, *, map_hypothesis: str, subtitle: st
     body = _title(8, 18, f"Prior and posterior (MAP: '{_short(map_hypothesis, 50)}')", subtitle)
     body.append(f'<rect x="{left}" y="40" width="10" height="10" fill="{C.PRIOR_COLOUR}"/>'
                 f'<text x="{left + 14}" y="49">prior</text><rect x="{left + 60}" y="40" '
-                f'width="10" height="10" fill="{C.SUPPORT_COLOUR}"/>'
+                f'width="10" height="10" fill="{C.POSTERIOR_COLOUR}"/>'
                 f'<text x="{left + 74}" y="49">posterior</text>')
     bottom = top + row_h * len(hyps)
     for v in (0, 0.2, 0.4, 0.6, 0.8, 1.0):
@@ -248,7 +291,7 @@ def prior_posterior_svg(data: pd.DataFrame, *, map_hypothesis: str, subtitle: st
                     f"{weight}>{_t(_short(h, 32))}</text>")
         outline = ' stroke="#000" stroke-width="1.5"' if is_map else ""
         for j, (series, colour) in enumerate((("prior", C.PRIOR_COLOUR),
-                                              ("posterior", C.SUPPORT_COLOUR))):
+                                              ("posterior", C.POSTERIOR_COLOUR))):
             r = by.get((h, series))
             if r is None:
                 continue
@@ -277,4 +320,56 @@ def prior_posterior_svg(data: pd.DataFrame, *, map_hypothesis: str, subtitle: st
     return _svg(width, height, body, "prior and posterior")
 
 
-__all__ = ["waterfall_svg", "path_svg", "prior_posterior_svg", "nice_ticks"]
+class Figure:
+    """A chart drawn as SVG: shown by IPython as an image, kept by records as is.
+
+    ``svg`` is the standalone SVG text; ``title`` names the chart in its repr
+    (deterministic, so notebooks validate under nbval).
+    """
+
+    __slots__ = ("svg", "title", "kind")
+
+    def __init__(self, svg: str, title: str, kind: str) -> None:
+        self.svg = svg
+        self.title = title
+        self.kind = kind
+
+    def __repr__(self) -> str:
+        return f"Figure({self.kind}: {self.title})"
+
+    def _repr_svg_(self) -> str:
+        return self.svg
+
+    def _repr_mimebundle_(self, include: Any = None, exclude: Any = None) -> dict[str, str]:
+        return {"image/svg+xml": self.svg, "text/plain": repr(self)}
+
+
+def _subtitle(ledger: Ledger) -> str:
+    return f"{ledger.title} | scenario {ledger.scenario}"
+
+
+def waterfall_figure(ledger: Ledger, focus: str | None = None) -> Figure:
+    """The waterfall of the log-odds of ``focus`` (default: the MAP) against the rest."""
+    focus = ledger.map_hypothesis if focus is None else focus
+    svg = waterfall_svg(C.waterfall_data(ledger, focus), focus=focus, subtitle=_subtitle(ledger))
+    return Figure(svg, f"weight of evidence for {focus!r}", "waterfall")
+
+
+def path_figure(ledger: Ledger, *, max_lines: int = 8) -> Figure:
+    """Every hypothesis' probability after each step."""
+    svg = path_svg(C.probability_path_data(ledger, max_lines=max_lines),
+                   subtitle=_subtitle(ledger))
+    return Figure(svg, f"probability path of {ledger.title!r}", "probability path")
+
+
+def prior_posterior_figure(ledger: Ledger, scenarios: dict[str, Ledger] | None = None, *,
+                           max_bars: int | None = 15) -> Figure:
+    """Prior and posterior of each hypothesis, with one marker per other scenario."""
+    data = C.prior_posterior_data(ledger, scenarios, max_bars=max_bars)
+    svg = prior_posterior_svg(data, map_hypothesis=ledger.map_hypothesis,
+                              subtitle=_subtitle(ledger))
+    return Figure(svg, f"prior and posterior of {ledger.title!r}", "prior and posterior")
+
+
+__all__ = ["waterfall_svg", "path_svg", "prior_posterior_svg", "nice_ticks", "Figure",
+           "waterfall_figure", "path_figure", "prior_posterior_figure"]
