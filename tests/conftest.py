@@ -40,3 +40,16 @@ def small_case() -> bl.Case:
     case.add_evidence("E3", states=["yes", "no"],
                       likelihoods={"H1": [0.7, 0.3], "H2": [0.1, 0.9], "Other": [0.5, 0.5]})
     return case
+
+
+@pytest.fixture
+def eliminating_case() -> bl.Case:
+    """'A' is eliminated by E1 (invented numbers)."""
+    case = bl.Case("elimination", hypotheses={"A": 0.5, "B": 0.3, "Other": 0.2})
+    case.add_evidence("E1", states=["x", "y"],
+                      likelihoods={"A": [1.0, 0.0], "B": [0.5, 0.5], "Other": [0.5, 0.5]},
+                      observed="y")
+    case.add_evidence("E2", states=["x", "y"],
+                      likelihoods={"A": [0.2, 0.8], "B": [0.9, 0.1], "Other": [0.5, 0.5]},
+                      observed="x")
+    return case

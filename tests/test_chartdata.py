@@ -19,16 +19,6 @@ from beliefledger.measures import format_lr, step_weights
 DB_PER_NAT = 10 / math.log(10)
 
 
-def _eliminating_case() -> bl.Case:
-    """'A' is eliminated by E1 (invented numbers)."""
-    case = bl.Case("elimination", hypotheses={"A": 0.5, "B": 0.3, "Other": 0.2})
-    case.add_evidence("E1", states=["x", "y"],
-                      likelihoods={"A": [1.0, 0.0], "B": [0.5, 0.5], "Other": [0.5, 0.5]},
-                      observed="y")
-    case.add_evidence("E2", states=["x", "y"],
-                      likelihoods={"A": [0.2, 0.8], "B": [0.9, 0.1], "Other": [0.5, 0.5]},
-                      observed="x")
-    return case
 
 
 def test_waterfall_bars_chain_and_match_the_weights(demo_case):
@@ -73,8 +63,8 @@ def test_waterfall_labels_carry_decibans_and_the_likelihood_ratio(demo_case):
     assert all(label.count("\n") == chartdata.LABEL_LINES - 1 for label in data["label"])
 
 
-def test_waterfall_draws_infinite_log_odds_at_the_edge():
-    ledger = _eliminating_case().update()
+def test_waterfall_draws_infinite_log_odds_at_the_edge(eliminating_case):
+    ledger = eliminating_case.update()
     data = chartdata.waterfall_data(ledger, "A")
     assert math.isinf(data["decibans"].iloc[1]) and data["decibans"].iloc[1] < 0
     assert data["clipped"].iloc[1] and data["clipped"].iloc[-1]

@@ -19,16 +19,6 @@ from beliefledger.errors import CaseError
 DB_PER_NAT = 10 / math.log(10)
 
 
-def _eliminating_case() -> bl.Case:
-    """'A' is eliminated by E1 (invented numbers)."""
-    case = bl.Case("elimination", hypotheses={"A": 0.5, "B": 0.3, "Other": 0.2})
-    case.add_evidence("E1", states=["x", "y"],
-                      likelihoods={"A": [1.0, 0.0], "B": [0.5, 0.5], "Other": [0.5, 0.5]},
-                      observed="y")
-    case.add_evidence("E2", states=["x", "y"],
-                      likelihoods={"A": [0.2, 0.8], "B": [0.9, 0.1], "Other": [0.5, 0.5]},
-                      observed="x")
-    return case
 
 
 # --------------------------------------------------------------------------- waterfall
@@ -82,8 +72,8 @@ def test_probability_path_data_is_the_ledger(demo_case):
     assert line["encoding"]["color"]["scale"]["range"][:3] == list(chartdata.OKABE_ITO[:3])
 
 
-def test_probability_path_marks_eliminated_hypotheses():
-    ledger = _eliminating_case().update()
+def test_probability_path_marks_eliminated_hypotheses(eliminating_case):
+    ledger = eliminating_case.update()
     assert ledger.eliminated == ["A"]
     data = chartdata.probability_path_data(ledger)
     a = data[data["hypothesis"] == "A"].set_index("step")

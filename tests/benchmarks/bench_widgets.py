@@ -85,7 +85,7 @@ def bench_kernel_dropdown_change():
 
     # the part the target names: recomputed ledger plus refreshed chart data, measured
     # on a bare feed whose one subscriber rebuilds the three charts' tables
-    from beliefledger import chartdata, charts
+    from beliefledger import chartdata
     from beliefledger.widgets._base import LedgerFeed
 
     bare = synthetic_case()

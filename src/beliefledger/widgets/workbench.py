@@ -9,10 +9,10 @@ import ipywidgets as W
 
 from ..case import CASE_MIMETYPE
 from ..display import esc
-from ._base import CaseView, StatusArea, LedgerFeed, check_case, style_widget
+from ._base import CaseView, LedgerFeed, StatusArea, check_case, style_widget
 from .evidence import EvidenceEditor
 from .hypotheses import HypothesisEditor
-from .scenarios import ChartPanel, FlagsPanel, ScenarioPicker, LedgerTable, posterior_html
+from .scenarios import ChartPanel, FlagsPanel, LedgerTable, ScenarioPicker, posterior_html
 
 if TYPE_CHECKING:  # pragma: no cover
     from ..engine import Ledger
