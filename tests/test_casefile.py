@@ -74,8 +74,9 @@ def envelope_text(case, mutate):
 
 
 @pytest.mark.parametrize("mutate, match", [
-    (lambda d: d.update(schema_version=2), "schema_version 2.*newer beliefledger"),
-    (lambda d: d.update(schema_version="1"), "expected the integer 1"),
+    (lambda d: d.update(schema_version=3), "schema_version 3.*newer beliefledger"),
+    (lambda d: d.update(schema_version=0), "schema_version 0.*no reader"),
+    (lambda d: d.update(schema_version="2"), "expected the integer 2"),
     (lambda d: d.update(format="other"), "expected 'beliefledger-case'"),
     (lambda d: d.update(extra=1), r"unknown top-level key\(s\) \['extra'\]"),
     (lambda d: d.pop("case"), "no 'case' object"),
@@ -143,3 +144,26 @@ def test_saved_files_get_the_usual_mode_and_keep_an_existing_one(tmp_path, small
         assert path.stat().st_mode & 0o777 == 0o640
     finally:
         os.umask(old)
+
+
+def test_a_schema_1_file_loads_with_its_renamed_keys(tmp_path):
+    """Files written before the keys were renamed (schema 1: 'groups', 'observed_only',
+    extras 'decision') load unchanged in meaning; saving writes schema 2."""
+    import json
+
+    case = bl.example_case()
+    case.add_evidence("witness note", likelihoods={h: 0.5 for h in case.hypothesis_names},
+                      observed="seen", likelihood_evidence=True, source="invented test note")
+    new = case.to_dict()
+    old = json.loads(json.dumps(new))
+    old["extras"]["decision"] = old["extras"].pop("loss_table")
+    for e in old["evidence"]:
+        e["observed_only"] = e.pop("likelihood_evidence")
+    path = tmp_path / "old.json"
+    path.write_text(json.dumps({"format": "beliefledger-case", "schema_version": 1,
+                                "case": old}), encoding="utf-8")
+    loaded = bl.load_case(path)
+    assert loaded.to_dict() == new
+    assert loaded.evidence["witness note"].likelihood_evidence
+    loaded.save(path)
+    assert json.loads(path.read_text())["schema_version"] == 2

@@ -18,7 +18,7 @@ from hypothesis import given
 from hypothesis import strategies as st
 
 import beliefledger as bl
-from beliefledger.casefile import case_from_dict, dumps, loads
+from beliefledger.casefile import dumps, loads
 from beliefledger.errors import CaseError, CaseFileError
 
 
@@ -236,11 +236,11 @@ def test_conditional_on_a_later_item_in_a_file_is_refused():
     data["evidence"] = data["evidence"][::-1]
     with pytest.raises(CaseError, match="conditional evidence 'second witness' is stated given "
                                         "'first witness', which comes after it"):
-        case_from_dict(data)
+        bl.Case.from_dict(data)
     data = witness_case().to_dict()
     data["evidence"][1]["given"] = "nobody"
     with pytest.raises(CaseError, match="given 'nobody', which is not an evidence item"):
-        case_from_dict(data)
+        bl.Case.from_dict(data)
 
 
 def test_group_with_a_cycle_is_refused():
@@ -287,7 +287,7 @@ def _random_dependent_case(rng, n_items=5, n_h=3):
             case.add_evidence(f"e{i}", states=states,
                               likelihoods={h: rng.dirichlet(np.ones(ns)).tolist() for h in hyps})
     # a joint group of two plain items that are not in a chain, with a random joint table
-    free = [n for n in case.evidence_names if n not in case._chain_roots()]
+    free = [n for n in case.evidence_names if n not in case.dependence_links()]
     if len(free) >= 2:
         a, b = free[:2]
         na, nb = len(case.evidence[a].states), len(case.evidence[b].states)
@@ -434,10 +434,10 @@ def test_round_trip_is_exact_and_plain_files_are_unchanged():
 
 def test_file_with_bad_group_is_refused():
     data = json.loads(dumps(two_tests(cov=0.01)))
-    data["case"]["groups"][0]["covariance"]["weep"] = 0.5
+    data["case"]["joint_groups"][0]["covariance"]["weep"] = 0.5
     with pytest.raises(CaseFileError, match="feasible range"):
         loads(json.dumps(data))
-    data["case"]["groups"][0]["members"] = ["dye test", "ghost"]
+    data["case"]["joint_groups"][0]["members"] = ["dye test", "ghost"]
     with pytest.raises(CaseFileError, match="unknown evidence 'ghost'"):
         loads(json.dumps(data))
 

@@ -147,11 +147,11 @@ def test_many_items_do_not_underflow():
     h, k = 1_000, 10_000
     rng = np.random.default_rng(7)
     names = tuple(f"H{i}" for i in range(h))
-    case = bl.Case("big", hypotheses={n: 1 / h for n in names})
     lik = rng.uniform(0.05, 0.95, size=(k, h))
-    for j in range(k):  # built directly: this test is about the engine, not input checks
-        table = np.vstack([lik[j], 1 - lik[j]])
-        case._evidence[f"E{j}"] = Evidence(f"E{j}", ("yes", "no"), names, table, observed="yes")
+    # members built directly: this test is about the engine, not input checks
+    items = [Evidence(f"E{j}", ("yes", "no"), names, np.vstack([lik[j], 1 - lik[j]]),
+                      observed="yes") for j in range(k)]
+    case = bl.Case.from_members("big", [bl.Hypothesis(n, 1 / h) for n in names], evidence=items)
     ledger = case.update()
     total = np.log(lik).sum(axis=0)
     assert total.max() < -700  # the plain product underflows
@@ -285,8 +285,12 @@ def test_order_of_independent_evidence_does_not_matter(case, random):
     before = case.update().posterior
     items = list(case.evidence.values())
     random.shuffle(items)
-    case._evidence = {e.name: e for e in items}
-    np.testing.assert_allclose(case.update().posterior, before, rtol=1e-9)
+    d = case.to_dict()
+    order = [e.name for e in items]
+    d["evidence"] = sorted(d["evidence"], key=lambda e: order.index(e["name"]))
+    shuffled = bl.Case.from_dict(d)
+    assert shuffled.evidence_names == order
+    np.testing.assert_allclose(shuffled.update().posterior, before, rtol=1e-9)
 
 
 @given(random_cases(n_items=st.integers(2, 2)))

@@ -183,13 +183,13 @@ def test_huge_strings_refused_with_the_limit():
     _refused(_set(["case", "notes"], "x" * 50_000), "notes", "limit")
 
 
-@pytest.mark.parametrize("version", [0, 2, "1", 1.0, True, None, [1]])
+@pytest.mark.parametrize("version", [0, 3, "2", 2.0, True, None, [1]])
 def test_wrong_schema_versions(version):
     _refused(_set(["schema_version"], version), "schema_version")
 
 
 def test_integer_with_too_many_digits_is_a_json_error_not_a_crash():
-    text = casefile.dumps(bl.example_case()).replace('"schema_version": 1',
+    text = casefile.dumps(bl.example_case()).replace('"schema_version": 2',
                                                      '"schema_version": ' + "1" * 5000)
     _refused(text, "JSON")
 
@@ -284,31 +284,18 @@ def _assert_views_page(case) -> None:
         assert n < 1_000, f"{cls.__name__} built {n} widgets for a large case"
 
 
-def test_registered_extras_validators_are_importable():
-    """A key registered in EXTRA_VALIDATORS must point at a real function, or every
-    file holding that section fails to load with an ImportError."""
-    import importlib
+def test_registered_extras_sections_have_callable_validators():
+    from beliefledger.case.extras import LOSS_TABLE, SECTIONS, UNCERTAINTY
 
-    for key, target in casefile.EXTRA_VALIDATORS.items():
-        modname, fn = target.split(":")
-        try:
-            mod = importlib.import_module(modname)
-        except ModuleNotFoundError:
-            pytest.skip(f"{modname} (validator of extras '{key}') is not written yet")
-        assert callable(getattr(mod, fn)), target
+    assert {UNCERTAINTY, LOSS_TABLE} <= set(SECTIONS)
+    for key, sec in SECTIONS.items():
+        assert sec.key == key and callable(sec.validate)
 
 
 @settings(max_examples=report.scaled(30, 500))
-@given(case_dicts(), st.sampled_from(sorted(casefile.EXTRA_VALIDATORS)),
+@given(case_dicts(), st.sampled_from(["uncertainty", "loss_table"]),
        st.sampled_from([None, 1, "x", [], {}, {"zz": 1}, [{"a": 1}]]))
 def test_registered_extras_sections_refused_clearly(case_obj, key, value):
-    import importlib
-
-    modname = casefile.EXTRA_VALIDATORS[key].split(":")[0]
-    try:
-        importlib.import_module(modname)
-    except ModuleNotFoundError:
-        return
     case_obj = dict(case_obj, extras={key: value})
     try:
         case = casefile.loads(json.dumps(file_object(case_obj)))

@@ -14,7 +14,8 @@ from scipy import optimize, stats
 
 import beliefledger as bl
 from beliefledger.errors import CaseError
-from beliefledger.uncertainty import fit_concentration, validate_uncertainty
+from beliefledger.case.extras import validate_uncertainty
+from beliefledger.uncertainty import fit_concentration
 
 
 def dkw(n: int, delta: float = 1e-6) -> float:
@@ -505,7 +506,7 @@ def test_simulate_under_a_scenario(demo_case):
 @pytest.mark.parametrize("a, b", [(8.0, 12.0), (0.5, 30.0), (2.0, 1e4), (40.0, 60.0)])
 def test_log_beta_sum_single_term_matches_scipy(a, b):
     # scipy.stats.beta as the reference: S = log B, so F_S(x) = I_{e^x}(a, b)
-    from beliefledger.uncertainty import LogBetaSum
+    from beliefledger.montecarlo import LogBetaSum
 
     s = LogBetaSum(np.array([a]), np.array([b]))
     assert s.ok, s.reason
@@ -519,7 +520,7 @@ def test_log_beta_sum_two_terms_matches_quadrature():
     # with f_2 the density of log B_2 (B_2 ~ Beta(a2, b2))
     from scipy import integrate
 
-    from beliefledger.uncertainty import LogBetaSum
+    from beliefledger.montecarlo import LogBetaSum
 
     (a1, b1), (a2, b2) = (6.0, 3.0), (2.5, 9.0)
     s = LogBetaSum(np.array([a1, a2]), np.array([b1, b2]))
@@ -542,7 +543,7 @@ def test_log_beta_sum_two_terms_matches_quadrature():
 
 
 def test_log_beta_sum_refuses_what_it_cannot_tabulate():
-    from beliefledger.uncertainty import LogBetaSum
+    from beliefledger.montecarlo import LogBetaSum
 
     s = LogBetaSum(np.array([1.0]), np.array([1.0]))  # density with a jump at 0
     assert not s.ok and "characteristic function" in s.reason

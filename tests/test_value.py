@@ -17,7 +17,7 @@ from hypothesis import strategies as st
 from scipy import stats
 
 import beliefledger as bl
-from beliefledger import value
+from beliefledger import decision, value
 from beliefledger.casefile import dumps, loads
 from beliefledger.errors import CaseError, CaseFileError, CaseTypeError
 
@@ -35,7 +35,7 @@ def prospect_case() -> bl.Case:
     case = bl.Case("prospect", hypotheses={"good": 0.4, "bad": 0.6}, exhaustive=True)
     case.add_evidence("seismic test", states=["favourable", "unfavourable"],
                       likelihoods={"good": [0.75, 0.25], "bad": [1 / 3, 2 / 3]})
-    value.set_loss_table(case, PROSPECT_PAYOFF, kind="payoff", units="k$",
+    decision.set_loss_table(case, PROSPECT_PAYOFF, kind="payoff", units="k$",
                          source="Samuelson & Marks, Managerial Economics")
     return case
 
@@ -46,8 +46,8 @@ def prospect_case() -> bl.Case:
 def test_samuelson_marks_value_of_perfect_information():
     case = prospect_case()
     # drill: 0.4*600 - 0.6*200 = 120 (k$) against 0 for not drilling
-    assert value.bayes_action(case) == "drill"
-    assert value.expected_loss(case)["drill"] == pytest.approx(-120.0)
+    assert decision.bayes_action(case) == "drill"
+    assert decision.expected_loss(case)["drill"] == pytest.approx(-120.0)
     # with perfect information: 0.4*600 + 0.6*0 = 240, so EVPI = 240 - 120 = 120
     assert value.evpi(case) == pytest.approx(120.0)
 
@@ -63,9 +63,9 @@ def test_samuelson_marks_value_of_the_imperfect_test():
     fav, unf = case.copy(), case.copy()
     fav.observe("seismic test", "favourable")
     unf.observe("seismic test", "unfavourable")
-    assert -value.expected_loss(fav)["drill"] == pytest.approx(280.0)
-    assert -value.expected_loss(unf)["drill"] == pytest.approx(-40.0)
-    assert value.bayes_action(unf) == "do not drill"
+    assert -decision.expected_loss(fav)["drill"] == pytest.approx(280.0)
+    assert -decision.expected_loss(unf)["drill"] == pytest.approx(-40.0)
+    assert decision.bayes_action(unf) == "do not drill"
     # best plan 0.5*280 + 0.5*0 = 140; EVSI = 140 - 120 = 20 (recomputed, CHECKS.md item 11)
     assert value.evsi(case, "seismic test") == pytest.approx(20.0)
     ranked = value.rank_next_evidence(case, cost={"seismic test": 5.0})
@@ -77,7 +77,7 @@ def test_samuelson_marks_value_of_the_imperfect_test():
 def test_samuelson_marks_break_even_probability():
     case = prospect_case()
     # drilling breaks even where 600 t - 200 (1 - t) = 0, t = 0.25
-    thr = value.decision_threshold(case, hypothesis="good")
+    thr = decision.decision_threshold(case, hypothesis="good")
     assert thr["action"].tolist() == ["do not drill", "drill"]
     assert thr["to_probability"].iloc[0] == pytest.approx(0.25)
     assert thr["current"].tolist() == [False, True]
@@ -88,9 +88,9 @@ def test_payoff_and_loss_tables_agree():
     loss = -pd.DataFrame(PROSPECT_PAYOFF).T
     assert value.evsi(case, "seismic test", loss=loss) == pytest.approx(20.0)
     assert value.evpi(case, loss=loss) == pytest.approx(120.0)
-    pd.testing.assert_frame_equal(value.loss_table(case), value.loss_table(case, loss),
+    pd.testing.assert_frame_equal(decision.loss_table(case), decision.loss_table(case, loss),
                                   check_names=False)
-    summary = value.decision_summary(case)
+    summary = decision.decision_summary(case)
     assert summary.loc["base", "drill"] == pytest.approx(120.0)
     assert summary.loc["base", "measure"] == "expected payoff"
     assert summary.loc["base", "do not drill"] == 0.0 and not np.signbit(
@@ -135,7 +135,7 @@ def test_three_causes_by_hand():
     # after yes (joint 0.1, 0.27, 0.1): a1 2.7 + 0.4 = 3.1, a2 0.8 + 0.4 = 1.2 -> 1.2
     # after no (joint 0.4, 0.03, 0.1): a1 0.3 + 0.4 = 0.7, a2 3.2 + 0.4 = 3.6 -> 0.7
     # EVSI = 3.8 - (1.2 + 0.7) = 1.9; EVPI = 3.8 - 0.2*4 = 3.0
-    assert value.expected_loss(case, LOSS3).tolist() == pytest.approx([3.8, 4.8])
+    assert decision.expected_loss(case, LOSS3).tolist() == pytest.approx([3.8, 4.8])
     assert r.loc["T", "evsi"] == pytest.approx(1.9)
     assert value.evpi(case, LOSS3) == pytest.approx(3.0)
 
@@ -146,24 +146,24 @@ def test_three_action_thresholds_by_hand():
                         index=["shut down", "monitor", "ignore"])
     # with t = P(leak): shut 5 - 4t, monitor 1 + 9t, ignore 30t;
     # ignore = monitor at t = 1/21, monitor = shut at t = 4/13
-    thr = value.decision_threshold(case, loss, hypothesis="leak")
+    thr = decision.decision_threshold(case, loss, hypothesis="leak")
     assert thr["action"].tolist() == ["ignore", "monitor", "shut down"]
     assert thr["to_probability"].tolist()[:2] == pytest.approx([1 / 21, 4 / 13])
     assert thr["current"].tolist() == [False, True, False]
-    assert value.bayes_action(case, loss) == "monitor"
+    assert decision.bayes_action(case, loss) == "monitor"
 
 
 def test_decision_summary_covers_every_scenario():
     case = three_cause_case()
     case.observe("T", "yes")
     case.add_scenario("wide", {"A": 0.2, "B": 0.2, "C": 0.6}, source="invented")
-    value.set_loss_table(case, LOSS3)
-    s = value.decision_summary(case)
+    decision.set_loss_table(case, LOSS3)
+    s = decision.decision_summary(case)
     assert list(s.index) == ["base", "wide"]
     for sc in s.index:
-        el = value.expected_loss(case, scenario=sc)
+        el = decision.expected_loss(case, scenario=sc)
         assert s.loc[sc, ["a1", "a2"]].tolist() == pytest.approx(el.tolist())
-        assert s.loc[sc, "bayes_action"] == value.bayes_action(case, scenario=sc)
+        assert s.loc[sc, "bayes_action"] == decision.bayes_action(case, scenario=sc)
     # wide: joint (0.04, 0.18, 0.3) / 0.52; a1 = (1.8 + 1.2) / 0.52, a2 = (0.32 + 1.2) / 0.52
     assert s.loc["wide", "a1"] == pytest.approx(3.0 / 0.52)
     assert s.loc["wide", "bayes_action"] == "a2"
@@ -264,7 +264,7 @@ def test_ranking_criteria_and_columns(demo_case):
     assert r.index.name == "evidence"
     for col in ("expected_entropy_reduction", "p_map_changes", "reason", "evsi"):
         assert col in r.columns
-    value.set_loss_table(demo_case, None)
+    decision.set_loss_table(demo_case, None)
     assert "evsi" not in value.rank_next_evidence(demo_case).columns
     case = three_cause_case()
     case.add_evidence("U", states=["a", "b", "c"],
@@ -303,46 +303,46 @@ def test_loss_table_round_trip_and_hypothesis_edits():
     text = dumps(case)
     assert dumps(loads(text)) == text
     case.rename_hypothesis("bad", "dry hole")
-    assert value.loss_table(case).columns.tolist() == ["good", "dry hole"]
+    assert decision.loss_table(case).columns.tolist() == ["good", "dry hole"]
     before = dumps(case)
     with pytest.raises(CaseError, match="needs a value for new hypothesis 'gas'"):
         case.add_hypothesis("gas", 0.1, likelihoods={"seismic test": [0.5, 0.5]})
     with pytest.raises(CaseError, match="no payoff given for action 'do not drill'"):
         case.add_hypothesis("gas", 0.1, likelihoods={"seismic test": [0.5, 0.5]},
-                            extra_values={"decision": {"drill": 100}})
+                            extra_values={"loss_table": {"drill": 100}})
     assert dumps(case) == before
     case.add_hypothesis("gas", 0.1, likelihoods={"seismic test": [0.5, 0.5]},
-                        extra_values={"decision": {"drill": 100, "do not drill": 0}})
-    assert value.loss_table(case).loc["drill", "gas"] == -100
+                        extra_values={"loss_table": {"drill": 100, "do not drill": 0}})
+    assert decision.loss_table(case).loc["drill", "gas"] == -100
     case.remove_hypothesis("gas")
-    assert value.loss_table(case).columns.tolist() == ["good", "dry hole"]
+    assert decision.loss_table(case).columns.tolist() == ["good", "dry hole"]
     assert dumps(loads(dumps(case))) == dumps(case)
 
 
 def test_bad_loss_tables_are_refused_and_the_case_is_unchanged():
     case = three_cause_case()
-    value.set_loss_table(case, LOSS3)
+    decision.set_loss_table(case, LOSS3)
     before = dumps(case)
     with pytest.raises(CaseError, match=r"no value for action 'a1' under hypothesis\(es\) "
                                         r"\['C'\]"):
-        value.set_loss_table(case, LOSS3.drop(columns="C"))
+        decision.set_loss_table(case, LOSS3.drop(columns="C"))
     bad = LOSS3.copy()
     bad.loc["a2", "B"] = np.nan
     with pytest.raises(CaseError, match="loss of action 'a2' under hypothesis 'B' is nan"):
-        value.set_loss_table(case, bad)
+        decision.set_loss_table(case, bad)
     bad.loc["a2", "B"] = np.inf
     with pytest.raises(CaseError, match="is inf"):
-        value.set_loss_table(case, bad)
+        decision.set_loss_table(case, bad)
     with pytest.raises(CaseError, match=r"unknown hypothesis\(es\) \['D'\]"):
-        value.set_loss_table(case, LOSS3.assign(D=1.0))
+        decision.set_loss_table(case, LOSS3.assign(D=1.0))
     with pytest.raises(CaseError, match="has no actions"):
-        value.set_loss_table(case, {})
+        decision.set_loss_table(case, {})
     with pytest.raises(CaseError, match="kind 'cost'"):
-        value.set_loss_table(case, LOSS3, kind="cost")
+        decision.set_loss_table(case, LOSS3, kind="cost")
     with pytest.raises(CaseTypeError, match="must be a number"):
-        value.set_loss_table(case, {"a1": {"A": "zero", "B": 1, "C": 1}})
+        decision.set_loss_table(case, {"a1": {"A": "zero", "B": 1, "C": 1}})
     with pytest.raises(CaseError, match="twice"):
-        value.set_loss_table(case, pd.concat([LOSS3, LOSS3.iloc[:1]]))
+        decision.set_loss_table(case, pd.concat([LOSS3, LOSS3.iloc[:1]]))
     assert dumps(case) == before
     with pytest.raises(CaseError, match="no value for action 'a1'"):
         value.evsi(case, "T", loss=LOSS3.drop(columns="A"))
@@ -361,13 +361,13 @@ def test_bad_loss_tables_are_refused_and_the_case_is_unchanged():
 def test_missing_table_and_bad_stored_section():
     case = three_cause_case()
     with pytest.raises(CaseError, match="has no loss table; set one with"):
-        value.expected_loss(case)
+        decision.expected_loss(case)
     with pytest.raises(CaseError, match="needs a loss table"):
         value.rank_next_evidence(case, by="evsi")
     with pytest.raises(CaseError, match="unknown field"):
-        case.set_extra("decision", {"table": LOSS3.T.to_dict(), "colour": "red"})
+        case.set_extra("loss_table", {"table": LOSS3.T.to_dict(), "colour": "red"})
     data = json.loads(dumps(case))
-    data["case"]["extras"] = {"decision": {"kind": "loss", "table": {"a1": {"A": 1, "B": 2}}}}
+    data["case"]["extras"] = {"loss_table": {"kind": "loss", "table": {"a1": {"A": 1, "B": 2}}}}
     with pytest.raises(CaseFileError, match=r"under hypothesis\(es\) \['C'\]"):
         loads(json.dumps(data))
 
@@ -375,5 +375,5 @@ def test_missing_table_and_bad_stored_section():
 def test_docstring_examples_run():
     import doctest
 
-    result = doctest.testmod(value, optionflags=doctest.NORMALIZE_WHITESPACE)
+    result = doctest.testmod(decision, optionflags=doctest.NORMALIZE_WHITESPACE)
     assert result.attempted >= 4 and result.failed == 0

@@ -21,8 +21,9 @@ _EXPORTS: dict[str, str] = {
     "Scenario": "case", "UNSOURCED": "case", "BASE_SCENARIO": "case",
     "JointGroup": "case",
     "CaseError": "errors", "CaseTypeError": "errors", "CaseFileError": "errors",
-    # engine and diagnostics
-    "Ledger": "engine", "update": "engine",
+    "RecordError": "errors",
+    # engine and review flags
+    "Ledger": "engine", "update": "engine", "update_all": "engine",
     "Flag": "flags", "diagnose": "flags",
     # measures
     "odds": "measures", "probability_from_odds": "measures", "log_odds": "measures",
@@ -30,6 +31,7 @@ _EXPORTS: dict[str, str] = {
     "likelihood_ratio": "measures", "bayes_factor": "measures", "step_weights": "measures",
     "enfsi_label": "measures", "kass_raftery_label": "measures",
     "jeffreys_label": "measures", "verbal": "measures", "update_probability": "measures",
+    "format_lr": "measures",
     # case files
     "load_case": "casefile", "save_case": "casefile",
     # examples
@@ -38,17 +40,20 @@ _EXPORTS: dict[str, str] = {
     "prior_from_counts": "elicit", "probability_from_demands": "elicit",
     "rate_from_events": "elicit", "likelihood_from_test": "elicit",
     "likelihood_from_counts": "elicit",
+    "DirichletEstimate": "estimates", "BetaEstimate": "estimates",
+    "GammaEstimate": "estimates",
     # sensitivity and uncertainty
     "robustness": "sensitivity", "sweep_prior": "sensitivity",
     "sweep_likelihood": "sensitivity", "break_even_prior": "sensitivity",
-    "tornado": "sensitivity", "simulate": "sensitivity",
+    "tornado": "sensitivity", "simulate": "montecarlo",
     "set_prior_uncertainty": "uncertainty", "set_likelihood_uncertainty": "uncertainty",
     "clear_uncertainty": "uncertainty", "uncertainty_register": "uncertainty",
     # value of information and decisions
     "rank_next_evidence": "value", "evpi": "value", "evsi": "value",
-    "expected_loss": "value", "bayes_action": "value",
-    "set_loss_table": "value", "loss_table": "value", "decision_summary": "value",
-    "decision_threshold": "value", "predictive": "value", "preposterior": "value",
+    "predictive": "value", "preposterior": "value",
+    "expected_loss": "decision", "bayes_action": "decision",
+    "set_loss_table": "decision", "loss_table": "decision", "decision_summary": "decision",
+    "decision_threshold": "decision",
     # batch scoring
     "score_rows": "batch",
     # notebook views (optional dependencies)
@@ -56,8 +61,9 @@ _EXPORTS: dict[str, str] = {
     "ScenarioPicker": "widgets",
 }
 
-_SUBMODULES = {"charts", "widgets", "record", "engine", "case", "flags", "measures",
-               "casefile", "elicit", "sensitivity", "value", "batch", "display", "examples"}
+_SUBMODULES = {"charts", "chartdata", "figures", "widgets", "record", "engine", "case", "flags",
+               "measures", "casefile", "elicit", "estimates", "sensitivity", "uncertainty",
+               "montecarlo", "value", "decision", "batch", "display", "examples"}
 
 _INSTALL_HINT = {
     "ipywidgets": "notebook", "altair": "notebook", "vl_convert": "notebook",

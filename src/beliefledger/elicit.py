@@ -1,7 +1,7 @@
 """Priors, probabilities, rates and likelihoods estimated from data.
 
-Each function returns an *estimate*: a small object holding the fitted
-distribution (Dirichlet, Beta or Gamma), its summaries, a ready-to-use form
+Each function returns an *estimate* (:mod:`beliefledger.estimates`): a small
+object holding the fitted distribution (Dirichlet, Beta or Gamma), its summaries, a ready-to-use form
 for the case (``est.priors()``, ``est.likelihoods()``), a
 :class:`~beliefledger.case.Source` filled in from the data and the method
 (``est.source``) and any :class:`~beliefledger.flags.Flag` the
@@ -25,15 +25,22 @@ Gelman, A. et al. (2013). *Bayesian Data Analysis*, 3rd ed., section 3.4
 from __future__ import annotations
 
 import math
-import numbers
 from collections.abc import Mapping, Sequence
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
 import pandas as pd
 
-from .case import Source, _check_name, _check_probability, _check_text
+from ._checks import (
+    check_count,
+    check_name,
+    check_positive,
+    check_probability,
+    check_text,
+)
+from .case import Source
 from .errors import CaseError, CaseTypeError
+from .estimates import BetaEstimate, DirichletEstimate, GammaEstimate
 from .flags import Flag
 
 if TYPE_CHECKING:
@@ -41,75 +48,6 @@ if TYPE_CHECKING:
 
 JEFFREYS = "jeffreys"
 UNIFORM = "uniform"
-DEFAULT_LEVEL = 0.9
-
-
-# --------------------------------------------------------------------------- checks
-
-
-def check_count(what: str, value: Any) -> int:
-    """A non-negative whole number (an int, or a float with no fractional part)."""
-    if isinstance(value, bool) or not isinstance(value, numbers.Real):
-        raise CaseTypeError(f"{what} must be a whole number of events, got "
-                            f"{type(value).__name__} {value!r:.60}")
-    x = float(value)
-    if math.isnan(x) or math.isinf(x):
-        raise CaseError(f"{what} is {x}; give a whole number of events (0, 1, 2, ...)")
-    if x < 0:
-        raise CaseError(f"{what} is {x:g}, a negative count; counts are 0 or more")
-    if x != math.floor(x):
-        raise CaseError(f"{what} is {x:g}, not a whole number; counts are whole numbers "
-                        "(to express partial belief use pseudo-counts or a prior instead)")
-    if x > 2**53:
-        raise CaseError(f"{what} is {x:g}, too large to count exactly")
-    return int(x)
-
-
-def check_positive(what: str, value: Any, *, allow_zero: bool = False) -> float:
-    """A finite positive (or non-negative) number."""
-    if isinstance(value, bool) or not isinstance(value, numbers.Real):
-        raise CaseTypeError(f"{what} must be a number, got {type(value).__name__} {value!r:.60}")
-    x = float(value)
-    if math.isnan(x) or math.isinf(x):
-        raise CaseError(f"{what} is {x}; give a finite number")
-    if x < 0 or (x == 0 and not allow_zero):
-        want = "0 or more" if allow_zero else "above 0"
-        raise CaseError(f"{what} is {x:g}; it must be {want}")
-    return x
-
-
-def check_level(level: Any) -> float:
-    """A credible level strictly between 0 and 1 (e.g. 0.9 for a 90 % interval)."""
-    if isinstance(level, bool) or not isinstance(level, numbers.Real):
-        raise CaseTypeError(f"interval level must be a number in (0, 1), got "
-                            f"{type(level).__name__} {level!r:.60}")
-    x = float(level)
-    if not (0 < x < 1):
-        raise CaseError(f"interval level is {x:g}; it must lie strictly between 0 and 1 "
-                        "(e.g. 0.9 for a 90 % interval)")
-    return x
-
-
-def _tails(level: float) -> tuple[float, float]:
-    level = check_level(level)
-    return (1 - level) / 2, (1 + level) / 2
-
-
-def _rng(rng: Any) -> np.random.Generator:
-    if isinstance(rng, np.random.Generator):
-        return rng
-    if rng is None or isinstance(rng, int | np.integer):
-        return np.random.default_rng(rng)
-    raise CaseTypeError(f"rng must be a numpy Generator or an integer seed, got "
-                        f"{type(rng).__name__}")
-
-
-def _draws(n: Any) -> int:
-    if isinstance(n, bool) or not isinstance(n, numbers.Integral):
-        raise CaseTypeError(f"number of draws must be a whole number, got {n!r:.40}")
-    if n < 1:
-        raise CaseError(f"number of draws is {n}; it must be at least 1")
-    return int(n)
 
 
 def _g(x: float) -> str:
@@ -117,7 +55,7 @@ def _g(x: float) -> str:
 
 
 def _make_source(where: str, why: str, data: str, who: str, when: str) -> Source:
-    data = _check_text("data description", data)
+    data = check_text("data description", data)
     text = f"{data.strip()}: {where}" if data.strip() else where
     limit = 20_000
     return Source(where=text[:limit], who=who, when=when, why=why[:limit])
@@ -140,83 +78,6 @@ def _beta_prior(prior: Any, what: str) -> tuple[float, float, str]:
                         f"{prior!r:.60}")
 
 
-# --------------------------------------------------------------------------- Dirichlet
-
-
-class DirichletEstimate:
-    """A Dirichlet distribution over mutually exclusive categories (hypotheses).
-
-    Attributes
-    ----------
-    alpha : Series
-        Dirichlet parameters, ``count + pseudo`` per category.
-    counts : Series
-        The observed counts.
-    pseudo : float
-        The pseudo-count added to every category.
-    source : Source
-        Filled in from the counts, the pseudo-count and the method.
-    flags : list of Flag
-    """
-
-    def __init__(self, alpha: pd.Series, counts: pd.Series, pseudo: float, source: Source,
-                 flags: list[Flag]) -> None:
-        self.alpha = alpha.astype(float).rename("alpha")
-        self.counts = counts.rename("count")
-        self.pseudo = float(pseudo)
-        self.source = source
-        self.flags = list(flags)
-
-    @property
-    def concentration(self) -> float:
-        """Sum of the parameters (the prior's weight in equivalent observations)."""
-        return float(self.alpha.sum())
-
-    @property
-    def mean(self) -> pd.Series:
-        """Expected probability of each category, ``alpha_i / sum(alpha)``."""
-        return (self.alpha / self.alpha.sum()).rename("mean")
-
-    def interval(self, level: float = DEFAULT_LEVEL) -> pd.DataFrame:
-        """Equal-tailed interval of each category's probability from its exact marginal,
-        ``Beta(alpha_i, sum(alpha) - alpha_i)``; columns ``low``, ``high``."""
-        from scipy import stats
-
-        lo, hi = _tails(level)
-        a = self.alpha.to_numpy()
-        b = a.sum() - a
-        return pd.DataFrame({"low": stats.beta.ppf(lo, a, b), "high": stats.beta.ppf(hi, a, b)},
-                            index=self.alpha.index)
-
-    def sample(self, n: int, rng: Any = None) -> pd.DataFrame:
-        """``n`` draws of the probability vector (rows sum to 1)."""
-        n = _draws(n)
-        x = _rng(rng).dirichlet(self.alpha.to_numpy(), size=n)
-        return pd.DataFrame(x, columns=self.alpha.index)
-
-    def priors(self) -> dict[str, float]:
-        """The mean as ``{hypothesis: prior}`` for ``Case(...)`` or ``case.set_priors``."""
-        m = self.mean
-        return {str(k): float(v) for k, v in m.items()}
-
-    def add_scenario(self, case: Case, name: str, *, note: str = "",
-                     replace_existing: bool = False) -> None:
-        """Add the mean as prior scenario ``name`` of ``case``, with this estimate's
-        source (e.g. ``"plant history"``). The counts must name the case's hypotheses."""
-        case.add_scenario(name, self.priors(), source=self.source, note=note,
-                          replace_existing=replace_existing)
-
-    def to_dict(self) -> dict[str, Any]:
-        return {"distribution": "dirichlet",
-                "alpha": {str(k): float(v) for k, v in self.alpha.items()},
-                "counts": {str(k): int(v) for k, v in self.counts.items()},
-                "pseudo": self.pseudo, "source": self.source.to_dict(),
-                "flags": [f.to_dict() for f in self.flags]}
-
-    def __repr__(self) -> str:
-        return (f"DirichletEstimate({len(self.alpha)} categories, {int(self.counts.sum())} "
-                f"counts, pseudo-count {_g(self.pseudo)}, concentration {_g(self.concentration)})")
-
 
 def _count_mapping(counts: Any, what: str) -> dict[str, int]:
     if isinstance(counts, pd.Series):
@@ -226,7 +87,7 @@ def _count_mapping(counts: Any, what: str) -> dict[str, int]:
                             f"{type(counts).__name__}")
     out: dict[str, int] = {}
     for k, v in counts.items():
-        name = _check_name(f"category in {what}", k)
+        name = check_name(f"category in {what}", k)
         if name in out:
             raise CaseError(f"{what} names '{name}' twice")
         out[name] = check_count(f"count of '{name}' in {what}",
@@ -296,64 +157,6 @@ def prior_from_counts(counts: Any, pseudo: float = 1.0, *, data: str = "", who: 
     return DirichletEstimate(alpha, counts_s, pseudo, src, flags)
 
 
-# --------------------------------------------------------------------------- Beta
-
-
-class BetaEstimate:
-    """A Beta distribution for a probability (a failure-on-demand probability, a
-    test's sensitivity ...), posterior of a binomial count under a Beta prior.
-
-    Attributes
-    ----------
-    a, b : float
-        Posterior parameters.
-    prior_a, prior_b : float
-        The prior's parameters; ``successes`` and ``trials`` the data.
-    """
-
-    def __init__(self, a: float, b: float, prior_a: float, prior_b: float, successes: int,
-                 trials: int, prior_label: str, source: Source, flags: list[Flag],
-                 what: str = "probability") -> None:
-        self.a, self.b = float(a), float(b)
-        self.prior_a, self.prior_b = float(prior_a), float(prior_b)
-        self.successes, self.trials = int(successes), int(trials)
-        self.prior_label = prior_label
-        self.source = source
-        self.flags = list(flags)
-        self.what = what
-
-    @property
-    def mean(self) -> float:
-        return self.a / (self.a + self.b)
-
-    @property
-    def sd(self) -> float:
-        s = self.a + self.b
-        return math.sqrt(self.a * self.b / (s * s * (s + 1)))
-
-    def quantile(self, q: Any) -> Any:
-        from scipy import stats
-
-        return stats.beta.ppf(q, self.a, self.b)
-
-    def interval(self, level: float = DEFAULT_LEVEL) -> tuple[float, float]:
-        """Equal-tailed interval ``(low, high)`` of the probability."""
-        lo, hi = _tails(level)
-        return float(self.quantile(lo)), float(self.quantile(hi))
-
-    def sample(self, n: int, rng: Any = None) -> np.ndarray:
-        return _rng(rng).beta(self.a, self.b, size=_draws(n))
-
-    def to_dict(self) -> dict[str, Any]:
-        return {"distribution": "beta", "a": self.a, "b": self.b, "prior": [self.prior_a,
-                self.prior_b], "prior_label": self.prior_label, "successes": self.successes,
-                "trials": self.trials, "mean": self.mean, "source": self.source.to_dict(),
-                "flags": [f.to_dict() for f in self.flags]}
-
-    def __repr__(self) -> str:
-        return (f"BetaEstimate({self.what}: Beta({_g(self.a)}, {_g(self.b)}), mean "
-                f"{self.mean:.4g}, from {self.successes} in {self.trials})")
-
 
 def _beta_posterior(successes: int, trials: int, prior: Any, what: str, data: str, who: str,
                     when: str, unit: str) -> BetaEstimate:
@@ -403,67 +206,6 @@ def probability_from_demands(failures: int, demands: int, prior: Any = JEFFREYS,
     return _beta_posterior(x, n, prior, "failure probability", data, who, when, "demands")
 
 
-# --------------------------------------------------------------------------- Gamma
-
-
-class GammaEstimate:
-    """A Gamma distribution for an event rate (events per unit of exposure).
-
-    Attributes
-    ----------
-    shape, rate : float
-        Posterior parameters (``rate`` in units of exposure).
-    """
-
-    def __init__(self, shape: float, rate: float, prior_shape: float, prior_rate: float,
-                 events: int, exposure: float, unit: str, prior_label: str, source: Source,
-                 flags: list[Flag]) -> None:
-        self.shape, self.rate = float(shape), float(rate)
-        self.prior_shape, self.prior_rate = float(prior_shape), float(prior_rate)
-        self.events, self.exposure = int(events), float(exposure)
-        self.unit = unit
-        self.prior_label = prior_label
-        self.source = source
-        self.flags = list(flags)
-
-    @property
-    def mean(self) -> float:
-        """Expected rate, ``shape / rate`` (events per unit of exposure)."""
-        return self.shape / self.rate
-
-    def quantile(self, q: Any) -> Any:
-        from scipy import stats
-
-        return stats.gamma.ppf(q, self.shape, scale=1.0 / self.rate)
-
-    def interval(self, level: float = DEFAULT_LEVEL) -> tuple[float, float]:
-        lo, hi = _tails(level)
-        return float(self.quantile(lo)), float(self.quantile(hi))
-
-    def probability_of_event(self, duration: float) -> float:
-        """Posterior-predictive probability of at least one event in ``duration``
-        (same unit as the exposure): ``1 - (rate / (rate + duration)) ** shape``.
-
-        The number of events in ``duration`` is negative binomial under the
-        Gamma posterior; the chance of none is ``(rate / (rate + t)) ** shape``.
-        """
-        t = check_positive("duration", duration, allow_zero=True)
-        return float(-math.expm1(self.shape * (math.log(self.rate) - math.log(self.rate + t))))
-
-    def sample(self, n: int, rng: Any = None) -> np.ndarray:
-        return _rng(rng).gamma(self.shape, 1.0 / self.rate, size=_draws(n))
-
-    def to_dict(self) -> dict[str, Any]:
-        return {"distribution": "gamma", "shape": self.shape, "rate": self.rate,
-                "prior": [self.prior_shape, self.prior_rate], "prior_label": self.prior_label,
-                "events": self.events, "exposure": self.exposure, "unit": self.unit,
-                "mean": self.mean, "source": self.source.to_dict(),
-                "flags": [f.to_dict() for f in self.flags]}
-
-    def __repr__(self) -> str:
-        per = f" per {self.unit}" if self.unit else ""
-        return (f"GammaEstimate(rate: Gamma({_g(self.shape)}, {_g(self.rate)}), mean "
-                f"{self.mean:.4g}{per}, from {self.events} in {_g(self.exposure)})")
 
 
 def rate_from_events(events: int, exposure: float, prior: Any = JEFFREYS, *, unit: str = "",
@@ -509,7 +251,7 @@ def rate_from_events(events: int, exposure: float, prior: Any = JEFFREYS, *, uni
     if r0 + t <= 0:
         raise CaseError("exposure is 0 and the prior's rate parameter is 0, so the posterior is "
                         "improper; give a positive exposure or a proper Gamma prior")
-    unit = _check_text("unit", unit)
+    unit = check_text("unit", unit)
     shape, rate = s0 + x, r0 + t
     flags = []
     if t == 0:
@@ -636,7 +378,7 @@ def _hypothesis_names(hypotheses: Any, target: Any) -> tuple[list[str], str]:
         raise CaseTypeError("hypotheses must be a Case or a list of hypothesis names, got "
                             f"{type(hypotheses).__name__}")
     else:
-        names = [_check_name("hypothesis", h) for h in hypotheses]
+        names = [check_name("hypothesis", h) for h in hypotheses]
     if len(set(names)) != len(names):
         raise CaseError(f"hypotheses {names} name one hypothesis twice")
     if len(names) < 2:
@@ -651,7 +393,7 @@ def _hypothesis_names(hypotheses: Any, target: Any) -> tuple[list[str], str]:
 def _states(states: Any) -> tuple[str, str]:
     if isinstance(states, str) or not isinstance(states, Sequence) or len(states) != 2:
         raise CaseError(f"states must be two names (positive result first), got {states!r:.60}")
-    st = (_check_name("state", states[0]), _check_name("state", states[1]))
+    st = (check_name("state", states[0]), check_name("state", states[1]))
     if st[0] == st[1]:
         raise CaseError(f"states {list(st)} are the same; name the positive and negative result")
     return st
@@ -700,8 +442,8 @@ def likelihood_from_test(sensitivity: float, specificity: float, *, target: str,
     LikelihoodEstimate
     """
     names, target = _hypothesis_names(hypotheses, target)
-    sens = _check_probability("sensitivity", sensitivity)
-    spec = _check_probability("specificity", specificity)
+    sens = check_probability("sensitivity", sensitivity)
+    spec = check_probability("specificity", specificity)
     st = _states(states)
     table, flags = _test_table(sens, spec, names, target, st)
     src = _make_source(f"test with sensitivity {sens:.6g}, specificity {spec:.6g} for '{target}'",
@@ -759,6 +501,5 @@ def likelihood_from_counts(true_positives: int, false_positives: int, false_nega
 __all__ = [
     "prior_from_counts", "probability_from_demands", "rate_from_events",
     "likelihood_from_test", "likelihood_from_counts",
-    "DirichletEstimate", "BetaEstimate", "GammaEstimate", "LikelihoodEstimate",
-    "JEFFREYS", "UNIFORM", "check_count", "check_level", "check_positive",
+    "LikelihoodEstimate", "JEFFREYS", "UNIFORM",
 ]

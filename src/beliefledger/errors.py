@@ -16,4 +16,12 @@ class CaseFileError(CaseError):
     """A case file cannot be read: bad JSON, wrong schema version, bad field."""
 
 
-__all__ = ["CaseError", "CaseTypeError", "CaseFileError"]
+class RecordError(CaseError):
+    """A notebook or record cannot be used: unreadable, malformed or not a record."""
+
+
+class RecordNotIntact(Exception):
+    """Signing was refused because the record fails its integrity check (exit code 1)."""
+
+
+__all__ = ["CaseError", "CaseTypeError", "CaseFileError", "RecordError", "RecordNotIntact"]

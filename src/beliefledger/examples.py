@@ -149,7 +149,7 @@ def example_case() -> Case:
         source={"where": "equal priors (a reviewer's check, not a belief)", "who": "R. Okafor",
                 "when": "2026-11-20", "why": "shows what the evidence alone says"},
     )
-    from .value import set_loss_table
+    from .decision import set_loss_table
 
     set_loss_table(
         case,

@@ -1,6 +1,6 @@
 """Does the conclusion survive other choices? Prior scenarios, one-way sweeps,
-break-even priors, tornado tables and (re-exported from
-:mod:`beliefledger.uncertainty`) Monte Carlo over uncertain inputs.
+break-even priors and tornado tables (the Monte Carlo over uncertain inputs
+is :mod:`beliefledger.montecarlo`).
 
 Every function reads the case and leaves it unchanged. Sweeps and tornado
 tables are computed in one vectorised pass through the engine's log-space
@@ -33,20 +33,10 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 import pandas as pd
 
+from ._checks import check_level
 from ._logmath import log_of, posterior_from_logs
-from .elicit import check_level
 from .errors import CaseError, CaseTypeError
-from .uncertainty import (
-    SimulationResult,
-    clear_uncertainty,
-    current_uncertainty,
-    fit_concentration,
-    set_likelihood_uncertainty,
-    set_prior_uncertainty,
-    simulate,
-    uncertainty_register,
-    validate_uncertainty,
-)
+from .uncertainty import current_uncertainty
 
 if TYPE_CHECKING:
     from .case import Case
@@ -77,11 +67,8 @@ def _priors(case: Case, scenario: str) -> np.ndarray:
 
 def _loglik(case: Case) -> tuple[list[str], np.ndarray]:
     """Observed step names and ln P(observed | H) per step (steps x hypotheses)."""
-    steps = case.observed_steps()
-    k = len(case.hypothesis_names)
-    if not steps:
-        return [], np.zeros((0, k))
-    return [s[0] for s in steps], log_of(np.vstack([s[2] for s in steps]))
+    names, _, rows = case.observed_log_steps()
+    return names, rows
 
 
 def _check_defined(log_prior: np.ndarray, total: np.ndarray, what: str) -> None:
@@ -257,7 +244,7 @@ def sweep_prior(case: Case, hypothesis: str, values: Any = None, *,
         column per hypothesis. ``attrs`` hold the hypothesis, scenario and
         base prior.
     """
-    h = case._get_hyp(hypothesis).name
+    h = case.hypothesis(hypothesis).name
     sc = _scenario(case, scenario)
     x = _values(values, points, f"prior sweep of '{h}'")
     p = _priors(case, sc)
@@ -289,13 +276,13 @@ def sweep_likelihood(case: Case, evidence: str, hypothesis: str, values: Any = N
         Index: the swept likelihood (named ``P(<state> | <hypothesis>)``); one
         column per hypothesis.
     """
-    ev = case._get_ev(evidence)
-    h = case._get_hyp(hypothesis).name
+    ev = case.evidence_item(evidence)
+    h = case.hypothesis(hypothesis).name
     if ev.observed is None:
         raise CaseError(f"evidence '{ev.name}' is not observed, so its likelihoods do not affect "
                         "the posterior; observe it first (case.observe) or sweep another item")
     st = ev.observed if state is None else state
-    i = ev._state_index(st)
+    i = ev.state_index(st)
     obs = ev.states.index(ev.observed)
     sc = _scenario(case, scenario)
     x = _values(values, points, f"likelihood sweep of '{ev.name}' under '{h}'")
@@ -411,7 +398,7 @@ def break_even_prior(case: Case, hypothesis: str, against: str | None = None, *,
     clinical decision making. *NEJM* 302, 1109-1117 (threshold probabilities;
     cited from memory for the general idea).
     """
-    h = case._get_hyp(hypothesis).name
+    h = case.hypothesis(hypothesis).name
     sc = _scenario(case, scenario)
     names = case.hypothesis_names
     j = names.index(h)
@@ -425,7 +412,7 @@ def break_even_prior(case: Case, hypothesis: str, against: str | None = None, *,
         score = log_of(p[others]) + total[others]
         r = others[int(np.argmax(score))]
     else:
-        r = names.index(case._get_hyp(against).name)
+        r = names.index(case.hypothesis(against).name)
         if r == j:
             raise CaseError(f"against is '{h}' itself; name a different hypothesis")
     rival = names[r]
@@ -511,7 +498,7 @@ def tornado(case: Case, focus: str | None = None, *, ranges: Mapping[Any, Any] |
     lv = check_level(level)
     names = case.hypothesis_names
     ledger = update(case, scenario=sc, with_flags=False)
-    f = ledger.map_hypothesis if focus is None else case._get_hyp(focus).name
+    f = ledger.map_hypothesis if focus is None else case.hypothesis(focus).name
     fj = names.index(f)
     p = _priors(case, sc)
     steps, ll = _loglik(case)
@@ -520,10 +507,10 @@ def tornado(case: Case, focus: str | None = None, *, ranges: Mapping[Any, Any] |
     given = {_range_key(k): v for k, v in (ranges or {}).items()}
     for key in given:
         if key[0] == "prior":
-            case._get_hyp(key[1])
+            case.hypothesis(key[1])
         else:
-            ev = case._get_ev(key[0])
-            case._get_hyp(key[1])
+            ev = case.evidence_item(key[0])
+            case.hypothesis(key[1])
             if ev.observed is None:
                 raise CaseError(f"ranges names evidence '{ev.name}', which is not observed and "
                                 "so does not move the posterior")
@@ -617,9 +604,5 @@ def tornado(case: Case, focus: str | None = None, *, ranges: Mapping[Any, Any] |
     return frame
 
 
-__all__ = [
-    "robustness", "Robustness", "sweep_prior", "sweep_likelihood", "break_even_prior",
-    "BreakEven", "tornado", "simulate", "SimulationResult", "validate_uncertainty",
-    "set_prior_uncertainty", "set_likelihood_uncertainty", "clear_uncertainty",
-    "uncertainty_register", "fit_concentration", "current_uncertainty",
-]
+__all__ = ["robustness", "Robustness", "sweep_prior", "sweep_likelihood", "break_even_prior",
+           "BreakEven", "tornado"]

@@ -11,7 +11,7 @@ from collections.abc import Mapping
 from pathlib import Path
 from typing import Any
 
-from ..errors import CaseError
+from ..errors import RecordError
 from .canonical import META_KEY, RECORD_FORMAT, RECORD_VERSION
 
 MAX_NOTEBOOK_BYTES = 256 * 1024 * 1024
@@ -21,8 +21,6 @@ MAX_OUTPUT_BYTES = 32 * 1024 * 1024
 SUPPORTED_NBFORMAT = 4
 
 
-class RecordError(CaseError):
-    """A notebook or record cannot be used: unreadable, malformed or not a record."""
 
 
 def _refuse_constant(name: str) -> Any:

@@ -233,15 +233,14 @@ def analyses(case) -> list[tuple[str, str]]:
     if case.scenarios:
         plans.append(("Robustness across prior scenarios", ("sensitivity",), "robustness"))
     if "uncertainty" in case.extras:
-        plans.append(("Uncertainty register", ("uncertainty", "sensitivity"),
-                      "uncertainty_register"))
+        plans.append(("Uncertainty register", ("uncertainty",), "uncertainty_register"))
         plans.append((f"Monte Carlo over uncertain inputs ({SIMULATION_DRAWS:,} draws, "
-                      f"seed {SEED})", ("uncertainty", "sensitivity"), "simulate"))
+                      f"seed {SEED})", ("montecarlo",), "simulate"))
     if any(not ev.is_observed for ev in case.evidence.values()):
         plans.append(("Value of information: which evidence to examine next", ("value",),
                       "rank_next_evidence"))
-    if "decision" in case.extras:
-        plans.append(("Decision summary (expected loss)", ("value",), "decision_summary"))
+    if "loss_table" in case.extras:
+        plans.append(("Decision summary (expected loss)", ("decision",), "decision_summary"))
     out = []
     for heading, mods, fname in plans:
         fn = _optional(mods, fname)

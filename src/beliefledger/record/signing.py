@@ -28,8 +28,8 @@ from datetime import UTC, datetime
 from pathlib import Path
 from typing import Any
 
+from ..errors import RecordError, RecordNotIntact
 from .canonical import canonical_bytes, fingerprint
-from .nbio import RecordError
 
 SIGNED_FIELDS = ("reviewer", "comment", "signed_at", "root", "record_format")
 
@@ -255,8 +255,6 @@ def sign(path: str | Path, reviewer: str, comment: str = "", *, key: str | Path 
     return entry
 
 
-class RecordNotIntact(Exception):
-    """Signing was refused because the record fails its integrity check (exit code 1)."""
 
 
 __all__ = ["sign", "RecordNotIntact", "keygen", "make_signoff", "check_signoff", "SignoffStatus", "key_id",

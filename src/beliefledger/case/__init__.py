@@ -1,0 +1,24 @@
+"""The case model: members, parsing, dependence, serial form, extras and the Case.
+
+``from beliefledger.case import Case, Evidence, ...`` is the public face;
+the modules beside this one hold the parts (see each module's docstring).
+"""
+
+from __future__ import annotations
+
+from .._checks import SUM_TOL
+from .members import (
+    BASE_SCENARIO,
+    CASE_MIMETYPE,
+    UNSOURCED,
+    Evidence,
+    Hypothesis,
+    JointGroup,
+    Scenario,
+    Source,
+)
+from .model import Case
+from .serial import SCHEMA_VERSION
+
+__all__ = ["Case", "Hypothesis", "Evidence", "JointGroup", "Source", "Scenario", "UNSOURCED",
+           "SUM_TOL", "BASE_SCENARIO", "CASE_MIMETYPE", "SCHEMA_VERSION"]

@@ -1,0 +1,1204 @@
+"""The case: an investigation's hypotheses, priors, evidence and prior scenarios.
+
+Every edit validates before it changes anything: a rejected edit raises a
+:class:`~beliefledger.errors.CaseError` (a ``ValueError``) or
+:class:`~beliefledger.errors.CaseTypeError` and leaves the case exactly as it
+was. All changes of state go through one boundary, :meth:`Case._edit`, which
+snapshots the state, validates the result and restores the snapshot on any
+exception. Members (see :mod:`.members`) are immutable; an edit builds new
+members and swaps them in only when the whole new state is valid.
+
+Sums are handled in two tiers. Whole tables given at once (``Case(...)``,
+``add_evidence``, ``set_priors``, ``add_scenario``) must be coherent: priors
+sum to 1 and each likelihood column sums to 1 within ``SUM_TOL`` unless
+``normalize=True`` (recorded as an assumption). Single-cell edits
+(``set_prior``, ``set_likelihood(..., state=...)``) may leave a sum off while
+the analyst is part-way through typing; the ledger then carries a
+``prior-sum`` or ``column-sum`` flag of severity ``error`` until it is
+fixed. Loaded files follow the second rule so that nothing saved is lost.
+
+This module is longer than the others on purpose: one class with one
+transaction boundary is easier to keep correct than edits spread over
+mixins; parsing, dependence, serial form and extras live beside it.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import copy
+from collections.abc import Callable, Iterable, Mapping
+from dataclasses import replace
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from .._checks import (
+    SUM_TOL,
+    check_flag,
+    check_keys,
+    check_name,
+    check_probability,
+    check_text,
+    fmt_g,
+    lookup,
+    short_list,
+)
+from ..errors import CaseError, CaseTypeError
+from . import dependence as dep
+from . import serial
+from .extras import hypotheses_changed, validate_extra
+from .members import (
+    BASE_SCENARIO,
+    CASE_MIMETYPE,
+    Evidence,
+    Hypothesis,
+    JointGroup,
+    Scenario,
+    Source,
+)
+from .parsing import (
+    is_catch_all_name,
+    parse_column,
+    parse_hypotheses,
+    parse_joint,
+    parse_table,
+    per_hypothesis,
+)
+
+
+class Case:
+    """An investigation: hypotheses, priors, evidence and prior scenarios.
+
+    Parameters
+    ----------
+    title : str
+        Short title of the case.
+    hypotheses : mapping, list, Series or DataFrame
+        ``{"H1": 0.5, ...}``; or ``{"H1": {"prior": 0.5, "source": ..., "description": ...,
+        "catch_all": ...}}``; or a list of such dicts with a ``name`` key, or of
+        :class:`Hypothesis`; or a Series of priors; or a DataFrame with a
+        ``name`` column (or names as index), a ``prior`` column and optional
+        ``description``, ``catch_all``, ``where``, ``who``, ``when``, ``why``.
+    question, analyst, notes : str
+        The question the case answers, who works it, free notes.
+    normalize : bool
+        Rescale priors that do not sum to 1; recorded as an assumption.
+    exhaustive : bool
+        Declare the hypothesis set provably exhaustive (silences the
+        ``no-catch-all`` flag; say why in ``notes``).
+    source : Source, str or dict, optional
+        Default Source for priors given without one.
+    safety_related : bool
+        The case touches health or safety: records carry the extra caution.
+
+    Examples
+    --------
+    >>> import beliefledger as bl
+    >>> case = bl.Case("Pump trip", hypotheses={"bearing": 0.6, "Other": 0.4})
+    >>> case
+    Case('Pump trip': 2 hypotheses, priors sum to 1; 0 evidence items, 0 observed; scenario 'base')
+    """
+
+    def __init__(
+        self,
+        title: str,
+        hypotheses: Any,
+        *,
+        question: str = "",
+        analyst: str = "",
+        notes: str = "",
+        normalize: bool = False,
+        exhaustive: bool = False,
+        source: Any = None,
+        safety_related: bool = False,
+    ) -> None:
+        self._init_fields(title=title, question=question, analyst=analyst, notes=notes,
+                          exhaustive=exhaustive, safety_related=safety_related)
+        default_source = Source.coerce(source, what="case source")
+        hyps = parse_hypotheses(hypotheses, default_source)
+        self._hyps = {h.name: h for h in hyps}
+        total = sum(h.prior for h in hyps)
+        if abs(total - 1.0) > SUM_TOL:
+            if not normalize:
+                raise CaseError(
+                    f"priors sum to {fmt_g(total)}, not 1 (within {SUM_TOL:g}); "
+                    "fix them or pass normalize=True to rescale them (recorded as an assumption)"
+                )
+            self._hyps = _rescaled(self._hyps, total)
+            self._record("normalize-priors", BASE_SCENARIO,
+                         f"priors entered summed to {fmt_g(total)}; rescaled to sum to 1")
+
+    def _init_fields(self, *, title: Any, question: Any, analyst: Any, notes: Any,
+                     exhaustive: Any, safety_related: Any) -> None:
+        self.title = check_name("case title", title)
+        self.question = check_text("question", question)
+        self.analyst = check_text("analyst", analyst)
+        self.notes = check_text("notes", notes)
+        self.exhaustive = check_flag("exhaustive", exhaustive)
+        self.safety_related = check_flag("safety_related", safety_related)
+        self._hyps: dict[str, Hypothesis] = {}
+        self._evidence: dict[str, Evidence] = {}
+        self._scenarios: dict[str, Scenario] = {}
+        self._groups: dict[str, JointGroup] = {}
+        self._active = BASE_SCENARIO
+        self.assumptions: list[dict[str, str]] = []
+        self.extras: dict[str, Any] = {}
+        self._listeners: list[Callable[[Case, str], None]] = []
+        self._version = 0
+
+    # ------------------------------------------------------------------ views
+    @property
+    def hypotheses(self) -> dict[str, Hypothesis]:
+        """Hypotheses in order, name -> :class:`Hypothesis` (a copy of the mapping)."""
+        return dict(self._hyps)
+
+    @property
+    def hypothesis_names(self) -> list[str]:
+        return list(self._hyps)
+
+    @property
+    def evidence(self) -> dict[str, Evidence]:
+        """Evidence items in order, name -> :class:`Evidence` (a copy of the mapping)."""
+        return dict(self._evidence)
+
+    @property
+    def evidence_names(self) -> list[str]:
+        return list(self._evidence)
+
+    @property
+    def base_priors(self) -> pd.Series:
+        """The hypothesis table's own priors (the 'base' scenario)."""
+        return pd.Series({n: h.prior for n, h in self._hyps.items()}, name="prior", dtype=float)
+
+    @property
+    def scenarios(self) -> dict[str, Scenario]:
+        """Named prior scenarios added with :meth:`add_scenario` (not 'base')."""
+        return dict(self._scenarios)
+
+    @property
+    def scenario_names(self) -> list[str]:
+        """'base' followed by the named scenarios, in the order added."""
+        return [BASE_SCENARIO, *self._scenarios]
+
+    @property
+    def active_scenario(self) -> str:
+        return self._active
+
+    @property
+    def priors(self) -> pd.Series:
+        """Priors of the active scenario (the ones :meth:`update` uses)."""
+        return self.scenario_priors(self._active)
+
+    def scenario_priors(self, name: str) -> pd.Series:
+        if name == BASE_SCENARIO:
+            return self.base_priors
+        sc = self.prior_scenario(name)
+        return pd.Series([sc.priors[h] for h in self._hyps], index=list(self._hyps),
+                         name="prior", dtype=float)
+
+    @property
+    def observed_evidence(self) -> list[Evidence]:
+        return [e for e in self._evidence.values() if e.observed is not None]
+
+    @property
+    def version(self) -> int:
+        """Increases by one with every successful edit (views use it to refresh)."""
+        return self._version
+
+    # ------------------------------------------------------------------ lookups
+    def hypothesis(self, name: str) -> Hypothesis:
+        """The hypothesis called ``name`` (an error listing the hypotheses if none is)."""
+        return lookup("hypothesis", "hypotheses", self._hyps, name)
+
+    def evidence_item(self, name: str) -> Evidence:
+        """The evidence item called ``name`` (an error listing the items if none is)."""
+        return lookup("evidence", "evidence items", self._evidence, name)
+
+    def prior_scenario(self, name: str) -> Scenario:
+        """The named prior scenario (not 'base'; an error listing the scenarios if absent)."""
+        return lookup("scenario", "scenarios", self._scenarios, name, known=self.scenario_names)
+
+    def joint_group(self, name: str) -> JointGroup:
+        """The joint evidence group called ``name``."""
+        return lookup("joint group", "joint groups", self._groups, name)
+
+    # ------------------------------------------------------------------ compute
+    def update(self):
+        """Run the sequential Bayesian update; returns a :class:`~beliefledger.engine.Ledger`."""
+        from ..engine import update
+
+        return update(self)
+
+    def observed_steps(self) -> list[tuple[str, tuple[str, ...], np.ndarray]]:
+        """The update steps in order: ``(step name, member items, P(observed | H) vector)``.
+
+        One step per observed evidence item, except that the observed members
+        of a joint group make one step (named after the group, placed at its
+        first observed member) and a conditional item contributes P(its state
+        | the evidence before it, H); see :mod:`beliefledger.case.dependence`.
+        """
+        return dep.observed_steps(self._evidence, self._groups, len(self._hyps))
+
+    def observed_log_steps(self) -> tuple[list[str], dict[str, tuple[str, ...]], np.ndarray]:
+        """The update steps as (step names, step -> member items, ln P(observed | H) as a
+        steps x hypotheses array); what the engine reads."""
+        return dep.observed_log_steps(self._evidence, self._groups, len(self._hyps))
+
+    def predictive_table(self, name: str) -> np.ndarray:
+        """P(state | hypothesis, the other observed evidence) for one item, as an array
+        (states x hypotheses); see :meth:`predictive_likelihoods`."""
+        return dep.predictive_table(self._evidence, self._groups, self.evidence_item(name).name,
+                                    len(self._hyps))
+
+    def predictive_likelihoods(self, name: str) -> pd.DataFrame:
+        """P(state | hypothesis, the other observed evidence) for one item.
+
+        For an item with no stated dependence this is its own table. For a
+        member of a joint group it is conditioned on the group's other observed
+        members; for an item in a conditional chain, on the chain's other
+        observed items. Value-of-information analysis uses it for pending items.
+        """
+        ev = self.evidence_item(name)
+        return pd.DataFrame(self.predictive_table(ev.name),
+                            index=pd.Index(ev.states, name="state"),
+                            columns=pd.Index(self.hypothesis_names, name="hypothesis"))
+
+    @property
+    def has_dependence(self) -> bool:
+        """True when some items are in a joint group or stated given another item."""
+        return dep.has_dependence(self._evidence, self._groups)
+
+    def dependence_links(self) -> dict[str, str]:
+        """Item -> the stated dependence it takes part in (``"joint group 'G'"`` or
+        ``"conditional chain from 'A'"``), for items that have one."""
+        return dep.dependence_links(self._evidence, self._groups)
+
+    # ------------------------------------------------------------------ listeners
+    def on_change(self, callback: Callable[[Case, str], None]) -> Callable[[], None]:
+        """Call ``callback(case, what)`` after every successful edit; returns an unsubscribe."""
+        self._listeners.append(callback)
+
+        def unsubscribe() -> None:
+            with contextlib.suppress(ValueError):
+                self._listeners.remove(callback)
+
+        return unsubscribe
+
+    @contextlib.contextmanager
+    def _edit(self, what: str):
+        """Apply an edit atomically: on any exception restore the previous state."""
+        snapshot = (dict(self._hyps), dict(self._evidence), dict(self._scenarios),
+                    self._active, list(self.assumptions), self.title, self.question,
+                    self.analyst, self.notes, self.exhaustive, self.safety_related,
+                    copy.deepcopy(self.extras), dict(self._groups))
+        try:
+            yield
+            dep.refreshed_conditionals(self._evidence)
+            self._validate()
+        except BaseException:
+            (self._hyps, self._evidence, self._scenarios, self._active, self.assumptions,
+             self.title, self.question, self.analyst, self.notes, self.exhaustive,
+             self.safety_related, self.extras, self._groups) = snapshot
+            raise
+        self._version += 1
+        for cb in list(self._listeners):
+            cb(self, what)
+
+    def _validate(self) -> None:
+        if not self._hyps:
+            raise CaseError("the case has no hypotheses; add at least two")
+        names = tuple(self._hyps)
+        for e in self._evidence.values():
+            if e.hypotheses != names:
+                raise AssertionError(f"evidence '{e.name}' columns out of step with hypotheses")
+        for sc in self._scenarios.values():
+            if set(sc.priors) != set(names):
+                raise AssertionError(f"scenario '{sc.name}' out of step with hypotheses")
+        dep.validate_dependence(self._evidence, self._groups, tuple(self._hyps))
+
+    def _record(self, kind: str, target: str, detail: str) -> None:
+        self.assumptions.append({"kind": kind, "target": target, "detail": detail})
+
+    # ------------------------------------------------------------------ text fields
+    def set_details(self, *, title: str | None = None, question: str | None = None,
+                    analyst: str | None = None, notes: str | None = None,
+                    exhaustive: bool | None = None, safety_related: bool | None = None) -> None:
+        """Change the case's descriptive fields."""
+        with self._edit("details"):
+            if title is not None:
+                self.title = check_name("case title", title)
+            if question is not None:
+                self.question = check_text("question", question)
+            if analyst is not None:
+                self.analyst = check_text("analyst", analyst)
+            if notes is not None:
+                self.notes = check_text("notes", notes)
+            if exhaustive is not None:
+                self.exhaustive = check_flag("exhaustive", exhaustive)
+            if safety_related is not None:
+                self.safety_related = check_flag("safety_related", safety_related)
+
+    def set_extra(self, key: str, value: Any) -> None:
+        """Store a JSON-ready section in ``case.extras`` (used by analysis modules for
+        their inputs, e.g. uncertainty ranges or a loss table); ``None`` removes it.
+        The section is validated by the validator registered for ``key`` in
+        :data:`beliefledger.case.extras.SECTIONS`, when there is one."""
+        k = check_name("extras key", key)
+        new = None if value is None else validate_extra(k, value, self)
+        with self._edit("extras"):
+            if new is None:
+                self.extras.pop(k, None)
+            else:
+                self.extras[k] = new
+
+    # ------------------------------------------------------------------ priors
+    def set_prior(self, hypothesis: str, prior: float, *, source: Any = None,
+                  rescale: bool = False) -> None:
+        """Set one hypothesis' base prior.
+
+        With ``rescale=True`` the other priors are rescaled in proportion so
+        the sum stays 1 (recorded as an assumption); otherwise the sum may be
+        left off 1, which the ledger reports as a ``prior-sum`` error until fixed.
+        """
+        h = self.hypothesis(hypothesis)
+        p = check_probability(f"prior of hypothesis '{h.name}'", prior)
+        src = h.source if source is None else Source.coerce(source, what=f"source of prior '{h.name}'")
+        with self._edit("prior"):
+            if rescale:
+                rest = sum(x.prior for n, x in self._hyps.items() if n != h.name)
+                if rest <= 0 and p < 1:
+                    raise CaseError(
+                        f"cannot rescale: the other hypotheses' priors sum to 0, so they "
+                        f"cannot absorb the change of '{h.name}' to {fmt_g(p)}; set them explicitly"
+                    )
+                scale = (1 - p) / rest if rest > 0 else 0.0
+                self._hyps = {n: (replace(x, prior=p, source=src) if n == h.name
+                                  else replace(x, prior=x.prior * scale))
+                              for n, x in self._hyps.items()}
+                self._record("rescale-priors", BASE_SCENARIO,
+                             f"prior of '{h.name}' set to {fmt_g(p)}; the others rescaled by "
+                             f"{fmt_g(scale)} to keep the sum at 1")
+            else:
+                self._hyps[h.name] = replace(h, prior=p, source=src)
+
+    def set_priors(self, priors: Mapping[str, float], *, source: Any = None,
+                   normalize: bool = False) -> None:
+        """Set all base priors at once; they must sum to 1 unless ``normalize=True``."""
+        values = self._complete_priors(priors, "priors")
+        total = sum(values.values())
+        with self._edit("priors"):
+            if abs(total - 1) > SUM_TOL:
+                if not normalize:
+                    raise CaseError(
+                        f"priors sum to {fmt_g(total)}, not 1; fix them or pass normalize=True"
+                    )
+                values = {k: v / total for k, v in values.items()}
+                self._record("normalize-priors", BASE_SCENARIO,
+                             f"priors entered summed to {fmt_g(total)}; rescaled to sum to 1")
+            new = {}
+            for n, h in self._hyps.items():
+                src = h.source if source is None else Source.coerce(source, what="priors source")
+                new[n] = replace(h, prior=values[n], source=src)
+            self._hyps = new
+
+    def normalize_priors(self) -> None:
+        """Rescale the base priors to sum to 1 (an explicit choice, recorded)."""
+        total = float(self.base_priors.sum())
+        if total <= 0:
+            raise CaseError("priors sum to 0; set at least one positive prior before normalizing")
+        with self._edit("priors"):
+            if abs(total - 1) > 0:
+                self._hyps = _rescaled(self._hyps, total)
+                self._record("normalize-priors", BASE_SCENARIO,
+                             f"priors summed to {fmt_g(total)}; rescaled to sum to 1")
+
+    def set_hypothesis(self, name: str, *, description: str | None = None,
+                       source: Any = None, catch_all: bool | None = None) -> None:
+        """Change a hypothesis' description, prior source or catch-all flag."""
+        h = self.hypothesis(name)
+        changes: dict[str, Any] = {}
+        if description is not None:
+            changes["description"] = check_text(f"description of '{h.name}'", description)
+        if source is not None:
+            changes["source"] = Source.coerce(source, what=f"source of prior '{h.name}'")
+        if catch_all is not None:
+            changes["catch_all"] = bool(catch_all)
+        with self._edit("hypothesis"):
+            self._hyps[h.name] = replace(h, **changes)
+
+    # ------------------------------------------------------------------ hypotheses
+    def add_hypothesis(self, name: str, prior: float, *, likelihoods: Mapping[str, Any] | None = None,
+                       description: str = "", source: Any = None, catch_all: bool | None = None,
+                       scenario_priors: Mapping[str, float] | None = None,
+                       extra_values: Mapping[str, Any] | None = None) -> None:
+        """Add a hypothesis; the other priors are rescaled by ``1 - prior`` (recorded).
+
+        ``likelihoods`` maps every existing evidence item to this hypothesis'
+        column (a list over the item's states, a dict state -> p, or a number
+        for an likelihood evidence item; for a conditional item, a dict parent state
+        -> column). ``scenario_priors`` gives its prior in each named scenario
+        (default: the same ``prior``). ``extra_values`` gives the new
+        hypothesis' entries of extras sections keyed by hypothesis (e.g.
+        ``{"loss_table": {action: loss}}`` when the case has a loss table).
+        Joint groups assume the new hypothesis keeps its items independent
+        (covariance 0, or the product of the members' columns); that is
+        recorded as an assumption.
+        """
+        nm = check_name("hypothesis", name)
+        if nm in self._hyps:
+            raise CaseError(f"hypothesis '{nm}' already exists; choose another name or edit it")
+        p = check_probability(f"prior of hypothesis '{nm}'", prior)
+        if p >= 1 and self._hyps:
+            raise CaseError(f"prior of new hypothesis '{nm}' is {p:g}; it must be below 1 "
+                            "so the others keep some belief")
+        for arg, value in (("likelihoods", likelihoods), ("scenario_priors", scenario_priors)):
+            if value is not None and not isinstance(value, Mapping):
+                raise CaseTypeError(f"{arg} of new hypothesis '{nm}' must be a dict (evidence or "
+                                    f"scenario name -> value), got {type(value).__name__}")
+        likelihoods = dict(likelihoods or {})
+        missing = [e for e in self._evidence if e not in likelihoods]
+        if missing:
+            raise CaseError(
+                f"new hypothesis '{nm}' needs a likelihood column for evidence {missing}; "
+                "pass likelihoods={evidence: [P(state | new hypothesis), ...]}"
+            )
+        unknown = [e for e in likelihoods if e not in self._evidence]
+        if unknown:
+            raise CaseError(f"likelihoods given for unknown evidence {unknown}; "
+                            f"the case's evidence is {list(self._evidence)}")
+        hyp = Hypothesis(nm, p, check_text("description", description),
+                         Source.coerce(source, what=f"source of prior '{nm}'"),
+                         is_catch_all_name(nm) if catch_all is None else bool(catch_all))
+        sc_p = {}
+        for sname in self._scenarios:
+            v = (scenario_priors or {}).get(sname, p)
+            sc_p[sname] = check_probability(f"prior of '{nm}' in scenario '{sname}'", v)
+        if scenario_priors:
+            bad = [s for s in scenario_priors if s not in self._scenarios]
+            if bad:
+                raise CaseError(f"scenario_priors names unknown scenario(s) {bad}")
+        new_cols = {}
+        new_cond = {}
+        for ename, ev in self._evidence.items():
+            if ev.given is not None:
+                spec = likelihoods[ename]
+                if not isinstance(spec, Mapping) or set(spec) != set(ev.parent_states):
+                    raise CaseError(f"new hypothesis '{nm}': conditional evidence '{ename}' needs "
+                                    f"a column for each state of '{ev.given}' "
+                                    f"{list(ev.parent_states)}, as a dict parent state -> column")
+                cols = []
+                for ps in ev.parent_states:
+                    col = parse_column(ev, nm, spec[ps])
+                    if abs(col.sum() - 1) > SUM_TOL:
+                        raise CaseError(f"likelihoods of evidence '{ename}' given '{ev.given}' = "
+                                        f"'{ps}' for new hypothesis '{nm}' sum to {col.sum():.4g}"
+                                        "; fix the column")
+                    cols.append(col)
+                new_cond[ename] = np.stack(cols)
+                new_cols[ename] = np.zeros(len(ev.states))  # the margin is recomputed
+            else:
+                new_cols[ename] = parse_column(ev, nm, likelihoods[ename])
+        with self._edit("hypotheses"):
+            scale = 1 - p
+            self._hyps = {n: replace(h, prior=h.prior * scale) for n, h in self._hyps.items()}
+            self._hyps[nm] = hyp
+            if self._hyps and scale != 1:
+                self._record("rescale-priors", BASE_SCENARIO,
+                             f"hypothesis '{nm}' added with prior {fmt_g(p)}; the others "
+                             f"rescaled by {fmt_g(scale)}")
+            for sname, sc in self._scenarios.items():
+                q = sc_p[sname]
+                pri = {k: v * (1 - q) for k, v in sc.priors.items()}
+                pri[nm] = q
+                self._scenarios[sname] = replace(sc, priors=pri)
+                self._record("rescale-priors", sname,
+                             f"hypothesis '{nm}' added with prior {fmt_g(q)}; the others rescaled")
+            names = tuple(self._hyps)
+            for ename, ev in self._evidence.items():
+                table = np.column_stack([ev.table, new_cols[ename]])
+                changes: dict[str, Any] = {"table": table, "hypotheses": names}
+                if ename in new_cond:
+                    changes["conditional"] = np.concatenate(
+                        [ev.conditional, new_cond[ename][:, :, None]], axis=2)
+                self._evidence[ename] = ev.replace(**changes)
+            dep.refreshed_conditionals(self._evidence)
+            for gname, g in self._groups.items():
+                if g.kind == "covariance":
+                    self._groups[gname] = g.replace(
+                        hypotheses=names, covariance=np.append(g.covariance_values, 0.0))
+                else:
+                    col = np.ones(1)
+                    for m in g.members:
+                        col = np.multiply.outer(col, self._evidence[m].table[:, -1])
+                    self._groups[gname] = g.replace(
+                        hypotheses=names, joint=np.column_stack([g.joint_values, col.reshape(-1)]))
+                self._record("group-independence", gname,
+                             f"hypothesis '{nm}' added: the items of joint group '{gname}' are "
+                             "taken as independent under it; state their dependence if known")
+            self._sync_extras({}, {nm: dict(extra_values) if extra_values else None})
+
+    def remove_hypothesis(self, name: str) -> None:
+        """Remove a hypothesis; the remaining priors are rescaled to sum to 1 (recorded)."""
+        h = self.hypothesis(name)
+        if len(self._hyps) <= 1:
+            raise CaseError(f"cannot remove '{h.name}': it is the only hypothesis")
+        rest = 1 - h.prior
+        if sum(x.prior for n, x in self._hyps.items() if n != h.name) <= 0:
+            raise CaseError(f"cannot remove '{h.name}': the other hypotheses all have prior 0")
+        with self._edit("hypotheses"):
+            del self._hyps[h.name]
+            total = sum(x.prior for x in self._hyps.values())
+            self._hyps = _rescaled(self._hyps, total)
+            self._record("rescale-priors", BASE_SCENARIO,
+                         f"hypothesis '{h.name}' (prior {fmt_g(h.prior)}) removed; the others "
+                         f"rescaled by {fmt_g(1 / rest) if rest > 0 else 'n/a'}")
+            for sname, sc in self._scenarios.items():
+                pri = {k: v for k, v in sc.priors.items() if k != h.name}
+                t = sum(pri.values())
+                if t <= 0:
+                    raise CaseError(f"cannot remove '{h.name}': in scenario '{sname}' the other "
+                                    "hypotheses all have prior 0")
+                self._scenarios[sname] = replace(sc, priors={k: v / t for k, v in pri.items()})
+            names = tuple(self._hyps)
+            for ename, ev in self._evidence.items():
+                j = ev.hypotheses.index(h.name)
+                self._evidence[ename] = ev.replace(
+                    table=np.delete(ev.table, j, axis=1), hypotheses=names,
+                    entry_sources={k: v for k, v in ev.entry_sources.items() if k[1] != h.name},
+                    conditional=(None if ev.conditional is None
+                                 else np.delete(ev.conditional, j, axis=2)))
+            for gname, g in self._groups.items():
+                j = g.hypotheses.index(h.name)
+                self._groups[gname] = g.replace(
+                    hypotheses=names,
+                    covariance=None if g.covariance_values is None else np.delete(g.covariance_values, j),
+                    joint=None if g.joint_values is None else np.delete(g.joint_values, j, axis=1))
+            self._sync_extras({h.name: None}, {})
+
+    def rename_hypothesis(self, old: str, new: str) -> None:
+        """Rename a hypothesis everywhere (evidence tables, scenarios)."""
+        h = self.hypothesis(old)
+        nm = check_name("hypothesis", new)
+        if nm == h.name:
+            return
+        if nm in self._hyps:
+            raise CaseError(f"cannot rename '{h.name}' to '{nm}': that name is taken")
+        with self._edit("hypotheses"):
+            self._hyps = {(nm if n == h.name else n): (replace(x, name=nm) if n == h.name else x)
+                          for n, x in self._hyps.items()}
+            for sname, sc in self._scenarios.items():
+                self._scenarios[sname] = replace(
+                    sc, priors={(nm if k == h.name else k): v for k, v in sc.priors.items()})
+            names = tuple(self._hyps)
+            for ename, ev in self._evidence.items():
+                self._evidence[ename] = ev.replace(
+                    hypotheses=names,
+                    entry_sources={(s, nm if hh == h.name else hh): v
+                                   for (s, hh), v in ev.entry_sources.items()})
+            for gname, g in self._groups.items():
+                self._groups[gname] = g.replace(hypotheses=names)
+            self._sync_extras({h.name: nm}, {})
+
+    # ------------------------------------------------------------------ evidence
+    def add_evidence(self, name: str, *, likelihoods: Any, states: Iterable[str] | None = None,
+                     observed: str | None = None, source: Any = None, description: str = "",
+                     shared_source: str | None = None, likelihood_evidence: bool = False,
+                     normalize: bool = False) -> Evidence:
+        """Add an evidence item with its likelihood table P(state | hypothesis).
+
+        ``likelihoods`` may be a dict hypothesis -> list over ``states``, a dict
+        hypothesis -> {state: p}, a DataFrame (states as rows, hypotheses as
+        columns) or the path of a CSV file in that layout (first column: the
+        states). With ``likelihood_evidence=True``, give P(observed state | H) per
+        hypothesis (dict hypothesis -> number); ``observed`` names the state and
+        the numbers need not sum to 1.
+        """
+        if isinstance(name, str) and name.strip() in self._groups:
+            raise CaseError(f"'{name.strip()}' is the name of a joint group; evidence and groups "
+                            "share the step names, so choose another name")
+        ev = self._build_evidence(name, likelihoods=likelihoods, states=states, observed=observed,
+                                  source=source, description=description,
+                                  shared_source=shared_source, likelihood_evidence=likelihood_evidence,
+                                  normalize=normalize)
+        with self._edit("evidence"):
+            if normalize and not likelihood_evidence:
+                self._record("normalize-likelihoods", ev.name,
+                             "likelihood columns rescaled to sum to 1 over the states")
+            self._evidence[ev.name] = ev
+        return ev
+
+    def _build_evidence(self, name, *, likelihoods, states, observed, source, description,
+                        shared_source, likelihood_evidence, normalize,
+                        replacing: bool = False) -> Evidence:
+        nm = check_name("evidence", name)
+        if nm in self._evidence and not replacing:
+            raise CaseError(f"evidence '{nm}' already exists; choose another name or edit it")
+        hyps = tuple(self._hyps)
+        if likelihood_evidence:
+            if observed is None:
+                raise CaseError(f"evidence '{nm}' is likelihood_evidence, so name its observed state "
+                                "with observed='...'")
+            obs = check_name(f"observed state of '{nm}'", observed)
+            if states is not None and list(states) not in ([obs], []):
+                raise CaseError(f"evidence '{nm}' is likelihood_evidence: give only the observed state")
+            if isinstance(likelihoods, pd.Series):
+                likelihoods = likelihoods.to_dict()
+            if not isinstance(likelihoods, Mapping):
+                raise CaseTypeError(f"likelihoods of likelihood evidence evidence '{nm}' must map each "
+                                    "hypothesis to P(observed | hypothesis)")
+            check_keys(nm, likelihoods, hyps)
+            row = []
+            for h in hyps:
+                v = likelihoods[h]
+                if isinstance(v, list | tuple) and len(v) == 1:
+                    v = v[0]
+                row.append(check_probability(f"likelihood of '{obs}' for evidence '{nm}' "
+                                              f"under hypothesis '{h}'", v))
+            table = np.array([row])
+            st = (obs,)
+        else:
+            st, table = parse_table(nm, likelihoods, states, hyps)
+            sums = table.sum(axis=0)
+            for j, h in enumerate(hyps):
+                if abs(sums[j] - 1) > SUM_TOL:
+                    if normalize and sums[j] > 0:
+                        continue
+                    raise CaseError(
+                        f"likelihoods of evidence '{nm}' for hypothesis '{h}' sum to "
+                        f"{sums[j]:.4g} over its states (want 1 within {SUM_TOL:g}); fix the "
+                        "column, pass normalize=True, or declare the evidence with likelihood_evidence=True"
+                    )
+            if normalize:
+                table = table / sums
+            if observed is not None:
+                obs = observed if isinstance(observed, str) else observed
+                if obs not in st:
+                    raise CaseError(f"observed state {obs!r} of evidence '{nm}' is not among its "
+                                    f"states {list(st)}")
+        tag = None
+        if shared_source is not None:
+            tag = check_name(f"shared-source tag of '{nm}'", shared_source)
+        return Evidence(nm, st, hyps, table, observed=observed,
+                        description=check_text("description", description),
+                        source=Source.coerce(source, what=f"source of evidence '{nm}'"),
+                        shared_source=tag, likelihood_evidence=bool(likelihood_evidence))
+
+    def remove_evidence(self, name: str) -> None:
+        ev = self.evidence_item(name)
+        g = dep.group_of(self._groups).get(ev.name)
+        if g is not None:
+            raise CaseError(f"evidence '{ev.name}' is in joint group '{g}'; remove the group "
+                            "first (remove_joint_group)")
+        kids = [e.name for e in self._evidence.values() if e.given == ev.name]
+        if kids:
+            raise CaseError(f"evidence {short_list(kids)} is stated given '{ev.name}'; remove "
+                            "that conditional evidence first")
+        with self._edit("evidence"):
+            del self._evidence[ev.name]
+
+    def rename_evidence(self, old: str, new: str) -> None:
+        ev = self.evidence_item(old)
+        nm = check_name("evidence", new)
+        if nm == ev.name:
+            return
+        if nm in self._evidence or nm in self._groups:
+            raise CaseError(f"cannot rename evidence '{ev.name}' to '{nm}': that name is taken")
+        with self._edit("evidence"):
+            self._evidence = {(nm if k == ev.name else k): (v.replace(name=nm) if k == ev.name
+                                                             else v)
+                              for k, v in self._evidence.items()}
+            for k, v in self._evidence.items():
+                if v.given == ev.name:
+                    self._evidence[k] = v.replace(given=nm)
+            for gname, g in self._groups.items():
+                if ev.name in g.members:
+                    self._groups[gname] = g.replace(
+                        members=tuple(nm if m == ev.name else m for m in g.members))
+
+    def set_evidence(self, name: str, *, description: str | None = None, source: Any = None,
+                     shared_source: str | None | bool = False) -> None:
+        """Change an item's description, source, or shared-source tag (``None`` clears it)."""
+        ev = self.evidence_item(name)
+        changes: dict[str, Any] = {}
+        if description is not None:
+            changes["description"] = check_text(f"description of '{ev.name}'", description)
+        if source is not None:
+            changes["source"] = Source.coerce(source, what=f"source of evidence '{ev.name}'")
+        if shared_source is not False:
+            changes["shared_source"] = (None if shared_source is None else
+                                        check_name(f"shared-source tag of '{ev.name}'",
+                                                    shared_source))
+        with self._edit("evidence"):
+            self._evidence[ev.name] = ev.replace(**changes)
+
+    def observe(self, evidence: str, state: str | None) -> None:
+        """Record the observed state of an evidence item (``None``: not yet observed)."""
+        ev = self.evidence_item(evidence)
+        if state is not None:
+            if not isinstance(state, str):
+                raise CaseTypeError(f"observed state of '{ev.name}' must be a string, got "
+                                    f"{type(state).__name__} {state!r:.60}")
+            if state not in ev.states:
+                raise CaseError(f"observed state {state!r} of evidence '{ev.name}' is not among "
+                                f"its states {list(ev.states)}; pick one of them or None")
+        with self._edit("observed"):
+            self._evidence[ev.name] = ev.replace(observed=state)
+
+    def set_likelihood(self, evidence: str, hypothesis: str, value: Any, *,
+                       state: str | None = None, source: Any = None,
+                       normalize: bool = False) -> None:
+        """Set likelihoods of one hypothesis for an evidence item.
+
+        With ``state`` given, ``value`` is the single entry P(state | hypothesis);
+        the column may then no longer sum to 1 (a ``column-sum`` error flag
+        until it is fixed). Without ``state``, ``value`` is the whole column (a
+        list over the states or a dict state -> p) and must sum to 1 unless
+        ``normalize=True`` or the item is likelihood evidence.
+        """
+        ev = self.evidence_item(evidence)
+        h = self.hypothesis(hypothesis)
+        _refuse_conditional_edit(ev)
+        j = ev.hypotheses.index(h.name)
+        table = np.array(ev.table)
+        entry_sources = dict(ev.entry_sources)
+        src = None if source is None else Source.coerce(
+            source, what=f"source of likelihood of '{ev.name}' under '{h.name}'")
+        if state is not None:
+            i = ev.state_index(state)
+            table[i, j] = check_probability(
+                f"likelihood of state {state!r} of evidence '{ev.name}' under hypothesis "
+                f"'{h.name}'", value)
+            if src is not None:
+                entry_sources[(state, h.name)] = src
+        else:
+            col = parse_column(ev, h.name, value)
+            s = col.sum()
+            if not ev.likelihood_evidence and abs(s - 1) > SUM_TOL:
+                if not normalize or s <= 0:
+                    raise CaseError(
+                        f"likelihoods of evidence '{ev.name}' for hypothesis '{h.name}' sum to "
+                        f"{s:.4g} over its states (want 1 within {SUM_TOL:g}); fix the column "
+                        "or pass normalize=True")
+                col = col / s
+            table[:, j] = col
+            if src is not None:
+                for st in ev.states:
+                    entry_sources[(st, h.name)] = src
+        with self._edit("likelihood"):
+            if state is None and normalize and not ev.likelihood_evidence:
+                self._record("normalize-likelihoods", ev.name,
+                             f"column of '{h.name}' rescaled to sum to 1")
+            self._evidence[ev.name] = ev.replace(table=table, entry_sources=entry_sources)
+
+    def set_likelihoods(self, evidence: str, likelihoods: Any, *, source: Any = None,
+                        normalize: bool = False) -> None:
+        """Replace an item's whole likelihood table (same states; e.g. imported from CSV)."""
+        ev = self.evidence_item(evidence)
+        _refuse_conditional_edit(ev)
+        if ev.likelihood_evidence:
+            new = self._build_evidence(ev.name, replacing=True, likelihoods=likelihoods, states=None,
+                                       observed=ev.observed, source=None, description="",
+                                       shared_source=None, likelihood_evidence=True, normalize=False)
+        else:
+            new = self._build_evidence(ev.name, replacing=True, likelihoods=likelihoods, states=None,
+                                       observed=None, source=None, description="",
+                                       shared_source=None, likelihood_evidence=False,
+                                       normalize=normalize)
+        if new.states != ev.states:
+            if set(new.states) == set(ev.states):
+                order = [new.states.index(s) for s in ev.states]
+                new = new.replace(table=new.table[order], states=ev.states)
+            else:
+                raise CaseError(f"new table for evidence '{ev.name}' has states "
+                                f"{list(new.states)}; the item's states are {list(ev.states)}")
+        with self._edit("likelihood"):
+            if normalize:
+                self._record("normalize-likelihoods", ev.name,
+                             "imported columns rescaled to sum to 1")
+            changes: dict[str, Any] = {"table": new.table, "entry_sources": {}}
+            if source is not None:
+                changes["source"] = Source.coerce(source, what=f"source of evidence '{ev.name}'")
+            self._evidence[ev.name] = ev.replace(**changes)
+
+    # ------------------------------------------------------------------ dependent evidence
+    @property
+    def joint_groups(self) -> dict[str, JointGroup]:
+        """Joint evidence groups in order, name -> :class:`JointGroup` (a copy of the mapping)."""
+        return dict(self._groups)
+
+    def add_joint_group(self, name: str, members: Iterable[str], *, covariance: Any = None,
+                        correlation: Any = None, joint: Any = None, source: Any = None,
+                        note: str = "") -> JointGroup:
+        """Join evidence items whose states are not independent given the hypothesis.
+
+        The observed members then enter the update as one step (named ``name``)
+        whose likelihood is the joint table at their observed states.
+
+        Parameters
+        ----------
+        name : str
+            Name of the group (and of its update step); distinct from every
+            evidence item's name.
+        members : list of str
+            Existing evidence items with full tables (not likelihood evidence).
+        covariance : float or mapping hypothesis -> float, optional
+            For two items of two states each: Cov(1[A = a1], 1[B = b1] | H),
+            where a1 and b1 are each item's *first* state, so that
+            P(a1, b1 | H) = P(a1 | H)·P(b1 | H) + cov. One number applies to
+            every hypothesis. It must lie in
+            [-min(P(a1)P(b1), P(a2)P(b2)), min(P(a1)P(b2), P(a2)P(b1))] under
+            each hypothesis (all four cells non-negative).
+        correlation : float or mapping, optional
+            The same as a correlation coefficient rho in [-1, 1]:
+            cov = rho·sqrt(P(a1)P(a2)P(b1)P(b2)) (the phi coefficient of the
+            two indicators).
+        joint : DataFrame or mapping, optional
+            The whole joint table: a DataFrame whose rows are the combined states
+            (a MultiIndex, one level per member, or tuples) and whose columns are
+            the hypotheses; or a mapping hypothesis -> {tuple of states: p} or
+            hypothesis -> list of p in row-major order of the combined states
+            (last member fastest). Each column sums to 1 and its margins equal
+            the members' tables.
+        source : Source, str or dict, optional
+            Where the dependence figures came from.
+        note : str
+            Why the items are dependent.
+
+        References
+        ----------
+        The covariance form of two dependent binary tests: Gardner, Stryhn,
+        Lind & Collins (2000), "Conditional dependence between tests affects
+        the diagnosis and surveillance of animal diseases", *Preventive
+        Veterinary Medicine* 45, 107-122 (recalled from memory).
+        """
+        nm = check_name("joint group", name)
+        if nm in self._groups:
+            raise CaseError(f"joint group '{nm}' already exists; remove it first or choose "
+                            "another name")
+        if isinstance(members, str) or not isinstance(members, Iterable):
+            raise CaseTypeError(f"members of joint group '{nm}' must be a list of evidence "
+                                f"names, got {type(members).__name__} {members!r:.60}")
+        mem = tuple(self.evidence_item(m).name for m in members)
+        given = [x is not None for x in (covariance, correlation, joint)]
+        if sum(given) != 1:
+            raise CaseError(f"joint group '{nm}': give exactly one of covariance=, "
+                            "correlation= or joint= (a covariance of 0 means independence)")
+        hyps = tuple(self._hyps)
+        cov = jt = None
+        if joint is not None:
+            jt = parse_joint(nm, joint, [self._evidence[m] for m in mem], hyps)
+        else:
+            if len(mem) != 2:
+                raise CaseError(f"joint group '{nm}' has {len(mem)} items; a covariance or "
+                                "correlation joins exactly two two-state items (give a joint "
+                                "table for more)")
+            raw = covariance if covariance is not None else correlation
+            label = "covariance" if covariance is not None else "correlation"
+            vals = per_hypothesis(f"{label} of joint group '{nm}'", raw, hyps)
+            if label == "correlation":
+                a, b = (self._evidence[m] for m in mem)
+                for ev in (a, b):
+                    if len(ev.states) != 2:
+                        raise CaseError(f"joint group '{nm}': a correlation needs two-state "
+                                        f"items; '{ev.name}' has states {list(ev.states)}")
+                for j, h in enumerate(hyps):
+                    if not -1 <= vals[j] <= 1:
+                        raise CaseError(f"correlation {vals[j]:g} of joint group '{nm}' under "
+                                        f"'{h}' is outside [-1, 1]")
+                vals = vals * np.sqrt(a.table[0] * a.table[1] * b.table[0] * b.table[1])
+            cov = vals
+        grp = JointGroup(nm, mem, hyps, covariance=cov, joint=jt,
+                         source=Source.coerce(source, what=f"source of joint group '{nm}'"),
+                         note=check_text(f"note of joint group '{nm}'", note))
+        with self._edit("joint groups"):
+            self._groups[nm] = grp
+        return grp
+
+    def remove_joint_group(self, name: str) -> None:
+        """Remove a joint group; its members go back to being independent items."""
+        g = self.joint_group(name)
+        with self._edit("joint groups"):
+            del self._groups[g.name]
+
+    def joint_table(self, name: str) -> pd.DataFrame:
+        """The joint likelihood table of a group: rows the combined states (one index
+        level per member), columns the hypotheses."""
+        g = self.joint_group(name)
+        arr = g.joint_array(self._evidence)
+        idx = pd.MultiIndex.from_product([self._evidence[m].states for m in g.members],
+                                         names=list(g.members))
+        return pd.DataFrame(arr.reshape(-1, len(g.hypotheses)), index=idx,
+                            columns=pd.Index(g.hypotheses, name="hypothesis"))
+
+    def add_conditional_evidence(self, name: str, *, given: str, likelihoods: Mapping[str, Any],
+                                 states: Iterable[str] | None = None, observed: str | None = None,
+                                 source: Any = None, description: str = "",
+                                 shared_source: str | None = None) -> Evidence:
+        """Add an item whose likelihood is stated given the state of an earlier item.
+
+        ``likelihoods`` maps each state of the parent item ``given`` to a table
+        P(state | parent state, hypothesis) in any form :meth:`add_evidence`
+        accepts. The item's own table (``Evidence.table``) becomes its margin
+        over the parent, sum_s P(state | s, H)·P(s | H), kept in step with the
+        parent's table. In the update, the item contributes the row for the
+        parent's observed state; when the parent is not observed, the parent's
+        state is summed out.
+        """
+        nm = check_name("evidence", name)
+        if nm in self._evidence or nm in self._groups:
+            raise CaseError(f"evidence '{nm}' already exists; choose another name or edit it")
+        parent = self.evidence_item(given)
+        st, cond = self._parse_conditional(nm, parent, likelihoods, states)
+        if observed is not None and observed not in st:
+            raise CaseError(f"observed state {observed!r} of evidence '{nm}' is not among its "
+                            f"states {list(st)}")
+        tag = None if shared_source is None else check_name(f"shared-source tag of '{nm}'",
+                                                             shared_source)
+        ev = Evidence(nm, st, tuple(self._hyps), np.einsum("psh,ph->sh", cond, parent.table),
+                      observed=observed, description=check_text("description", description),
+                      source=Source.coerce(source, what=f"source of evidence '{nm}'"),
+                      shared_source=tag, given=parent.name, parent_states=parent.states,
+                      conditional=cond)
+        with self._edit("evidence"):
+            self._evidence[nm] = ev
+        return ev
+
+    def set_conditional_likelihoods(self, evidence: str, likelihoods: Mapping[str, Any], *,
+                                    source: Any = None) -> None:
+        """Replace all the tables of a conditional item (one per parent state)."""
+        ev = self.evidence_item(evidence)
+        if ev.given is None:
+            raise CaseError(f"evidence '{ev.name}' is not conditional; edit its table with "
+                            "set_likelihoods, or add it with add_conditional_evidence")
+        st, cond = self._parse_conditional(ev.name, self._evidence[ev.given], likelihoods,
+                                           ev.states)
+        changes: dict[str, Any] = {"conditional": cond}
+        if source is not None:
+            changes["source"] = Source.coerce(source, what=f"source of evidence '{ev.name}'")
+        with self._edit("likelihood"):
+            self._evidence[ev.name] = ev.replace(**changes)
+
+    def _parse_conditional(self, nm: str, parent: Evidence, likelihoods: Any,
+                           states: Iterable[str] | None) -> tuple[tuple[str, ...], np.ndarray]:
+        if parent.likelihood_evidence:
+            raise CaseError(f"evidence '{nm}' cannot be stated given '{parent.name}': that item "
+                            "is likelihood evidence, and a parent needs a full table over its states")
+        if not isinstance(likelihoods, Mapping):
+            raise CaseTypeError(f"likelihoods of conditional evidence '{nm}' must map each state "
+                                f"of '{parent.name}' {list(parent.states)} to a table, got "
+                                f"{type(likelihoods).__name__}")
+        miss = [s for s in parent.states if s not in likelihoods]
+        extra = [s for s in likelihoods if s not in parent.states]
+        if miss or extra:
+            raise CaseError(f"likelihoods of conditional evidence '{nm}': missing state(s) "
+                            f"{miss} and unknown state(s) {extra} of '{parent.name}'; give one "
+                            f"table for each of {list(parent.states)}")
+        hyps = tuple(self._hyps)
+        st = None if states is None else tuple(states)
+        tables = []
+        for ps in parent.states:
+            label = f"{nm} | {parent.name} = {ps}"
+            st_i, tab = parse_table(label, likelihoods[ps], st, hyps)
+            if st is None:
+                st = st_i
+            elif st_i != st:
+                raise CaseError(f"tables of conditional evidence '{nm}' list different states: "
+                                f"{list(st)} and {list(st_i)}")
+            sums = tab.sum(axis=0)
+            for j, h in enumerate(hyps):
+                if abs(sums[j] - 1) > SUM_TOL:
+                    raise CaseError(
+                        f"likelihoods of evidence '{label}' for hypothesis '{h}' sum to "
+                        f"{sums[j]:.4g} over its states (want 1 within {SUM_TOL:g}); fix the "
+                        "column")
+            tables.append(tab)
+        return st, np.stack(tables)
+
+    def _sync_extras(self, renamed: Mapping[str, str | None],
+                     added: Mapping[str, Mapping[str, Any] | None]) -> None:
+        """Keep extras sections that are keyed by hypothesis in step with a change of the
+        hypothesis set (hooks registered in :data:`beliefledger.case.extras.SECTIONS`)."""
+        for key in list(self.extras):
+            self.extras[key] = hypotheses_changed(key, self.extras[key], self, renamed, added)
+
+    # ------------------------------------------------------------------ scenarios
+    def add_scenario(self, name: str, priors: Mapping[str, float], *, source: Any = None,
+                     note: str = "", normalize: bool = False, replace_existing: bool = False) -> None:
+        """Add a named set of priors (must cover every hypothesis and sum to 1)."""
+        nm = check_name("scenario", name)
+        if nm == BASE_SCENARIO:
+            raise CaseError(f"'{BASE_SCENARIO}' is the hypothesis table's own priors; "
+                            "edit those with set_priors, or choose another scenario name")
+        if nm in self._scenarios and not replace_existing:
+            raise CaseError(f"scenario '{nm}' already exists; pass replace_existing=True to "
+                            "overwrite it")
+        values = self._complete_priors(priors, f"scenario '{nm}'")
+        total = sum(values.values())
+        sc_src = Source.coerce(source, what=f"source of scenario '{nm}'")
+        with self._edit("scenarios"):
+            if abs(total - 1) > SUM_TOL:
+                if not normalize:
+                    raise CaseError(f"priors of scenario '{nm}' sum to {fmt_g(total)}, not 1; "
+                                    "fix them or pass normalize=True")
+                values = {k: v / total for k, v in values.items()}
+                self._record("normalize-priors", nm,
+                             f"scenario priors summed to {fmt_g(total)}; rescaled to 1")
+            self._scenarios[nm] = Scenario(nm, values, sc_src, check_text("note", note))
+
+    def remove_scenario(self, name: str) -> None:
+        sc = self.prior_scenario(name)
+        with self._edit("scenarios"):
+            del self._scenarios[sc.name]
+            if self._active == sc.name:
+                self._active = BASE_SCENARIO
+
+    def use_scenario(self, name: str | None) -> None:
+        """Make ``name`` the active scenario (``None`` or 'base': the table's own priors)."""
+        nm = BASE_SCENARIO if name is None else name
+        if nm != BASE_SCENARIO:
+            self.prior_scenario(nm)
+        with self._edit("scenario"):
+            self._active = nm
+
+    @contextlib.contextmanager
+    def scenario(self, name: str):
+        """Temporarily use scenario ``name`` (restored afterwards, no listeners fired)."""
+        if name != BASE_SCENARIO:
+            self.prior_scenario(name)
+        old = self._active
+        self._active = name
+        try:
+            yield self
+        finally:
+            self._active = old
+
+    def _complete_priors(self, priors: Any, what: str) -> dict[str, float]:
+        if isinstance(priors, pd.Series):
+            priors = priors.to_dict()
+        if not isinstance(priors, Mapping):
+            raise CaseTypeError(f"{what} must map each hypothesis name to its prior, got "
+                                f"{type(priors).__name__}")
+        check_keys(what, priors, tuple(self._hyps), kind="priors")
+        return {h: check_probability(f"prior of '{h}' in {what}", priors[h]) for h in self._hyps}
+
+    # ------------------------------------------------------------------ persistence
+    def to_dict(self) -> dict[str, Any]:
+        """A JSON-ready, lossless description of the case (see casefile for the envelope)."""
+        return serial.case_to_dict(self)
+
+    @classmethod
+    def from_dict(cls, data: Mapping[str, Any]) -> Case:
+        """Rebuild a case from :meth:`to_dict` output (every field validated)."""
+        return cls.from_members(**serial.parts_from_dict(data))
+
+    @classmethod
+    def from_members(cls, title: str, hypotheses: Iterable[Hypothesis], *,
+                     evidence: Iterable[Evidence] = (), scenarios: Iterable[Scenario] = (),
+                     joint_groups: Iterable[JointGroup] = (),
+                     active_scenario: str = BASE_SCENARIO,
+                     assumptions: Iterable[Mapping[str, str]] = (),
+                     extras: Mapping[str, Any] | None = None, question: str = "",
+                     analyst: str = "", notes: str = "", exhaustive: bool = False,
+                     safety_related: bool = False) -> Case:
+        """A case assembled from members already built (what loading a file does).
+
+        Unlike the constructor, priors that do not sum to 1 are kept as they are
+        (a part-way edit that was saved; the ledger flags it). The whole is
+        validated as every edit is, and the extras sections by their
+        validators; a member that does not fit is an error naming it.
+        """
+        case = cls.__new__(cls)
+        case._init_fields(title=title, question=question, analyst=analyst, notes=notes,
+                          exhaustive=exhaustive, safety_related=safety_related)
+        hyps = list(hypotheses)
+        for h in hyps:
+            if not isinstance(h, Hypothesis):
+                raise CaseTypeError(f"from_members takes Hypothesis members, got "
+                                    f"{type(h).__name__}")
+        case._hyps = {h.name: h for h in hyps}
+        if len(case._hyps) != len(hyps):
+            raise CaseError("from_members: two hypotheses share a name; names must be unique")
+        names = tuple(case._hyps)
+        for ev in evidence:
+            if ev.hypotheses != names:
+                raise CaseError(f"evidence '{ev.name}' has columns {list(ev.hypotheses)[:6]}, "
+                                f"not the case's hypotheses {list(names)[:6]}")
+            case._evidence[ev.name] = ev
+        for sc in scenarios:
+            if set(sc.priors) != set(names):
+                raise CaseError(f"scenario '{sc.name}' does not give a prior for exactly the "
+                                "case's hypotheses")
+            case._scenarios[sc.name] = sc
+        for g in joint_groups:
+            case._groups[g.name] = g
+        if active_scenario != BASE_SCENARIO and active_scenario not in case._scenarios:
+            raise CaseError(f"active scenario {active_scenario!r} is not one of the case's "
+                            f"scenarios {case.scenario_names}")
+        case._active = active_scenario
+        case.assumptions = [dict(a) for a in assumptions]
+        dep.refreshed_conditionals(case._evidence)
+        case._validate()  # evidence structure first: extras validators rely on it
+        for key, value in (extras or {}).items():
+            case.extras[check_name("extras key", key)] = validate_extra(key, value, case)
+        return case
+
+    @classmethod
+    def from_csv(cls, title: str, path: str | Path, **kwargs: Any) -> Case:
+        """Build a case from a CSV of hypotheses (columns name, prior, and optional
+        description, catch_all, where, who, when, why)."""
+        try:
+            frame = pd.read_csv(path, dtype={"name": str})
+        except (OSError, UnicodeDecodeError, pd.errors.ParserError) as exc:
+            raise CaseError(f"cannot read hypotheses CSV {str(path)!r}: {exc}") from exc
+        return cls(title, frame, **kwargs)
+
+    def save(self, path: str | Path) -> Path:
+        """Write the case to a JSON case file atomically; returns the path."""
+        from ..casefile import save_case
+
+        return save_case(self, path)
+
+    def copy(self) -> Case:
+        """An independent copy (listeners are not copied)."""
+        return type(self).from_dict(self.to_dict())
+
+    # ------------------------------------------------------------------ display
+    def __repr__(self) -> str:
+        total = sum(h.prior for h in self._hyps.values())
+        sums = "priors sum to 1" if abs(total - 1) <= SUM_TOL else f"priors sum to {fmt_g(total)}"
+        n_obs = sum(1 for e in self._evidence.values() if e.observed is not None)
+        return (f"Case({self.title!r}: {len(self._hyps)} hypotheses, {sums}; "
+                f"{len(self._evidence)} evidence items, {n_obs} observed; "
+                f"scenario {self._active!r})")
+
+    def _repr_html_(self) -> str:
+        from ..display import case_html
+
+        return case_html(self)
+
+    def _repr_mimebundle_(self, include=None, exclude=None) -> dict[str, Any]:
+        from ..casefile import envelope
+
+        return {
+            "text/plain": repr(self),
+            "text/html": self._repr_html_(),
+            CASE_MIMETYPE: envelope(self),
+        }
+
+
+def _refuse_conditional_edit(ev: Evidence) -> None:
+    if ev.given is not None:
+        raise CaseError(f"evidence '{ev.name}' is stated given '{ev.given}': its table is the "
+                        "margin of its conditional tables; edit those with "
+                        "set_conditional_likelihoods")
+
+
+
+def _rescaled(hyps: dict[str, Hypothesis], total: float) -> dict[str, Hypothesis]:
+    return {n: replace(h, prior=h.prior / total) for n, h in hyps.items()}
+
+
+
+__all__ = ["Case"]
