@@ -13,8 +13,8 @@ from hypothesis import strategies as st
 from scipy import optimize, stats
 
 import beliefledger as bl
-from beliefledger.errors import CaseError
 from beliefledger.case.extras import validate_uncertainty
+from beliefledger.errors import CaseError
 from beliefledger.uncertainty import fit_concentration
 
 
