@@ -12,8 +12,9 @@ from hypothesis import strategies as st
 from scipy.special import logsumexp
 
 import beliefledger as bl
+from beliefledger._logmath import log_normalizer
 from beliefledger.case import Evidence
-from beliefledger.engine import log_normalizer, update
+from beliefledger.engine import update
 
 
 def coin_case(n_heads: int, prior_fair: float = 0.75) -> bl.Case:

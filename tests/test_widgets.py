@@ -21,20 +21,19 @@ from beliefledger.widgets.scenarios import ChartPanel, FlagsPanel, LedgerTable
 
 
 class EngineCounter:
-    """Counts full engine runs (with flags) made while the counter is installed."""
+    """Counts the feed's engine runs (one update_all: every scenario once)."""
 
     def __init__(self, monkeypatch):
         self.calls = 0
         import beliefledger.widgets._base as base
 
-        real = base.update
+        real = base.update_all
 
         def counting(case, **kw):
-            if kw.get("scenario") is None:
-                self.calls += 1
+            self.calls += 1
             return real(case, **kw)
 
-        monkeypatch.setattr(base, "update", counting)
+        monkeypatch.setattr(base, "update_all", counting)
 
 
 def _snapshot(case: bl.Case) -> str:
@@ -61,7 +60,7 @@ def test_scenario_change_recomputes_once_and_matches_the_engine(wb, demo_case, m
     paints = wb.charts.paints
     wb.scenarios.dropdown.value = "uniform"
     # a scenario switch changes no number: the feed reuses the scenario ledgers it
-    # already holds (no engine run) and recomputes the flags once
+    # already holds (no engine run; each ledger carries its flags from the start)
     assert counter.calls == 0
     assert wb.recomputes == before + 1
     assert wb.charts.paints == paints + 1

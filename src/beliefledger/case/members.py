@@ -13,7 +13,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from .._checks import check_text
+from .._checks import SUM_TOL, check_text
 from .._logmath import log_of
 from ..errors import CaseError, CaseTypeError
 
@@ -137,7 +137,7 @@ class Evidence:
     __slots__ = (
         "name", "states", "hypotheses", "_table", "observed", "description",
         "source", "shared_source", "likelihood_evidence", "entry_sources", "given",
-        "parent_states", "_conditional", "_log", "observed_index",
+        "parent_states", "_conditional", "_log", "observed_index", "_sums", "_bad",
     )
 
     def __init__(
@@ -178,6 +178,8 @@ class Evidence:
             conditional.setflags(write=False)
         self._conditional = conditional
         self._log: np.ndarray | None = None
+        self._sums: np.ndarray | None = None
+        self._bad: tuple[int, ...] | None = None
         #: position of the observed state among the states (None while pending)
         self.observed_index = None if observed is None else self.state_index(observed)
 
@@ -205,6 +207,27 @@ class Evidence:
             lg.setflags(write=False)
             self._log = lg
         return self._log
+
+    @property
+    def column_totals(self) -> np.ndarray:
+        """Each hypothesis' column summed over the states (read-only, computed once)."""
+        if self._sums is None:
+            sums = self._table.sum(axis=0)
+            sums.setflags(write=False)
+            self._sums = sums
+        return self._sums
+
+    @property
+    def bad_columns(self) -> tuple[int, ...]:
+        """Positions of the hypotheses whose column does not sum to 1 within ``SUM_TOL``
+        (none for likelihood evidence, whose entries are relative weights)."""
+        if self._bad is None:
+            if self.likelihood_evidence:
+                self._bad = ()
+            else:
+                self._bad = tuple(int(j) for j in
+                                  np.flatnonzero(np.abs(self.column_totals - 1) > SUM_TOL))
+        return self._bad
 
     @property
     def is_conditional(self) -> bool:
@@ -256,7 +279,7 @@ class Evidence:
     def replace(self, **changes: Any) -> Evidence:
         """A copy with ``changes`` (field name -> new value); the original is untouched."""
         kw = {k: getattr(self, k) for k in self.__slots__
-              if k not in ("_table", "_conditional", "_log", "observed_index")}
+              if k not in ("_table", "_conditional", "_log", "observed_index", "_sums", "_bad")}
         kw["table"] = changes.pop("table", self._table)
         kw["conditional"] = changes.pop("conditional", self._conditional)
         kw.update(changes)

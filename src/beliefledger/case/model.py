@@ -191,6 +191,15 @@ class Case:
         """Priors of the active scenario (the ones :meth:`update` uses)."""
         return self.scenario_priors(self._active)
 
+    def prior_array(self, scenario: str | None = None) -> np.ndarray:
+        """The priors of ``scenario`` (default: the active one) as an array in hypothesis
+        order (what the engine reads; :attr:`priors` is the same as a Series)."""
+        name = self._active if scenario is None else scenario
+        if name == BASE_SCENARIO:
+            return np.fromiter((h.prior for h in self._hyps.values()), float, len(self._hyps))
+        sc = self.prior_scenario(name)
+        return np.fromiter((sc.priors[h] for h in self._hyps), float, len(self._hyps))
+
     def scenario_priors(self, name: str) -> pd.Series:
         if name == BASE_SCENARIO:
             return self.base_priors

@@ -27,9 +27,8 @@ from typing import TYPE_CHECKING, Any
 import ipywidgets as W
 
 from ..display import esc
-from ..engine import update
+from ..engine import update_all
 from ..errors import CaseError, CaseTypeError
-from ..flags import diagnose
 
 if TYPE_CHECKING:  # pragma: no cover
     from ..case import Case
@@ -177,29 +176,20 @@ class LedgerFeed:
         return out
 
     def _compute(self, what: str | None = None) -> None:
-        """Recompute the ledger (and each scenario's, for the robustness line).
+        """Recompute every scenario's ledger once (:func:`beliefledger.engine.update_all`).
 
         Switching the active scenario changes no number in the case, so on a
-        ``what == "scenario"`` edit the scenario ledgers already computed are
-        reused: the new active ledger is the stored one for that scenario,
-        given its flags by :func:`beliefledger.flags.diagnose`.
+        ``what == "scenario"`` edit the ledgers already computed are reused and
+        the new active ledger is the stored one for that scenario.
         """
         case = self.case
         names = case.scenario_names
         active = case.active_scenario
         cached = self.scenario_ledgers
-        if what == "scenario" and set(cached) == set(names) and active in cached:
-            ledger = cached[active]
-            if not ledger.flags and ledger is not self.ledger:
-                ledger.flags = diagnose(case, ledger)
-            self.ledger = ledger
-            self.scenario_ledgers = {n: cached[n] for n in names}
-        else:
-            self.ledger = update(case)
-            self.scenario_ledgers = {
-                n: self.ledger if n == active else update(case, scenario=n,
-                                                         with_flags=False)
-                for n in names}
+        if not (what == "scenario" and set(cached) == set(names) and active in cached):
+            cached = update_all(case)
+        self.scenario_ledgers = {n: cached[n] for n in names}
+        self.ledger = self.scenario_ledgers[active]
         self.scenario_maps = {n: t.map_hypothesis for n, t in self.scenario_ledgers.items()}
         self.recomputes += 1
 
