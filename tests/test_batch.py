@@ -52,7 +52,7 @@ def random_model(rng: np.random.Generator, n_hyps: int = 5, n_items: int = 7,
     return case
 
 
-def random_observations(rng: np.random.Generator, case: bl.Case, n: int,
+def random_rows(rng: np.random.Generator, case: bl.Case, n: int,
                         missing: float = 0.3) -> pd.DataFrame:
     data = {}
     for name, ev in case.evidence.items():
@@ -78,24 +78,24 @@ def model(rng) -> bl.Case:
 
 
 @pytest.fixture
-def obs(rng, model) -> pd.DataFrame:
-    return random_observations(rng, model, 400)
+def rows(rng, model) -> pd.DataFrame:
+    return random_rows(rng, model, 400)
 
 
 # --------------------------------------------------------------------------- the engine, row by row
 
 
-def test_rows_equal_engine_on_seeded_sample(model, obs, rng):
-    result = score_rows(model, obs)
-    assert list(result.index) == list(obs.index)
+def test_rows_equal_engine_on_seeded_sample(model, rows, rng):
+    result = score_rows(model, rows)
+    assert list(result.index) == list(rows.index)
     hyps = model.hypothesis_names
     assert list(result.columns) == [*hyps, *RESULT_COLUMNS]
     assert result["impossible"].any() and (~result["impossible"]).any()  # both kinds present
     assert (result["eliminated"] > 0).any()
-    sample = rng.choice(len(obs), size=150, replace=False)
+    sample = rng.choice(len(rows), size=150, replace=False)
     work = model.copy()
     for i in sample:
-        ledger = engine_row(model, obs.iloc[i], work)
+        ledger = engine_row(model, rows.iloc[i], work)
         got = result.iloc[i]
         np.testing.assert_allclose(got[hyps].to_numpy(dtype=float), ledger.posterior.to_numpy(),
                                    rtol=1e-12, atol=1e-300)
@@ -106,7 +106,7 @@ def test_rows_equal_engine_on_seeded_sample(model, obs, rng):
         stopped = None if pd.isna(got["stopped_at"]) else got["stopped_at"]
         assert stopped == ledger.stopped_at
         assert got["eliminated"] == len(ledger.eliminated)
-        assert got["n_observed"] == int(obs.iloc[i].notna().sum())
+        assert got["n_observed"] == int(rows.iloc[i].notna().sum())
         assert got["log_evidence"] == pytest.approx(ledger.log_evidence, rel=1e-12, abs=1e-12)
 
 
@@ -115,12 +115,12 @@ def test_generated_models_match_the_engine_on_every_row(seed):
     rng = np.random.default_rng(seed)
     model = random_model(rng, n_hyps=int(rng.integers(2, 6)), n_items=int(rng.integers(2, 6)),
                          zero_share=float(rng.uniform(0, 0.5)))
-    obs = random_observations(rng, model, 12, missing=float(rng.uniform(0, 0.6)))
-    result = score_rows(model, obs, chunk_size=int(rng.integers(1, 13)))
+    rows = random_rows(rng, model, 12, missing=float(rng.uniform(0, 0.6)))
+    result = score_rows(model, rows, chunk_size=int(rng.integers(1, 13)))
     hyps = model.hypothesis_names
     work = model.copy()
-    for i in range(len(obs)):
-        ledger = engine_row(model, obs.iloc[i], work)
+    for i in range(len(rows)):
+        ledger = engine_row(model, rows.iloc[i], work)
         got = result.iloc[i]
         np.testing.assert_allclose(got[hyps].to_numpy(dtype=float), ledger.posterior.to_numpy(),
                                    rtol=1e-11, atol=1e-300)
@@ -129,8 +129,8 @@ def test_generated_models_match_the_engine_on_every_row(seed):
         assert got["eliminated"] == len(ledger.eliminated)
 
 
-def test_posteriors_are_finite_distributions(model, obs):
-    result = score_rows(model, obs)
+def test_posteriors_are_finite_distributions(model, rows):
+    result = score_rows(model, rows)
     post = result[model.hypothesis_names].to_numpy()
     assert np.isfinite(post).all()
     np.testing.assert_allclose(post.sum(axis=1), 1.0, rtol=1e-12)
@@ -140,33 +140,33 @@ def test_posteriors_are_finite_distributions(model, obs):
     assert zero and (result[zero].to_numpy() == 0).all()
 
 
-def test_active_scenario_priors_are_used(model, obs):
+def test_active_scenario_priors_are_used(model, rows):
     hyps = model.hypothesis_names
     alt = dict.fromkeys(hyps, 1 / len(hyps))
     model.add_scenario("uniform", alt)
-    base = score_rows(model, obs)
+    base = score_rows(model, rows)
     model.use_scenario("uniform")
-    scored = score_rows(model, obs)
+    scored = score_rows(model, rows)
     assert not np.allclose(base[hyps].to_numpy(), scored[hyps].to_numpy())
     for i in (0, 17, 333):
-        ledger = engine_row(model, obs.iloc[i])
+        ledger = engine_row(model, rows.iloc[i])
         assert ledger.scenario == "uniform"
         np.testing.assert_allclose(scored.iloc[i][hyps].to_numpy(dtype=float),
                                    ledger.posterior.to_numpy(), rtol=1e-12, atol=1e-300)
 
 
-def test_model_case_own_observations_are_ignored(model, obs):
-    before = score_rows(model, obs)
+def test_model_case_own_observations_are_ignored(model, rows):
+    before = score_rows(model, rows)
     for name, ev in model.evidence.items():
         if not ev.likelihood_evidence:
             model.observe(name, ev.states[0])
-    pd.testing.assert_frame_equal(score_rows(model, obs), before, check_exact=True)
+    pd.testing.assert_frame_equal(score_rows(model, rows), before, check_exact=True)
 
 
 @pytest.mark.parametrize("chunk_size", [1, 7, 64, 10_000])
-def test_chunk_size_does_not_change_results(model, obs, chunk_size):
-    ref = score_rows(model, obs)
-    pd.testing.assert_frame_equal(score_rows(model, obs, chunk_size=chunk_size), ref,
+def test_chunk_size_does_not_change_results(model, rows, chunk_size):
+    ref = score_rows(model, rows)
+    pd.testing.assert_frame_equal(score_rows(model, rows, chunk_size=chunk_size), ref,
                                   check_exact=True)
 
 
@@ -176,14 +176,14 @@ def always_threads(monkeypatch):
 
 
 @pytest.mark.parametrize("threads", [1, 2, 3])
-def test_threads_do_not_change_results(model, obs, threads, always_threads):
-    ref = score_rows(model, obs, chunk_size=50, threads=1)
-    pd.testing.assert_frame_equal(score_rows(model, obs, chunk_size=50, threads=threads), ref,
+def test_threads_do_not_change_results(model, rows, threads, always_threads):
+    ref = score_rows(model, rows, chunk_size=50, threads=1)
+    pd.testing.assert_frame_equal(score_rows(model, rows, chunk_size=50, threads=threads), ref,
                                   check_exact=True)
 
 
-def test_first_bad_row_is_reported_whatever_the_threads(model, obs, always_threads):
-    frame = obs.copy()
+def test_first_bad_row_is_reported_whatever_the_threads(model, rows, always_threads):
+    frame = rows.copy()
     frame.loc["case-0390", "item 0"] = "late typo"
     frame.loc["case-0061", "item 5"] = "early typo"
     for threads in (1, 2, 4):
@@ -191,24 +191,24 @@ def test_first_bad_row_is_reported_whatever_the_threads(model, obs, always_threa
             score_rows(model, frame, chunk_size=16, threads=threads)
 
 
-def test_column_dtypes_and_order_do_not_change_results(model, obs):
-    ref = score_rows(model, obs)
-    as_cat = obs.copy()
+def test_column_dtypes_and_order_do_not_change_results(model, rows):
+    ref = score_rows(model, rows)
+    as_cat = rows.copy()
     for name, ev in model.evidence.items():
         # categories in another order than the states, plus one never used
-        as_cat[name] = pd.Categorical(obs[name], categories=[*reversed(ev.states), "unused"])
+        as_cat[name] = pd.Categorical(rows[name], categories=[*reversed(ev.states), "unused"])
     pd.testing.assert_frame_equal(score_rows(model, as_cat), ref, check_exact=True)
-    as_str = obs.astype("string")
+    as_str = rows.astype("string")
     pd.testing.assert_frame_equal(score_rows(model, as_str), ref, check_exact=True)
-    shuffled = obs[list(reversed(obs.columns))]
+    shuffled = rows[list(reversed(rows.columns))]
     pd.testing.assert_frame_equal(score_rows(model, shuffled), ref, check_exact=True)
 
 
-def test_subset_of_columns_means_not_observed(model, obs):
-    keep = obs.columns[:3]
-    sub = score_rows(model, obs[keep])
-    full = obs.copy()
-    full[obs.columns[3:]] = None
+def test_subset_of_columns_means_not_observed(model, rows):
+    keep = rows.columns[:3]
+    sub = score_rows(model, rows[keep])
+    full = rows.copy()
+    full[rows.columns[3:]] = None
     pd.testing.assert_frame_equal(sub, score_rows(model, full), check_exact=True)
 
 
@@ -286,36 +286,36 @@ def test_module_examples_run():
 # --------------------------------------------------------------------------- bad input
 
 
-def test_non_dataframe_is_refused(model, obs):
-    for bad in (obs.to_dict(), obs.to_numpy(), obs.iloc[0], None, "table.csv"):
+def test_non_dataframe_is_refused(model, rows):
+    for bad in (rows.to_dict(), rows.to_numpy(), rows.iloc[0], None, "table.csv"):
         with pytest.raises(bl.CaseTypeError, match="pandas DataFrame"):
             score_rows(model, bad)
     with pytest.raises(bl.CaseTypeError, match="Case as the model"):
-        score_rows({"H1": 0.5}, obs)
+        score_rows({"H1": 0.5}, rows)
 
 
-def test_empty_frame_is_refused(model, obs):
+def test_empty_frame_is_refused(model, rows):
     with pytest.raises(bl.CaseError, match="no rows"):
-        score_rows(model, obs.iloc[:0])
+        score_rows(model, rows.iloc[:0])
     with pytest.raises(bl.CaseError, match="no columns"):
         score_rows(model, pd.DataFrame(index=range(3)))
 
 
-def test_unknown_column_is_named(model, obs):
-    frame = obs.assign(**{"alarm id": 1})
+def test_unknown_column_is_named(model, rows):
+    frame = rows.assign(**{"alarm id": 1})
     with pytest.raises(bl.CaseError, match=r"column 'alarm id' .* not an evidence item"):
         score_rows(model, frame)
-    frame = obs.rename(columns={"item 2": "Item 2 "})
+    frame = rows.rename(columns={"item 2": "Item 2 "})
     with pytest.raises(bl.CaseError, match=r"did you mean 'item 2'"):
         score_rows(model, frame)
-    frame = obs.copy()
-    frame.columns = [*obs.columns[:-1], 7]
-    with pytest.raises(bl.CaseError, match=r"column 7 of observations"):
+    frame = rows.copy()
+    frame.columns = [*rows.columns[:-1], 7]
+    with pytest.raises(bl.CaseError, match=r"column 7 of the observation rows"):
         score_rows(model, frame)
 
 
-def test_unknown_state_label_names_row_column_and_value(model, obs):
-    frame = obs.copy()
+def test_unknown_state_label_names_row_column_and_value(model, rows):
+    frame = rows.copy()
     frame.loc["case-0123", "item 1"] = "s1-typo"
     with pytest.raises(bl.CaseError, match=r"row 'case-0123', column 'item 1': 's1-typo' is "
                                            r"not a state of evidence 'item 1'"):
@@ -336,8 +336,8 @@ def test_numbers_where_labels_belong_get_a_hint():
     assert list(ok["map"]) == ["Other", "drift"]
 
 
-def test_skip_unknown_counts_every_skipped_label(model, obs):
-    frame = obs.copy()
+def test_skip_unknown_counts_every_skipped_label(model, rows):
+    frame = rows.copy()
     frame.loc["case-0005", "item 0"] = "bogus"
     frame.loc["case-0005", "item 3"] = "bogus too"
     frame.loc["case-0009", "item 3"] = "bogus"
@@ -352,28 +352,28 @@ def test_skip_unknown_counts_every_skipped_label(model, obs):
                                   score_rows(model, cleaned), check_exact=True)
 
 
-def test_bad_options_are_refused(model, obs):
+def test_bad_options_are_refused(model, rows):
     with pytest.raises(bl.CaseError, match="on_unknown is 'ignore'"):
-        score_rows(model, obs, on_unknown="ignore")
+        score_rows(model, rows, on_unknown="ignore")
     with pytest.raises(bl.CaseError, match="chunk_size is 0"):
-        score_rows(model, obs, chunk_size=0)
+        score_rows(model, rows, chunk_size=0)
     with pytest.raises(bl.CaseTypeError, match="chunk_size"):
-        score_rows(model, obs, chunk_size=True)
+        score_rows(model, rows, chunk_size=True)
     with pytest.raises(bl.CaseTypeError, match="chunk_size"):
-        score_rows(model, obs, chunk_size=2.5)
+        score_rows(model, rows, chunk_size=2.5)
     with pytest.raises(bl.CaseError, match="threads is 0"):
-        score_rows(model, obs, threads=0)
+        score_rows(model, rows, threads=0)
     with pytest.raises(bl.CaseTypeError, match="threads"):
-        score_rows(model, obs, threads="2")
+        score_rows(model, rows, threads="2")
     with pytest.raises(bl.CaseTypeError, match="prefix"):
-        score_rows(model, obs, prefix=3)
+        score_rows(model, rows, prefix=3)
 
 
-def test_incoherent_model_is_refused_and_left_unchanged(model, obs):
+def test_incoherent_model_is_refused_and_left_unchanged(model, rows):
     model.set_prior("H0", 0.9)  # part-way edit: priors no longer sum to 1
     snapshot = model.to_dict()
     with pytest.raises(bl.CaseError, match=r"priors of scenario 'base' sum to .* not 1"):
-        score_rows(model, obs)
+        score_rows(model, rows)
     assert model.to_dict() == snapshot
     fresh = coin_model()
     fresh.set_likelihood("toss 3", "fair", 0.7, state="heads")
@@ -421,6 +421,16 @@ def test_dependent_evidence_is_refused_by_name():
 
 def test_exported_at_top_level():
     assert bl.score_rows is score_rows
+
+
+def test_rows_is_the_parameter_name(model, rows):
+    pd.testing.assert_frame_equal(score_rows(model, rows=rows), score_rows(model, rows),
+                                  check_exact=True)
+    with pytest.raises(TypeError, match="observations"):
+        score_rows(model, observations=rows)
+    with pytest.raises(bl.CaseTypeError, match=r"^rows must be a pandas DataFrame of "
+                                               r"observation rows"):
+        score_rows(model, rows.to_numpy())
 
 
 def test_pandas_scoring_loads_no_dask_and_no_notebook_packages():

@@ -1,7 +1,7 @@
 """score_rows on a Dask DataFrame, on a local two-worker cluster, against the pandas path.
 
 Needs the optional extra ``beliefledger[dask]``; skipped with a message without it.
-The model and observations are invented, seeded test data (see test_batch.py).
+The model and observation rows are invented, seeded test data (see test_batch.py).
 """
 
 from __future__ import annotations
@@ -16,7 +16,7 @@ distributed = pytest.importorskip("distributed", reason="distributed is not inst
                                   "pip install 'beliefledger[dask]' to run the Dask tests")
 
 import beliefledger as bl  # noqa: E402
-from test_batch import random_model, random_observations  # noqa: E402
+from test_batch import random_model, random_rows  # noqa: E402
 
 
 @pytest.fixture(scope="module")
@@ -42,15 +42,15 @@ def client():
 def data():
     rng = np.random.default_rng(20261201)
     model = random_model(rng)
-    obs = random_observations(rng, model, 3000)
-    return model, obs
+    rows = random_rows(rng, model, 3000)
+    return model, rows
 
 
 def test_dask_path_equals_pandas_path(client, data):
-    model, obs = data
-    ref = bl.score_rows(model, obs)
+    model, rows = data
+    ref = bl.score_rows(model, rows)
     assert ref["impossible"].any() and (ref["eliminated"] > 0).any()
-    ddf = dd.from_pandas(obs, npartitions=5)
+    ddf = dd.from_pandas(rows, npartitions=5)
     lazy = bl.score_rows(model, ddf, chunk_size=97)
     assert isinstance(lazy, dd.DataFrame)
     assert list(lazy.columns) == list(ref.columns)
@@ -62,8 +62,8 @@ def test_dask_path_equals_pandas_path(client, data):
 
 
 def test_dask_categorical_columns_and_skip_option(client, data):
-    model, obs = data
-    frame = obs.copy()
+    model, rows = data
+    frame = rows.copy()
     frame.iloc[11, 2] = "not a state"
     cat = frame.astype("category")
     ref = bl.score_rows(model, frame, on_unknown="skip")
@@ -74,8 +74,8 @@ def test_dask_categorical_columns_and_skip_option(client, data):
 
 
 def test_dask_unknown_label_raises_case_error_at_compute(client, data):
-    model, obs = data
-    frame = obs.copy()
+    model, rows = data
+    frame = rows.copy()
     frame.loc["case-2500", "item 4"] = "typo"
     lazy = bl.score_rows(model, dd.from_pandas(frame, npartitions=4))
     with pytest.raises(bl.CaseError, match=r"row 'case-2500', column 'item 4': 'typo'"):
@@ -83,7 +83,8 @@ def test_dask_unknown_label_raises_case_error_at_compute(client, data):
 
 
 def test_dask_bad_columns_fail_before_compute(data):
-    model, obs = data
-    ddf = dd.from_pandas(obs.assign(extra=1), npartitions=2)
-    with pytest.raises(bl.CaseError, match=r"column 'extra' of observations is not an evidence"):
+    model, rows = data
+    ddf = dd.from_pandas(rows.assign(extra=1), npartitions=2)
+    with pytest.raises(bl.CaseError,
+                       match=r"column 'extra' of the observation rows is not an evidence"):
         bl.score_rows(model, ddf)

@@ -1,9 +1,11 @@
-"""Batch scoring: one audited evidence model applied to many cases at once.
+"""Batch scoring: one audited evidence model applied to many observation rows at once.
 
 :func:`score_rows` takes a model :class:`~beliefledger.case.Case` (its
 hypotheses, the priors of its active scenario and the likelihood table of
-each evidence item) and a table of observations, one row per case and one
-column per evidence item, and returns the posterior of every row.
+each evidence item) and a table of observation rows, one row per incident,
+alarm or claim and one column per evidence item, and returns the posterior
+of every row. (A case, in beliefledger, is an investigation; the rows are
+the many things scored against one case's model.)
 
 How: each item's natural-log likelihood table is extended with two count
 columns (observed, unknown label) and neighbouring items are bundled into
@@ -16,8 +18,8 @@ rows there are. A Dask DataFrame is scored partition by partition
 (``map_partitions``) and gives a Dask DataFrame back.
 
 The result equals :func:`beliefledger.engine.update` run on each row alone
-(the tests check this on a seeded random sample), including the two edge
-cases the engine defines:
+(the tests check this on a seeded random sample), including the two
+boundary rules the engine defines:
 
 - an observed state with likelihood exactly 0 under a hypothesis eliminates
   it (posterior exactly 0, counted in ``eliminated``);
@@ -102,7 +104,7 @@ def compile_model(case: Case) -> _Model:
                 j = int(bad[0])
                 raise CaseError(f"likelihoods of evidence '{ev.name}' for hypothesis "
                                 f"'{hyps[j]}' sum to {sums[j]:.6g} over its states, not 1; fix "
-                                "the column before scoring cases with this model")
+                                "the column before scoring rows with this model")
         ns, nh = len(ev.states), len(hyps)
         lt = np.zeros((ns + 2, nh + 2))
         lt[:ns, :nh] = log_of(t)
@@ -130,9 +132,9 @@ def _check_count(name: str, value: Any, kind: str, fix: str) -> None:
         raise CaseError(f"{name} is {value}; {fix}")
 
 
-def score_rows(case: Case, observations: Any, *, chunk_size: int | None = None,
-                on_unknown: str = "raise", prefix: str = "", threads: int | None = None) -> Any:
-    """Posterior of every case in a table of observations, under one model case.
+def score_rows(case: Case, rows: Any, *, chunk_size: int | None = None,
+               on_unknown: str = "raise", prefix: str = "", threads: int | None = None) -> Any:
+    """Posterior of every observation row of a table, under one model case.
 
     Parameters
     ----------
@@ -142,8 +144,9 @@ def score_rows(case: Case, observations: Any, *, chunk_size: int | None = None,
         itself has observed are ignored; each row brings its own. The priors
         must sum to 1 and each likelihood column to 1 (likelihood evidence items
         excepted), else a :class:`~beliefledger.errors.CaseError` is raised.
-    observations : pandas.DataFrame or dask.dataframe.DataFrame
-        One row per case, one column per evidence item of the model (a
+    rows : pandas.DataFrame or dask.dataframe.DataFrame
+        The observation rows: one row per incident, alarm or claim, one
+        column per evidence item of the model (a
         subset is fine: a missing column means not observed in any row).
         Values are state labels of that item; missing values (NaN, None,
         ``pd.NA``) mean not observed. Categorical columns are fastest.
@@ -166,7 +169,7 @@ def score_rows(case: Case, observations: Any, *, chunk_size: int | None = None,
     Returns
     -------
     pandas.DataFrame or dask.dataframe.DataFrame
-        Same index as ``observations``. One float column per hypothesis (the
+        Same index as ``rows``. One float column per hypothesis (the
         posterior; rows sum to 1), then:
 
         ``map``
@@ -190,7 +193,7 @@ def score_rows(case: Case, observations: Any, *, chunk_size: int | None = None,
     Raises
     ------
     CaseTypeError
-        ``observations`` is not a DataFrame, or ``case`` is not a Case.
+        ``rows`` is not a DataFrame, or ``case`` is not a Case.
     CaseError
         An empty frame, a column that is not an evidence item of the model,
         an unknown state label (with ``on_unknown="raise"``), an incoherent
@@ -217,26 +220,26 @@ def score_rows(case: Case, observations: Any, *, chunk_size: int | None = None,
     _check_count("threads", threads, "must be a whole number", "give 1 or more")
     if not isinstance(prefix, str):
         raise CaseTypeError(f"prefix must be a string, got {type(prefix).__name__}")
-    is_dask = _is_dask_frame(observations)
-    if not is_dask and not isinstance(observations, pd.DataFrame):
+    is_dask = _is_dask_frame(rows)
+    if not is_dask and not isinstance(rows, pd.DataFrame):
         raise CaseTypeError(
-            f"observations must be a pandas DataFrame (one row per case, one column per "
-            f"evidence item) or a Dask DataFrame, got {type(observations).__name__}; build "
-            "one with pandas.DataFrame(...)")
+            f"rows must be a pandas DataFrame of observation rows (one row per incident, alarm "
+            f"or claim, one column per evidence item) or a Dask DataFrame, got "
+            f"{type(rows).__name__}; build one with pandas.DataFrame(...)")
     model = compile_model(case)
-    columns = _check_columns(model, observations.columns)
+    columns = _check_columns(model, rows.columns)
     _refuse_dependent(case, [c for _, c in columns])
     names = _output_names(model, prefix, on_unknown)
     if is_dask:
-        meta = _score_frame(model, observations._meta, columns, names, chunk_size, on_unknown)
-        return observations.map_partitions(_score_partition, model, columns=columns, names=names,
-                                           chunk_size=chunk_size, on_unknown=on_unknown,
-                                           threads=threads or 1, meta=meta,
-                                           align_dataframes=False)
-    if len(observations) == 0:
-        raise CaseError("observations has no rows; give one row per case to score")
+        meta = _score_frame(model, rows._meta, columns, names, chunk_size, on_unknown)
+        return rows.map_partitions(_score_partition, model, columns=columns, names=names,
+                                   chunk_size=chunk_size, on_unknown=on_unknown,
+                                   threads=threads or 1, meta=meta, align_dataframes=False)
+    if len(rows) == 0:
+        raise CaseError("the frame of observation rows has no rows; give one row per incident, "
+                        "alarm or claim to score")
     threads = threads or min(os.cpu_count() or 1, 4)
-    return _score_frame(model, observations, columns, names, chunk_size, on_unknown, threads)
+    return _score_frame(model, rows, columns, names, chunk_size, on_unknown, threads)
 
 
 # --------------------------------------------------------------------------- checks
@@ -252,15 +255,15 @@ def _check_columns(model: _Model, columns: Sequence[Any]) -> tuple[tuple[int, An
     """(item position, column label) for each column, in the model's evidence order."""
     cols = list(columns)
     if not cols:
-        raise CaseError("observations has no columns; give one column per evidence item, "
-                        f"named after the items {_short(model.items)}")
+        raise CaseError("the frame of observation rows has no columns; give one column per "
+                        f"evidence item, named after the items {_short(model.items)}")
     pos = {name: i for i, name in enumerate(model.items)}
     seen: dict[Any, int] = {}
     out = []
     for c in cols:
         if c in seen:
-            raise CaseError(f"observations has column {c!r} twice; give each evidence item "
-                            "one column")
+            raise CaseError(f"the observation rows have column {c!r} twice; give each evidence "
+                            "item one column")
         seen[c] = 1
         if not isinstance(c, str) or c not in pos:
             hint = ""
@@ -268,9 +271,9 @@ def _check_columns(model: _Model, columns: Sequence[Any]) -> tuple[tuple[int, An
                 near = [n for n in model.items if n.strip().lower() == c.strip().lower()]
                 if near:
                     hint = f" (did you mean {near[0]!r}?)"
-            raise CaseError(f"column {c!r} of observations is not an evidence item of the model"
-                            f"{hint}; the items are {_short(model.items)}; rename or drop the "
-                            "column (keep case identifiers in the index)")
+            raise CaseError(f"column {c!r} of the observation rows is not an evidence item of "
+                            f"the model{hint}; the items are {_short(model.items)}; rename or "
+                            "drop the column (keep row identifiers, e.g. alarm ids, in the index)")
         out.append((pos[c], c))
     return tuple(sorted(out, key=lambda t: t[0]))
 
@@ -283,7 +286,7 @@ def _refuse_dependent(case: Case, names: list[str]) -> None:
         if name in links:
             raise CaseError(f"column '{name}' is evidence in a stated dependence ({links[name]}); "
                             "score_rows handles independent evidence items only: drop the "
-                            "column, or score such cases one by one with case.update()")
+                            "column, or score such rows one by one with case.update()")
 
 
 def _output_names(model: _Model, prefix: str, on_unknown: str) -> tuple[str, ...]:
