@@ -325,15 +325,194 @@ def test_unknown_state_label_names_row_column_and_value(model, rows):
         score_rows(model, as_cat, chunk_size=50)
 
 
-def test_numbers_where_labels_belong_get_a_hint():
-    case = bl.Case("gauge", hypotheses={"drift": 0.2, "Other": 0.8})
-    case.add_evidence("reading", states=["0", "1"],
-                      likelihoods={"drift": [0.3, 0.7], "Other": [0.9, 0.1]})
-    with pytest.raises(bl.CaseError, match=r"row 0, column 'reading': 0 is not a state.*int64 "
-                                           r"values: convert it with \.astype\(str\)"):
-        score_rows(case, pd.DataFrame({"reading": [0, 1]}))
-    ok = score_rows(case, pd.DataFrame({"reading": [0, 1]}).astype(str))
-    assert list(ok["map"]) == ["Other", "drift"]
+def gauge_model(level_states: tuple[str, ...] = ("0", "1", "2")) -> bl.Case:
+    """Integer-coded states (a level 0-2, a crew shift 1-2, a signed offset) beside a text
+    item; numbers invented."""
+    case = bl.Case("gauge", hypotheses={"drift": 0.2, "leak": 0.3, "Other": 0.5})
+    n = len(level_states)
+    case.add_evidence("level", states=list(level_states),
+                      likelihoods={"drift": list(np.linspace(1, 2, n) / np.linspace(1, 2, n).sum()),
+                                   "leak": [1 / n] * n, "Other": [0.0] + [1 / (n - 1)] * (n - 1)})
+    case.add_evidence("shift", states=["1", "2"],
+                      likelihoods={"drift": [0.7, 0.3], "leak": [0.4, 0.6], "Other": [0.5, 0.5]})
+    case.add_evidence("offset", states=["-1", "0", "1"],
+                      likelihoods={"drift": [0.1, 0.2, 0.7], "leak": [0.6, 0.3, 0.1],
+                                   "Other": [0.2, 0.6, 0.2]})
+    case.add_evidence("zone", states=["north", "south"],
+                      likelihoods={"drift": [0.5, 0.5], "leak": [0.8, 0.2], "Other": [0.5, 0.5]})
+    return case
+
+
+def gauge_rows(rng: np.random.Generator, n: int = 300) -> pd.DataFrame:
+    """Whole numbers with gaps as pandas reads them (float64, NaN for missing)."""
+    def coded(lo: int, hi: int) -> np.ndarray:
+        x = rng.integers(lo, hi + 1, size=n).astype(float)
+        x[rng.random(n) < 0.25] = np.nan
+        return x
+    zone = np.array(["north", "south"], dtype=object)[rng.integers(2, size=n)]
+    return pd.DataFrame({"level": coded(0, 2), "shift": coded(1, 2), "offset": coded(-1, 1),
+                         "zone": zone}, index=pd.RangeIndex(100, 100 + n, name="alarm"))
+
+
+def as_labels(frame: pd.DataFrame) -> pd.DataFrame:
+    """The reference: the same rows with the numbers written as state labels."""
+    return frame.apply(lambda c: c.map(lambda v: v if isinstance(v, str) or pd.isna(v)
+                                       else str(int(v)), na_action="ignore"))
+
+
+def test_integer_coded_columns_score_like_their_labels(rng):
+    case, frame = gauge_model(), gauge_rows(rng)
+    ref = score_rows(case, as_labels(frame))
+    assert ref["eliminated"].any() and ref["n_observed"].min() < ref["n_observed"].max()
+    pd.testing.assert_frame_equal(score_rows(case, frame), ref, check_exact=True)
+    whole = frame.fillna({"level": 0, "shift": 1, "offset": 0})
+    ref_whole = score_rows(case, as_labels(whole))
+    for dtype in ("int64", "int8", "int32"):
+        got = score_rows(case, whole.astype({"level": dtype, "shift": dtype, "offset": dtype}))
+        pd.testing.assert_frame_equal(got, ref_whole, check_exact=True)
+    unsigned = whole.astype({"level": "uint8", "shift": "uint64"})
+    pd.testing.assert_frame_equal(score_rows(case, unsigned), ref_whole, check_exact=True)
+    nullable = frame.astype({"level": "Int64", "shift": "Int8", "offset": "Float64"})
+    pd.testing.assert_frame_equal(score_rows(case, nullable, chunk_size=37), ref,
+                                  check_exact=True)
+
+
+def test_integer_states_need_not_start_at_zero_and_missing_numbers_are_not_observed():
+    case = gauge_model(level_states=("1", "2", "3"))
+    frame = pd.DataFrame({"level": [1.0, np.nan, 3.0], "shift": [np.nan, 2.0, 1.0]})
+    got = score_rows(case, frame)
+    pd.testing.assert_frame_equal(got, score_rows(case, as_labels(frame)), check_exact=True)
+    assert list(got["n_observed"]) == [1, 1, 2]
+
+
+def test_integer_categories_take_the_fast_categorical_path(rng):
+    case, frame = gauge_model(), gauge_rows(rng)
+    ref = score_rows(case, frame)
+    cat = frame.astype("category")  # int-valued float categories (1.0, 2.0) from the gaps
+    assert cat["shift"].cat.categories.dtype == np.float64
+    as_int = cat.copy()
+    as_int["level"] = frame["level"].fillna(-7).astype(int).astype("category") \
+        .cat.remove_categories([-7])  # int64 categories; -7 missing again
+    assert as_int["level"].cat.categories.dtype == np.int64
+    for got in (cat, as_int):
+        pd.testing.assert_frame_equal(score_rows(case, got, chunk_size=50), ref,
+                                      check_exact=True)
+    coder = batch._Coder("level", ("0", "1", "2"), as_int["level"])
+    assert coder.codes is not None  # categories mapped once, through their text
+    assert list(coder.lut) == [0, 1, 2, 3]  # the last entry: missing, not observed
+
+
+def test_two_spellings_of_one_number_are_refused_by_value():
+    case = gauge_model(level_states=("1", "01", "2"))
+    with pytest.raises(bl.CaseError, match=r"row 1, column 'level': 1 could be state '1' or "
+                                           r"'01'.*two states spell 1: rename the states.*"
+                                           r"\.map\(\{1: '01'\}\)"):
+        score_rows(case, pd.DataFrame({"level": [2, 1, 2]}))
+    with pytest.raises(bl.CaseError, match=r"row 1, column 'level': 1 could be"):
+        score_rows(case, pd.DataFrame({"level": pd.Categorical([2, 1])}))
+    with pytest.raises(bl.CaseError, match=r"could be state '1' or '01'"):  # skip is no way out
+        score_rows(case, pd.DataFrame({"level": [1.0, np.nan]}), on_unknown="skip")
+    ok = score_rows(case, pd.DataFrame({"level": [2, 2]}))  # 2 has one spelling
+    pd.testing.assert_frame_equal(ok, score_rows(case, pd.DataFrame({"level": ["2", "2"]})),
+                                  check_exact=True)
+
+
+def test_a_non_whole_number_is_refused():
+    case = gauge_model()
+    frame = pd.DataFrame({"level": [0.0, np.nan, 1.5], "shift": [1.0, 2.0, 2.0]},
+                         index=["a", "b", "c"])
+    with pytest.raises(bl.CaseError, match=r"row 'c', column 'level': 1.5 is not a whole number;"
+                                           r".* its states are \['0', '1', '2'\]; fix the "
+                                           r"value, or leave it empty \(NaN\) for not "
+                                           r"observed$"):
+        score_rows(case, frame)
+    with pytest.raises(bl.CaseError, match=r"row 'c', column 'level': 1.5 is not a whole"):
+        score_rows(case, frame, on_unknown="skip")
+    with pytest.raises(bl.CaseError, match=r"row 'b', column 'level': inf is not a whole"):
+        score_rows(case, pd.DataFrame({"level": [0.0, np.inf]}, index=["a", "b"]))
+    with pytest.raises(bl.CaseError, match=r"row 1, column 'level': 1.5 is not a whole"):
+        score_rows(case, pd.DataFrame({"level": pd.Categorical([0.0, 1.5])}))
+    # states written as decimal text: the hint says how to turn the numbers into labels
+    dec = bl.Case("dose", hypotheses={"over": 0.5, "Other": 0.5})
+    dec.add_evidence("dose", states=["0.5", "1.5"],
+                     likelihoods={"over": [0.2, 0.8], "Other": [0.7, 0.3]})
+    with pytest.raises(bl.CaseError, match=r"1.5 is not a whole number.*convert it with "
+                                           r"\.astype\('string'\), which keeps missing"):
+        score_rows(dec, pd.DataFrame({"dose": [1.5, np.nan]}))
+    fixed = score_rows(dec, pd.DataFrame({"dose": [1.5, np.nan]}).astype("string"))
+    assert list(fixed["n_observed"]) == [1, 0] and fixed["over"].iloc[0] > 0.5
+
+
+def test_a_number_that_is_no_state_is_unknown():
+    case = gauge_model()
+    frame = pd.DataFrame({"level": [0, 7, 1]}, index=["a", "b", "c"])
+    with pytest.raises(bl.CaseError, match=r"row 'b', column 'level': 7 is not a state of "
+                                           r"evidence 'level' \(a number is read as the state "
+                                           r"that spells it: 7 as '7', not a state\); its "
+                                           r"states are \['0', '1', '2'\]"):
+        score_rows(case, frame)
+    with pytest.raises(bl.CaseError, match=r"row 'b', column 'level': 7.0 is not a state"):
+        score_rows(case, frame.astype(float))
+    with pytest.raises(bl.CaseError, match=r"row 'b', column 'level': 7 is not a state"):
+        score_rows(case, frame.astype("category"))
+    with pytest.raises(bl.CaseError, match=r"column 'zone': 3 is not a state.*'north'"):
+        score_rows(case, pd.DataFrame({"zone": [3]}))  # a text item: every number unknown
+    skipped = score_rows(case, frame, on_unknown="skip")
+    assert list(skipped[UNKNOWN_COLUMN]) == [0, 1, 0]
+    cleaned = frame.astype(float).where(frame != 7)
+    pd.testing.assert_frame_equal(skipped.drop(columns=UNKNOWN_COLUMN),
+                                  score_rows(case, cleaned), check_exact=True)
+
+
+@pytest.mark.parametrize("states", [("-1", "0", "2"), ("-40000", "0", "40000", "90000")],
+                         ids=["table", "binary search"])
+def test_numbers_outside_the_states_are_unknown_at_every_range(states):
+    case = bl.Case("span", hypotheses={"A": 0.4, "B": 0.6})
+    n = len(states)
+    case.add_evidence("code", states=list(states),
+                      likelihoods={"A": list(np.arange(1, n + 1) / np.arange(1, n + 1).sum()),
+                                   "B": [1 / n] * n})
+    big = np.iinfo(np.int64)
+    values = [int(s) for s in states] + [int(states[0]) - 1, int(states[-1]) + 1, 1, big.min,
+                                         big.max]
+    frame = pd.DataFrame({"code": values})
+    got = score_rows(case, frame, on_unknown="skip")
+    assert list(got[UNKNOWN_COLUMN]) == [0] * n + [1] * 5
+    labels = pd.DataFrame({"code": list(states) + [None] * 5})
+    pd.testing.assert_frame_equal(got.drop(columns=UNKNOWN_COLUMN), score_rows(case, labels),
+                                  check_exact=True)
+    huge = pd.DataFrame({"code": np.array([2**64 - 1, 2**63, 0], dtype=np.uint64)})
+    assert list(score_rows(case, huge, on_unknown="skip")[UNKNOWN_COLUMN]) == [1, 1, 0]
+    with pytest.raises(bl.CaseError, match=r"row 0, column 'code': 1e\+30 is not a state"):
+        score_rows(case, pd.DataFrame({"code": [1e30]}))
+
+
+def test_padded_state_names_get_a_hint():
+    case = gauge_model(level_states=("00", "01", "02"))
+    with pytest.raises(bl.CaseError, match=r"row 0, column 'level': 1 is not a state.*the "
+                                           r"states spell it '01': rename the states to plain "
+                                           r"numbers, or map.*\.map\(\{1: '01'\}\)"):
+        score_rows(case, pd.DataFrame({"level": [1, 2]}))
+
+
+def test_labels_held_as_other_values_get_a_hint():
+    case = bl.Case("valve", hypotheses={"stuck": 0.2, "Other": 0.8})
+    case.add_evidence("closed", states=["True", "False"],
+                      likelihoods={"stuck": [0.9, 0.1], "Other": [0.4, 0.6]})
+    flags = pd.DataFrame({"closed": pd.Categorical([True, False, None])})
+    with pytest.raises(bl.CaseError, match=r"row 0, column 'closed': True is not a state.*the "
+                                           r"categories are bool values, not text: rename them "
+                                           r"with \.cat\.rename_categories\(str\), which "
+                                           r"keeps the fast categorical path"):
+        score_rows(case, flags)
+    fixed = flags.apply(lambda c: c.cat.rename_categories(str))
+    ref = score_rows(case, pd.DataFrame({"closed": ["True", "False", None]}))
+    pd.testing.assert_frame_equal(score_rows(case, fixed), ref, check_exact=True)
+    held = pd.DataFrame({"closed": pd.Series([True, False, None], dtype=object)})
+    with pytest.raises(bl.CaseError, match=r"the column holds object values, not text: convert "
+                                           r"it with \.astype\('string'\)"):
+        score_rows(case, held)
+    pd.testing.assert_frame_equal(score_rows(case, held.astype("string")), ref, check_exact=True)
 
 
 def test_skip_unknown_counts_every_skipped_label(model, rows):

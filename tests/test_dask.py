@@ -16,7 +16,7 @@ distributed = pytest.importorskip("distributed", reason="distributed is not inst
                                   "pip install 'beliefledger[dask]' to run the Dask tests")
 
 import beliefledger as bl  # noqa: E402
-from test_batch import random_model, random_rows  # noqa: E402
+from test_batch import gauge_model, gauge_rows, random_model, random_rows  # noqa: E402
 
 
 @pytest.fixture(scope="module")
@@ -88,3 +88,10 @@ def test_dask_bad_columns_fail_before_compute(data):
     with pytest.raises(bl.CaseError,
                        match=r"column 'extra' of the observation rows is not an evidence"):
         bl.score_rows(model, ddf)
+
+
+def test_dask_integer_coded_columns(client):
+    case, frame = gauge_model(), gauge_rows(np.random.default_rng(20261202), 500)
+    ref = bl.score_rows(case, frame)
+    got = client.compute(bl.score_rows(case, dd.from_pandas(frame, npartitions=3))).result()
+    pd.testing.assert_frame_equal(got, ref, check_exact=True)

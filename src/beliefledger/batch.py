@@ -35,6 +35,7 @@ Dask DataFrame brings it along; ``pip install 'beliefledger[dask]'``).
 from __future__ import annotations
 
 import os
+import re
 import threading
 from collections.abc import Sequence
 from concurrent.futures import ThreadPoolExecutor
@@ -150,6 +151,16 @@ def score_rows(case: Case, rows: Any, *, chunk_size: int | None = None,
         subset is fine: a missing column means not observed in any row).
         Values are state labels of that item; missing values (NaN, None,
         ``pd.NA``) mean not observed. Categorical columns are fastest.
+
+        Integer-coded states: an integer or float column (numpy or pandas
+        nullable), or a categorical whose categories are numbers, is read as
+        whole-number codes: the value ``v`` is the state spelled
+        ``str(int(v))`` (states ``["0", "1", "2"]`` or ``["1", "2"]``), and
+        NaN is not observed, so integers with gaps, which pandas keeps as
+        float, need no conversion. A value that is not a whole number (1.5),
+        or a number two states spell (``"1"`` and ``"01"``), raises a
+        ``CaseError`` whatever ``on_unknown`` says; a number no state spells
+        is an unknown label.
     chunk_size : int, optional
         Rows scored at a time (default: about 4 MB of float64 per chunk).
         Results do not depend on it.
@@ -196,8 +207,9 @@ def score_rows(case: Case, rows: Any, *, chunk_size: int | None = None,
         ``rows`` is not a DataFrame, or ``case`` is not a Case.
     CaseError
         An empty frame, a column that is not an evidence item of the model,
-        an unknown state label (with ``on_unknown="raise"``), an incoherent
-        model, or evidence that depends on other evidence.
+        an unknown state label (with ``on_unknown="raise"``), a number that
+        cannot be read as a state (not whole, or two states spell it), an
+        incoherent model, or evidence that depends on other evidence.
 
     Examples
     --------
@@ -308,49 +320,190 @@ def _short(names: Sequence[str], limit: int = 10) -> str:
 
 # --------------------------------------------------------------------------- labels -> codes
 
+_REFUSED = -1  # a row code the coder raises on before anything uses it
+_INT_TEXT = re.compile(r"\s*[+-]?[0-9]+\s*")
+_INT64_END = 2**63  # whole numbers at or beyond +-2**63 spell no state
+_LUT_SPAN = 2**16  # integer states spanning more are looked up by binary search
+
+
+class _WholeNumbers:
+    """How one item reads whole numbers: the number ``v`` is the state spelled ``str(v)``.
+
+    ``spellings`` maps every integer some state spells (leading zeros, a sign
+    and spaces allowed) to those states. A number becomes the index of the
+    state spelled exactly ``str(v)``; ``n_states + 1`` (an unknown label) when
+    no state is (only ``"01"`` for 1); ``_REFUSED`` when two states spell it
+    (``"1"`` and ``"01"``): ambiguous. Looked up in a table indexed by the
+    number when the numbers span at most ``_LUT_SPAN``, else by binary search.
+    """
+
+    def __init__(self, states: tuple[str, ...]) -> None:
+        spelled: dict[int, list[str]] = {}
+        for s in states:
+            if _INT_TEXT.fullmatch(s) and -_INT64_END < int(s) < _INT64_END - 1:
+                spelled.setdefault(int(s), []).append(s)
+        self.spellings = spelled
+        self.unknown = len(states) + 1
+        dtype = np.int16 if len(states) < 32000 else np.int64
+        where = {s: i for i, s in enumerate(states)}
+        nums = sorted(spelled)
+        self.numbers = np.array(nums, dtype=np.int64)
+        self.codes = np.array([_REFUSED if len(spelled[v]) > 1 else where.get(str(v), self.unknown)
+                               for v in nums], dtype=dtype)
+        self.lut = None
+        if not nums or nums[-1] - nums[0] < _LUT_SPAN:
+            # entry 0: below the lowest number, entry -1: above the highest (both unknown)
+            self.low = nums[0] - 1 if nums else 0
+            self.lut = np.full((nums[-1] - self.low + 2) if nums else 2, self.unknown, dtype)
+            self.lut[self.numbers - self.low] = self.codes
+
+    def __call__(self, x: np.ndarray) -> np.ndarray:
+        """Codes of the numbers ``x``: floats that are not whole int64 values (NaN, inf,
+        1.5, 1e30) come out ``_REFUSED``, for the caller to sort out."""
+        if x.dtype.kind == "f":
+            with np.errstate(invalid="ignore"):
+                xi = x.astype(np.int64)  # NaN, inf and out-of-range values: garbage ...
+            return np.where(xi == x, self._lookup(xi), _REFUSED)  # ... that fails this test
+        if x.dtype.kind == "u" and x.dtype.itemsize == 8:
+            return np.where(x < _INT64_END, self._lookup(x.astype(np.int64)), self.unknown)
+        return self._lookup(x.astype(np.int64, copy=False))
+
+    def _lookup(self, x: np.ndarray) -> np.ndarray:
+        """Codes of int64 values."""
+        if self.lut is not None:
+            idx = np.clip(x, self.low, self.low + self.lut.size - 1)
+            idx -= self.low
+            return self.lut[idx]
+        pos = np.searchsorted(self.numbers, x)
+        np.minimum(pos, self.numbers.size - 1, out=pos)
+        return np.where(self.numbers[pos] == x, self.codes[pos], self.unknown)
+
+
+def _is_numbers(dtype: Any) -> bool:
+    """Integer or float columns (numpy or pandas nullable; not bool): whole-number codes."""
+    return ((pd.api.types.is_integer_dtype(dtype) or pd.api.types.is_float_dtype(dtype))
+            and (isinstance(dtype, np.dtype) or hasattr(dtype, "numpy_dtype")))
+
+
+def _as_numbers(values: pd.Series | pd.Index) -> tuple[np.ndarray, np.ndarray]:
+    """A numeric column (or categories) as a numpy array and its missing-value mask."""
+    if isinstance(values.dtype, np.dtype):
+        x = values.to_numpy()
+        return x, (np.isnan(x) if x.dtype.kind == "f" else np.zeros(x.shape, dtype=bool))
+    missing = np.asarray(values.isna())
+    x = values.to_numpy(dtype=values.dtype.numpy_dtype, na_value=0)
+    return x, (missing | np.isnan(x) if x.dtype.kind == "f" else missing)
+
 
 class _Coder:
     """Turns one column of state labels into row codes: the state index, ``n_states``
     for not observed, ``n_states + 1`` for an unknown label.
 
-    Categorical columns map their categories once; other columns are factorised
-    chunk by chunk (one hash pass per cell), so memory stays bounded either way.
+    Categorical columns map their categories once; integer and float columns are
+    read as whole-number codes of the states (``v`` is the state ``str(int(v))``,
+    NaN is not observed) with one binary search per cell; other columns are
+    factorised chunk by chunk (one hash pass per cell). Memory stays bounded
+    either way. A value that cannot be read (a non-whole number, a number two
+    states spell) raises when its chunk is coded.
     """
 
-    def __init__(self, states: tuple[str, ...], column: pd.Series) -> None:
+    def __init__(self, item: str, states: tuple[str, ...], column: pd.Series) -> None:
+        self.item, self.states = item, states
         self.n = len(states)
         self.index = pd.Index(states, dtype=object)
         self.codes = None
+        numbers = column.cat.categories if isinstance(column.dtype, pd.CategoricalDtype) \
+            else column
+        self.numbers = _WholeNumbers(states) if _is_numbers(numbers.dtype) else None
+        self.refuses = self.numbers is not None
         if isinstance(column.dtype, pd.CategoricalDtype):
             self.lut = self._lut(column.cat.categories)
             self.codes = column.array.codes  # a read-only view (cat.codes copies)
+            self.refuses = bool((self.lut < 0).any())
 
     def _lut(self, labels: Any) -> np.ndarray:
-        lut = self.index.get_indexer(labels) if len(labels) else np.empty(0, dtype=np.intp)
-        lut = np.where(lut < 0, self.n + 1, lut)
+        if self.numbers is not None:
+            lut = self._number_codes(labels)
+        elif len(labels):
+            lut = self.index.get_indexer(labels)
+            lut = np.where(lut < 0, self.n + 1, lut)
+        else:
+            lut = np.empty(0, dtype=np.intp)
         # code -1 (missing) picks the last entry: not observed
         return np.append(lut, self.n).astype(np.int16 if self.n < 32000 else np.int64)
 
+    def _number_codes(self, values: pd.Series | pd.Index) -> np.ndarray:
+        x, missing = _as_numbers(values)
+        codes = self.numbers(x)
+        np.putmask(codes, missing, self.n)
+        return codes
+
     def __call__(self, column: pd.Series, a: int, b: int) -> np.ndarray:
         if self.codes is not None:
-            return self.lut[self.codes[a:b]]
-        codes, labels = pd.factorize(column.iloc[a:b], use_na_sentinel=True)
-        return self._lut(labels)[codes]
+            codes = self.lut[self.codes[a:b]]
+        elif self.numbers is not None:
+            codes = self._number_codes(column.iloc[a:b])
+        else:
+            codes, labels = pd.factorize(column.iloc[a:b], use_na_sentinel=True)
+            return self._lut(labels)[codes]
+        if self.refuses:
+            bad = np.flatnonzero(codes == _REFUSED)
+            if bad.size:
+                raise self.refused_error(column, a + int(bad[0]))
+        return codes
+
+    def refused_error(self, column: pd.Series, where: int) -> CaseError:
+        """A number the column cannot be read as: not whole, or spelled by two states."""
+        value, label = _plain(column.iloc[where]), _plain(column.index[where])
+        head = f"row {label!r}, column {column.name!r}: {value!r}"
+        rule = (f"the column holds numbers, each read as the state of evidence '{self.item}' "
+                "that spells it (7 as '7')")
+        if float(value).is_integer() and len(self.numbers.spellings.get(int(value), ())) < 2:
+            return self.unknown_error(column, where)  # a whole float beyond the int64 range
+        if not float(value).is_integer():
+            return CaseError(f"{head} is not a whole number; {rule}, and its states are "
+                             f"{list(self.states)}; fix the value, or leave it empty (NaN) for not "
+                             f"observed{self._text_hint(column, value)}")
+        v = int(value)
+        both = " or ".join(repr(s) for s in self.numbers.spellings[v])
+        return CaseError(f"{head} could be state {both}; {rule}, and two states spell {v}: "
+                         "rename the states so that each number has one spelling, or map the "
+                         f"column to state labels yourself (e.g. .map({{{v}: "
+                         f"{self.numbers.spellings[v][-1]!r}}}))")
+
+    def unknown_error(self, column: pd.Series, where: int) -> CaseError:
+        """A label (or number) that is not a state of the item."""
+        value, label = _plain(column.iloc[where]), _plain(column.index[where])
+        hint = self._number_hint(value) if self.numbers is not None else \
+            self._text_hint(column, value)
+        return CaseError(f"row {label!r}, column {column.name!r}: {value!r} is not a state of "
+                         f"evidence '{self.item}'{hint}; its states are {list(self.states)}; fix "
+                         "the label, leave it empty for not observed, or pass on_unknown='skip' "
+                         "to count and skip unknown labels")
+
+    def _number_hint(self, value: Any) -> str:
+        v = int(value)
+        others = self.numbers.spellings.get(v)
+        if others:
+            return (f" (a number is read as the state that spells it, {v} as '{v}', but the "
+                    f"states spell it {others[0]!r}: rename the states to plain numbers, or map "
+                    f"the column to state labels yourself, e.g. .map({{{v}: {others[0]!r}}}))")
+        return f" (a number is read as the state that spells it: {v} as '{v}', not a state)"
+
+    def _text_hint(self, column: pd.Series, value: Any) -> str:
+        if isinstance(value, str) or str(value) not in self.states:
+            return ""
+        if isinstance(column.dtype, pd.CategoricalDtype):
+            return (f" (the categories are {column.cat.categories.dtype} values, not text: "
+                    "rename them with .cat.rename_categories(str), which keeps the fast "
+                    "categorical path)")
+        return (f" (the column holds {column.dtype} values, not text: convert it with "
+                ".astype('string'), which keeps missing values missing)")
 
 
-def _unknown_error(model: _Model, k: int, col: Any, frame: pd.DataFrame, where: int) -> CaseError:
-    value = frame[col].iloc[where]
-    label = frame.index[where]
-    value = value.item() if isinstance(value, np.generic) else value
-    label = label.item() if isinstance(label, np.generic) else label
-    states = list(model.states[k])
-    hint = ""
-    if not isinstance(value, str) and str(value) in states:
-        hint = f" (the column holds {frame[col].dtype} values: convert it with .astype(str))"
-    return CaseError(f"row {label!r}, column {col!r}: {value!r} is not a state of evidence "
-                     f"'{model.items[k]}'{hint}; its states are {states}; fix the label, leave "
-                     "it empty for not observed, or pass on_unknown='skip' to count and skip "
-                     "unknown labels")
+def _plain(x: Any) -> Any:
+    """A numpy scalar as the Python value it holds (for messages)."""
+    return x.item() if isinstance(x, np.generic) else x
 
 
 # --------------------------------------------------------------------------- scoring
@@ -406,7 +559,7 @@ def _score_frame(model: _Model, frame: pd.DataFrame, columns: tuple[tuple[int, A
          "elim": np.empty(n, dtype=np.int32),
          "log_ev": np.empty(n)}
     series = [(k, col, frame[col]) for k, col in columns]
-    coders = [_Coder(model.states[k], s) for k, _, s in series]
+    coders = [_Coder(model.items[k], model.states[k], s) for k, _, s in series]
     groups = _groups(model, [k for k, _ in columns])
     width = min(chunk, n)
     scratch = threading.local()
@@ -437,7 +590,7 @@ def _score_frame(model: _Model, frame: pd.DataFrame, columns: tuple[tuple[int, A
             r = int(np.flatnonzero(wm[:, h + 1])[0])
             i = next(i for i, (k, _, _) in enumerate(series)
                      if codes[i][r] == len(model.states[k]) + 1)
-            raise _unknown_error(model, series[i][0], series[i][1], frame, a + r)
+            raise coders[i].unknown_error(series[i][2], a + r)
         lw = wm[:, :h]
         # log-sum-exp per row, fused with the posterior: one exp per entry
         top = lw.max(axis=1)
