@@ -102,6 +102,9 @@ def test_rows_equal_engine_on_seeded_sample(model, rows, rng):
         # exact zeros stay exact zeros
         assert ((got[hyps].to_numpy(dtype=float) == 0) == (ledger.posterior.to_numpy() == 0)).all()
         assert got["map"] == ledger.map_hypothesis
+        top = float(ledger.posterior[ledger.map_hypothesis])
+        assert got["map_probability"] == pytest.approx(top, rel=1e-12)
+        assert got["weak_map"] == (top < 0.5)
         assert got["impossible"] == (ledger.stopped_at is not None)
         stopped = None if pd.isna(got["stopped_at"]) else got["stopped_at"]
         assert stopped == ledger.stopped_at
@@ -125,6 +128,8 @@ def test_generated_models_match_the_engine_on_every_row(seed):
         np.testing.assert_allclose(got[hyps].to_numpy(dtype=float), ledger.posterior.to_numpy(),
                                    rtol=1e-11, atol=1e-300)
         assert got["map"] == ledger.map_hypothesis
+        assert got["map_probability"] == pytest.approx(
+            float(ledger.posterior[ledger.map_hypothesis]), rel=1e-11)
         assert (None if pd.isna(got["stopped_at"]) else got["stopped_at"]) == ledger.stopped_at
         assert got["eliminated"] == len(ledger.eliminated)
 
@@ -165,9 +170,11 @@ def test_model_case_own_observations_are_ignored(model, rows):
 
 @pytest.mark.parametrize("chunk_size", [1, 7, 64, 10_000])
 def test_chunk_size_does_not_change_results(model, rows, chunk_size):
-    ref = score_rows(model, rows)
-    pd.testing.assert_frame_equal(score_rows(model, rows, chunk_size=chunk_size), ref,
-                                  check_exact=True)
+    ref = score_rows(model, rows, weak_below=0.6)
+    assert ref["weak_map"].any() and not ref["weak_map"].all()
+    assert ref["eliminated"].any() and ref["impossible"].any()
+    pd.testing.assert_frame_equal(score_rows(model, rows, chunk_size=chunk_size, weak_below=0.6),
+                                  ref, check_exact=True)
 
 
 @pytest.fixture
@@ -177,9 +184,10 @@ def always_threads(monkeypatch):
 
 @pytest.mark.parametrize("threads", [1, 2, 3])
 def test_threads_do_not_change_results(model, rows, threads, always_threads):
-    ref = score_rows(model, rows, chunk_size=50, threads=1)
-    pd.testing.assert_frame_equal(score_rows(model, rows, chunk_size=50, threads=threads), ref,
-                                  check_exact=True)
+    ref = score_rows(model, rows, chunk_size=50, threads=1, weak_below=0.6)
+    assert ref["weak_map"].any() and not ref["weak_map"].all()
+    got = score_rows(model, rows, chunk_size=50, threads=threads, weak_below=0.6)
+    pd.testing.assert_frame_equal(got, ref, check_exact=True)
 
 
 def test_first_bad_row_is_reported_whatever_the_threads(model, rows, always_threads):
@@ -210,6 +218,32 @@ def test_subset_of_columns_means_not_observed(model, rows):
     full = rows.copy()
     full[rows.columns[3:]] = None
     pd.testing.assert_frame_equal(sub, score_rows(model, full), check_exact=True)
+
+
+def test_map_probability_and_weak_map_flag_the_fleet(model, rows):
+    ref = score_rows(model, rows)
+    post = ref[model.hypothesis_names].to_numpy()
+    assert ref["map_probability"].dtype == np.float64 and ref["weak_map"].dtype == bool
+    assert (ref["map_probability"].to_numpy() == post.max(axis=1)).all()  # exactly, not nearly
+    assert (ref["weak_map"] == (ref["map_probability"] < 0.5)).all()
+    for threshold in (0.25, 0.6, 0.9, 1, np.float32(0.75)):
+        got = score_rows(model, rows, weak_below=threshold)
+        assert (got["weak_map"] == (got["map_probability"] < threshold)).all()
+        # the threshold moves the flag only
+        pd.testing.assert_frame_equal(got.drop(columns="weak_map"), ref.drop(columns="weak_map"),
+                                      check_exact=True)
+    certain = score_rows(model, rows, weak_below=1.0)
+    assert (certain["weak_map"] == (certain["map_probability"] < 1.0)).all()
+    assert not certain["weak_map"].all()  # rows where every rival is eliminated are not weak
+
+
+def test_coin_rows_are_weak_until_the_evidence_decides():
+    rows = pd.DataFrame({"toss 1": [None, "heads", "tails"], "toss 2": [None, "heads", None]})
+    got = score_rows(coin_model(), rows)
+    # prior 0.75 fair; two heads: 0.75/4 / (0.75/4 + 0.25) = 3/7 fair, 4/7 two-headed
+    assert list(got["map_probability"]) == pytest.approx([0.75, 4 / 7, 1.0], rel=1e-12)
+    assert list(got["weak_map"]) == [False, False, False]
+    assert list(score_rows(coin_model(), rows, weak_below=0.8)["weak_map"]) == [True, True, False]
 
 
 def test_all_missing_row_returns_the_prior(model):
@@ -546,6 +580,14 @@ def test_bad_options_are_refused(model, rows):
         score_rows(model, rows, threads="2")
     with pytest.raises(bl.CaseTypeError, match="prefix"):
         score_rows(model, rows, prefix=3)
+    for bad in (0, 0.0, -0.1, 1.5, float("nan"), float("inf")):
+        with pytest.raises(bl.CaseError, match=r"weak_below is .*; give a probability above 0 "
+                                               r"and at most 1 \(default 0\.5\)"):
+            score_rows(model, rows, weak_below=bad)
+    for bad in ("0.5", True, None, [0.5]):
+        with pytest.raises(bl.CaseTypeError, match=r"weak_below must be a probability in "
+                                                   r"\(0, 1\], got"):
+            score_rows(model, rows, weak_below=bad)
 
 
 def test_incoherent_model_is_refused_and_left_unchanged(model, rows):

@@ -66,11 +66,12 @@ def test_dask_categorical_columns_and_skip_option(client, data):
     frame = rows.copy()
     frame.iloc[11, 2] = "not a state"
     cat = frame.astype("category")
-    ref = bl.score_rows(model, frame, on_unknown="skip")
+    ref = bl.score_rows(model, frame, on_unknown="skip", weak_below=0.7)
     got = client.compute(bl.score_rows(model, dd.from_pandas(cat, npartitions=3),
-                                        on_unknown="skip")).result()
+                                        on_unknown="skip", weak_below=0.7)).result()
     pd.testing.assert_frame_equal(got, ref, check_exact=True)
     assert got["n_unknown"].sum() == 1
+    assert got["weak_map"].any() and (got["weak_map"] == (got["map_probability"] < 0.7)).all()
 
 
 def test_dask_unknown_label_raises_case_error_at_compute(client, data):

@@ -52,8 +52,8 @@ from .errors import CaseError, CaseTypeError
 if TYPE_CHECKING:
     from .case import Case
 
-RESULT_COLUMNS = ("map", "n_observed", "eliminated", "impossible", "stopped_at",
-                  "log_evidence")
+RESULT_COLUMNS = ("map", "map_probability", "weak_map", "n_observed", "eliminated",
+                  "impossible", "stopped_at", "log_evidence")
 """Columns of a :func:`score_rows` result after the posterior columns."""
 
 UNKNOWN_COLUMN = "n_unknown"
@@ -134,7 +134,8 @@ def _check_count(name: str, value: Any, kind: str, fix: str) -> None:
 
 
 def score_rows(case: Case, rows: Any, *, chunk_size: int | None = None,
-               on_unknown: str = "raise", prefix: str = "", threads: int | None = None) -> Any:
+               on_unknown: str = "raise", prefix: str = "", threads: int | None = None,
+               weak_below: float = 0.5) -> Any:
     """Posterior of every observation row of a table, under one model case.
 
     Parameters
@@ -147,8 +148,8 @@ def score_rows(case: Case, rows: Any, *, chunk_size: int | None = None,
         excepted), else a :class:`~beliefledger.errors.CaseError` is raised.
     rows : pandas.DataFrame or dask.dataframe.DataFrame
         The observation rows: one row per incident, alarm or claim, one
-        column per evidence item of the model (a
-        subset is fine: a missing column means not observed in any row).
+        column per evidence item of the model (a subset is fine: a missing
+        column means not observed in any row).
         Values are state labels of that item; missing values (NaN, None,
         ``pd.NA``) mean not observed. Categorical columns are fastest.
 
@@ -176,6 +177,10 @@ def score_rows(case: Case, rows: Any, *, chunk_size: int | None = None,
         Threads scoring chunks side by side (default: the machine's CPUs, at
         most 4; 1 on a Dask DataFrame, whose partitions already run in
         parallel). Results do not depend on it.
+    weak_below : float
+        The threshold of the ``weak_map`` flag, a probability in (0, 1]: a
+        row is flagged when the posterior of its MAP hypothesis is below it
+        (default 0.5: no hypothesis holds a majority of the belief).
 
     Returns
     -------
@@ -186,6 +191,12 @@ def score_rows(case: Case, rows: Any, *, chunk_size: int | None = None,
         ``map``
             The MAP hypothesis (categorical; the first of tied maxima, as in
             the engine).
+        ``map_probability``
+            The posterior of the MAP hypothesis (float).
+        ``weak_map``
+            True when ``map_probability`` is below ``weak_below``: the
+            leading hypothesis is a weak lead, worth a look before acting on
+            it in a fleet of rows.
         ``n_observed``
             How many evidence items the row observed.
         ``eliminated``
@@ -219,11 +230,12 @@ def score_rows(case: Case, rows: Any, *, chunk_size: int | None = None,
     >>> _ = model.add_evidence("vibration", states=["high", "normal"],
     ...                        likelihoods={"bearing": [0.8, 0.2], "Other": [0.1, 0.9]})
     >>> rows = pd.DataFrame({"vibration": ["high", "normal", None]})
-    >>> bl.score_rows(model, rows).round(4)[["bearing", "Other", "map"]]
-       bearing   Other      map
-    0   0.7742  0.2258  bearing
-    1   0.0870  0.9130    Other
-    2   0.3000  0.7000    Other
+    >>> scored = bl.score_rows(model, rows, weak_below=0.8)
+    >>> scored.round(4)[["bearing", "Other", "map", "map_probability", "weak_map"]]
+       bearing   Other      map  map_probability  weak_map
+    0   0.7742  0.2258  bearing           0.7742      True
+    1   0.0870  0.9130    Other           0.9130     False
+    2   0.3000  0.7000    Other           0.7000      True
     """
     if on_unknown not in ("raise", "skip"):
         raise CaseError(f"on_unknown is {on_unknown!r}; use 'raise' or 'skip'")
@@ -232,6 +244,7 @@ def score_rows(case: Case, rows: Any, *, chunk_size: int | None = None,
     _check_count("threads", threads, "must be a whole number", "give 1 or more")
     if not isinstance(prefix, str):
         raise CaseTypeError(f"prefix must be a string, got {type(prefix).__name__}")
+    _check_threshold(weak_below)
     is_dask = _is_dask_frame(rows)
     if not is_dask and not isinstance(rows, pd.DataFrame):
         raise CaseTypeError(
@@ -243,18 +256,32 @@ def score_rows(case: Case, rows: Any, *, chunk_size: int | None = None,
     _refuse_dependent(case, [c for _, c in columns])
     names = _output_names(model, prefix, on_unknown)
     if is_dask:
-        meta = _score_frame(model, rows._meta, columns, names, chunk_size, on_unknown)
+        meta = _score_frame(model, rows._meta, columns, names, chunk_size, on_unknown,
+                            weak_below=weak_below)
         return rows.map_partitions(_score_partition, model, columns=columns, names=names,
                                    chunk_size=chunk_size, on_unknown=on_unknown,
-                                   threads=threads or 1, meta=meta, align_dataframes=False)
+                                   threads=threads or 1, weak_below=weak_below, meta=meta,
+                                   align_dataframes=False)
     if len(rows) == 0:
         raise CaseError("the frame of observation rows has no rows; give one row per incident, "
                         "alarm or claim to score")
     threads = threads or min(os.cpu_count() or 1, 4)
-    return _score_frame(model, rows, columns, names, chunk_size, on_unknown, threads)
+    return _score_frame(model, rows, columns, names, chunk_size, on_unknown, threads,
+                        weak_below=weak_below)
 
 
 # --------------------------------------------------------------------------- checks
+
+
+def _check_threshold(weak_below: Any) -> None:
+    """``weak_below`` is a probability in (0, 1]."""
+    if isinstance(weak_below, bool) or not isinstance(weak_below, int | float | np.number):
+        raise CaseTypeError(f"weak_below must be a probability in (0, 1], got "
+                            f"{type(weak_below).__name__} {weak_below!r}")
+    if not 0 < weak_below <= 1:
+        raise CaseError(f"weak_below is {weak_below!r}; give a probability above 0 and at most "
+                        "1 (default 0.5): rows whose MAP hypothesis has a posterior below it "
+                        "are flagged weak_map")
 
 
 def _is_dask_frame(obj: Any) -> bool:
@@ -545,7 +572,7 @@ def _groups(model: _Model, present: list[int]) -> list[tuple[list[int], list[int
 
 def _score_frame(model: _Model, frame: pd.DataFrame, columns: tuple[tuple[int, Any], ...],
                  names: tuple[str, ...], chunk_size: int | None, on_unknown: str,
-                 threads: int = 1) -> pd.DataFrame:
+                 threads: int = 1, *, weak_below: float = 0.5) -> pd.DataFrame:
     """Score one pandas frame (a whole input or one Dask partition; may be empty)."""
     n, h = len(frame), len(model.hypotheses)
     chunk = chunk_size or _default_chunk(h)
@@ -553,6 +580,7 @@ def _score_frame(model: _Model, frame: pd.DataFrame, columns: tuple[tuple[int, A
     # dtype pandas would pick, so the categoricals take them as they are.
     o = {"post": np.empty((n, h)),
          "map": np.empty(n, dtype=_code_dtype(h)),
+         "map_p": np.empty(n),
          "stop": np.full(n, -1, dtype=_code_dtype(len(model.items))),
          "n_obs": np.zeros(n, dtype=np.int32),
          "n_unk": np.zeros(n if on_unknown == "skip" else 0, dtype=np.int32),
@@ -604,7 +632,9 @@ def _score_frame(model: _Model, frame: pd.DataFrame, columns: tuple[tuple[int, A
         np.exp(out, out=out)
         total = out.sum(axis=1)
         out /= total[:, None]
-        o["map"][a:b] = np.argmax(out, axis=1)
+        top_h = np.argmax(out, axis=1)
+        o["map"][a:b] = top_h
+        o["map_p"][a:b] = np.take_along_axis(out, top_h[:, None], axis=1)[:, 0]
         o["elim"][a:b] = np.count_nonzero(np.isneginf(lw) & model.positive_prior, axis=1)
         o["log_ev"][a:b] = (top - model.log_prior_total) + np.log(total)
 
@@ -623,6 +653,10 @@ def _score_frame(model: _Model, frame: pd.DataFrame, columns: tuple[tuple[int, A
     result = pd.DataFrame(o.pop("post"), index=frame.index, columns=list(names[:h]),
                           copy=False)
     result["map"] = pd.Categorical.from_codes(o.pop("map"), categories=list(model.hypotheses))
+    map_p = o.pop("map_p")
+    result["map_probability"] = map_p
+    result["weak_map"] = map_p < weak_below
+    del map_p
     result["n_observed"] = o.pop("n_obs")
     result["eliminated"] = o.pop("elim")
     stop = o.pop("stop")
@@ -643,9 +677,10 @@ def _code_dtype(n_categories: int) -> type:
 
 
 def _score_partition(frame: pd.DataFrame, model: _Model, *, columns, names, chunk_size,
-                     on_unknown, threads) -> pd.DataFrame:
+                     on_unknown, threads, weak_below) -> pd.DataFrame:
     """One Dask partition (``map_partitions`` passes the partition first)."""
-    return _score_frame(model, frame, columns, names, chunk_size, on_unknown, threads)
+    return _score_frame(model, frame, columns, names, chunk_size, on_unknown, threads,
+                        weak_below=weak_below)
 
 
 def _stop_early(model: _Model, series: list, codes: list[np.ndarray],
