@@ -246,6 +246,30 @@ def test_coin_rows_are_weak_until_the_evidence_decides():
     assert list(score_rows(coin_model(), rows, weak_below=0.8)["weak_map"]) == [True, True, False]
 
 
+@pytest.mark.parametrize("threads", [1, 2])
+def test_eliminated_count_is_skipped_only_when_no_likelihood_is_zero(rng, monkeypatch, threads):
+    case = random_model(rng, zero_share=0.0)  # zeros only in the likelihood evidence item
+    frame = random_rows(rng, case, 400, missing=0.1)
+    zero_free = frame.drop(columns="logbook entry")
+    compiled = batch.compile_model(case)
+    at = batch._check_columns
+    assert not batch._any_zero_likelihood(compiled, at(compiled, zero_free.columns))
+    assert batch._any_zero_likelihood(compiled, at(compiled, frame.columns))
+    skipped = score_rows(case, zero_free, chunk_size=64, threads=threads)
+    with_zero = score_rows(case, frame, chunk_size=64, threads=threads)
+    assert (with_zero["eliminated"] > 0).any()  # the item with a zero is still counted
+    monkeypatch.setattr(batch, "_SKIP_ZERO_FREE_COUNT", False)
+    pd.testing.assert_frame_equal(score_rows(case, zero_free, chunk_size=64, threads=threads),
+                                  skipped, check_exact=True)
+    pd.testing.assert_frame_equal(score_rows(case, frame, chunk_size=64, threads=threads),
+                                  with_zero, check_exact=True)
+    assert (skipped["eliminated"] == 0).all() and not skipped["impossible"].any()
+    work = case.copy()
+    for i in rng.choice(len(frame), size=25, replace=False):
+        ledger = engine_row(case, zero_free.iloc[i], work)
+        assert skipped.iloc[i]["eliminated"] == len(ledger.eliminated) == 0
+
+
 def test_all_missing_row_returns_the_prior(model):
     frame = pd.DataFrame({name: [None, None] for name in model.evidence_names})
     result = score_rows(model, frame)

@@ -61,6 +61,7 @@ UNKNOWN_COLUMN = "n_unknown"
 
 _CHUNK_BYTES = 4 * 2**20  # size of one chunk's (rows x hypotheses) float64 accumulator
 _THREAD_MIN_CELLS = 2**18  # below this many rows x hypotheses, threads cost more than they save
+_SKIP_ZERO_FREE_COUNT = True  # no zero likelihood in the scored items: eliminated is 0, uncounted
 
 
 @dataclass(frozen=True)
@@ -584,11 +585,12 @@ def _score_frame(model: _Model, frame: pd.DataFrame, columns: tuple[tuple[int, A
          "stop": np.full(n, -1, dtype=_code_dtype(len(model.items))),
          "n_obs": np.zeros(n, dtype=np.int32),
          "n_unk": np.zeros(n if on_unknown == "skip" else 0, dtype=np.int32),
-         "elim": np.empty(n, dtype=np.int32),
+         "elim": np.zeros(n, dtype=np.int32),
          "log_ev": np.empty(n)}
     series = [(k, col, frame[col]) for k, col in columns]
     coders = [_Coder(model.items[k], model.states[k], s) for k, _, s in series]
     groups = _groups(model, [k for k, _ in columns])
+    count_eliminated = not _SKIP_ZERO_FREE_COUNT or _any_zero_likelihood(model, columns)
     width = min(chunk, n)
     scratch = threading.local()
 
@@ -635,7 +637,8 @@ def _score_frame(model: _Model, frame: pd.DataFrame, columns: tuple[tuple[int, A
         top_h = np.argmax(out, axis=1)
         o["map"][a:b] = top_h
         o["map_p"][a:b] = np.take_along_axis(out, top_h[:, None], axis=1)[:, 0]
-        o["elim"][a:b] = np.count_nonzero(np.isneginf(lw) & model.positive_prior, axis=1)
+        if count_eliminated:  # else no row can eliminate anything: the zeros stand
+            o["elim"][a:b] = np.count_nonzero(np.isneginf(lw) & model.positive_prior, axis=1)
         o["log_ev"][a:b] = (top - model.log_prior_total) + np.log(total)
 
     starts = range(0, n, chunk)
@@ -667,6 +670,14 @@ def _score_frame(model: _Model, frame: pd.DataFrame, columns: tuple[tuple[int, A
     if on_unknown == "skip":
         result[UNKNOWN_COLUMN] = o.pop("n_unk")
     return result
+
+
+def _any_zero_likelihood(model: _Model, columns: tuple[tuple[int, Any], ...]) -> bool:
+    """Whether a likelihood of a scored item is exactly 0. Only then can a row eliminate
+    a hypothesis with a positive prior (or be impossible): without one, every log weight
+    of such a hypothesis stays finite."""
+    h = len(model.hypotheses)
+    return any(bool(np.isneginf(model.log_tables[k][:, :h]).any()) for k, _ in columns)
 
 
 def _code_dtype(n_categories: int) -> type:
