@@ -59,7 +59,7 @@ def random_rows(rng: np.random.Generator, case: bl.Case, n: int,
         vals = np.array(ev.states, dtype=object)[rng.integers(len(ev.states), size=n)]
         vals[rng.random(n) < missing] = None
         data[name] = vals
-    return pd.DataFrame(data, index=pd.Index([f"case-{i:04d}" for i in range(n)], name="id"))
+    return pd.DataFrame(data, index=pd.Index([f"alarm-{i:04d}" for i in range(n)], name="id"))
 
 
 def engine_row(model: bl.Case, row: pd.Series, work: bl.Case | None = None):
@@ -192,10 +192,10 @@ def test_threads_do_not_change_results(model, rows, threads, always_threads):
 
 def test_first_bad_row_is_reported_whatever_the_threads(model, rows, always_threads):
     frame = rows.copy()
-    frame.loc["case-0390", "item 0"] = "late typo"
-    frame.loc["case-0061", "item 5"] = "early typo"
+    frame.loc["alarm-0390", "item 0"] = "late typo"
+    frame.loc["alarm-0061", "item 5"] = "early typo"
     for threads in (1, 2, 4):
-        with pytest.raises(bl.CaseError, match=r"row 'case-0061', column 'item 5'"):
+        with pytest.raises(bl.CaseError, match=r"row 'alarm-0061', column 'item 5'"):
             score_rows(model, frame, chunk_size=16, threads=threads)
 
 
@@ -374,12 +374,12 @@ def test_unknown_column_is_named(model, rows):
 
 def test_unknown_state_label_names_row_column_and_value(model, rows):
     frame = rows.copy()
-    frame.loc["case-0123", "item 1"] = "s1-typo"
-    with pytest.raises(bl.CaseError, match=r"row 'case-0123', column 'item 1': 's1-typo' is "
+    frame.loc["alarm-0123", "item 1"] = "s1-typo"
+    with pytest.raises(bl.CaseError, match=r"row 'alarm-0123', column 'item 1': 's1-typo' is "
                                            r"not a state of evidence 'item 1'"):
         score_rows(model, frame)
     as_cat = frame.astype({"item 1": "category"})
-    with pytest.raises(bl.CaseError, match=r"row 'case-0123', column 'item 1': 's1-typo'"):
+    with pytest.raises(bl.CaseError, match=r"row 'alarm-0123', column 'item 1': 's1-typo'"):
         score_rows(model, as_cat, chunk_size=50)
 
 
@@ -575,16 +575,16 @@ def test_labels_held_as_other_values_get_a_hint():
 
 def test_skip_unknown_counts_every_skipped_label(model, rows):
     frame = rows.copy()
-    frame.loc["case-0005", "item 0"] = "bogus"
-    frame.loc["case-0005", "item 3"] = "bogus too"
-    frame.loc["case-0009", "item 3"] = "bogus"
+    frame.loc["alarm-0005", "item 0"] = "bogus"
+    frame.loc["alarm-0005", "item 3"] = "bogus too"
+    frame.loc["alarm-0009", "item 3"] = "bogus"
     result = score_rows(model, frame, on_unknown="skip")
     assert list(result.columns)[-1] == UNKNOWN_COLUMN
     assert result[UNKNOWN_COLUMN].sum() == 3
-    assert result.loc["case-0005", UNKNOWN_COLUMN] == 2
+    assert result.loc["alarm-0005", UNKNOWN_COLUMN] == 2
     cleaned = frame.copy()
-    cleaned.loc["case-0005", ["item 0", "item 3"]] = None
-    cleaned.loc["case-0009", "item 3"] = None
+    cleaned.loc["alarm-0005", ["item 0", "item 3"]] = None
+    cleaned.loc["alarm-0009", "item 3"] = None
     pd.testing.assert_frame_equal(result.drop(columns=UNKNOWN_COLUMN),
                                   score_rows(model, cleaned), check_exact=True)
 

@@ -77,9 +77,9 @@ def test_dask_categorical_columns_and_skip_option(client, data):
 def test_dask_unknown_label_raises_case_error_at_compute(client, data):
     model, rows = data
     frame = rows.copy()
-    frame.loc["case-2500", "item 4"] = "typo"
+    frame.loc["alarm-2500", "item 4"] = "typo"
     lazy = bl.score_rows(model, dd.from_pandas(frame, npartitions=4))
-    with pytest.raises(bl.CaseError, match=r"row 'case-2500', column 'item 4': 'typo'"):
+    with pytest.raises(bl.CaseError, match=r"row 'alarm-2500', column 'item 4': 'typo'"):
         client.compute(lazy).result()
 
 
