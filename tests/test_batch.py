@@ -7,8 +7,10 @@ from __future__ import annotations
 
 import doctest
 import math
+import os
 import subprocess
 import sys
+from concurrent.futures import ThreadPoolExecutor
 
 import numpy as np
 import pandas as pd
@@ -18,7 +20,7 @@ from hypothesis import strategies as st
 
 import beliefledger as bl
 from beliefledger import batch
-from beliefledger.batch import RESULT_COLUMNS, UNKNOWN_COLUMN, score_rows
+from beliefledger.batch import RESULT_COLUMNS, UNKNOWN_COLUMN, default_threads, score_rows
 from beliefledger.engine import update
 
 # --------------------------------------------------------------------------- fixtures
@@ -178,19 +180,119 @@ def test_chunk_size_does_not_change_results(model, rows, chunk_size):
 
 
 @pytest.fixture
-def always_threads(monkeypatch):
-    monkeypatch.setattr(batch, "_THREAD_MIN_CELLS", 0)  # small test frames use threads too
+def pools(monkeypatch) -> list[int]:
+    """The max_workers of every thread pool score_rows starts."""
+    started: list[int] = []
+    real = batch.ThreadPoolExecutor
+
+    def recording(max_workers: int) -> ThreadPoolExecutor:
+        started.append(max_workers)
+        return real(max_workers=max_workers)
+
+    monkeypatch.setattr(batch, "ThreadPoolExecutor", recording)
+    return started
 
 
 @pytest.mark.parametrize("threads", [1, 2, 3])
-def test_threads_do_not_change_results(model, rows, threads, always_threads):
+def test_threads_do_not_change_results(model, rows, threads, pools):
     ref = score_rows(model, rows, chunk_size=50, threads=1, weak_below=0.6)
     assert ref["weak_map"].any() and not ref["weak_map"].all()
     got = score_rows(model, rows, chunk_size=50, threads=threads, weak_below=0.6)
     pd.testing.assert_frame_equal(got, ref, check_exact=True)
+    assert pools == ([] if threads == 1 else [threads])  # an explicit number is used as given
 
 
-def test_first_bad_row_is_reported_whatever_the_threads(model, rows, always_threads):
+def test_explicit_threads_win_and_default_threads_decides_otherwise(model, rows, pools,
+                                                                    monkeypatch):
+    score_rows(model, rows, chunk_size=50)  # 400 rows x 5 hypotheses: small, one thread
+    assert pools == []
+    score_rows(model, rows, chunk_size=150, threads=4)  # three chunks: three workers at most
+    assert pools == [3]
+    asked = []
+
+    def fake(n_rows: int, n_hyps: int, chunk: int) -> int:
+        asked.append((n_rows, n_hyps, chunk))
+        return 2
+
+    monkeypatch.setattr(batch, "default_threads", fake)
+    score_rows(model, rows, chunk_size=50)
+    assert asked == [(400, 5, 50)] and pools == [3, 2]
+    score_rows(model, rows)
+    assert asked[-1] == (400, 5, batch._default_chunk(5))
+    score_rows(model, rows, chunk_size=50, threads=1)
+    assert len(asked) == 2 and pools == [3, 2]  # not asked: the explicit number wins
+
+
+def fake_machine(monkeypatch, cpus: int | None, load: float | None, *, affinity: bool = True,
+                 total: int = 64) -> None:
+    """Pretend this process may run on ``cpus`` of ``total`` CPUs under ``load``; None:
+    the platform does not say."""
+    if affinity and cpus is not None:
+        monkeypatch.setattr(os, "sched_getaffinity", lambda pid: set(range(cpus)),
+                            raising=False)
+        monkeypatch.setattr(os, "cpu_count", lambda: total)
+    else:
+        monkeypatch.delattr(os, "sched_getaffinity", raising=False)
+        monkeypatch.setattr(os, "cpu_count", lambda: cpus)
+    if load is None:
+        monkeypatch.delattr(os, "getloadavg", raising=False)
+    else:
+        monkeypatch.setattr(os, "getloadavg", lambda: (load, load, load), raising=False)
+
+
+BIG = dict(n_rows=1_000_000, n_hyps=10, chunk=50_000)  # 20 chunks
+
+
+@pytest.mark.parametrize(("cpus", "load", "expected"), [
+    (2, 0.0, 2),    # an idle 2-CPU machine
+    (2, 0.3, 2),    # a little background noise: a CPU at least half free counts
+    (2, 0.64, 1),   # busy: a second thread would only compete with the others
+    (2, 1.5, 1),
+    (2, 7.0, 1),    # overloaded: never below 1
+    (8, 0.2, 4),    # capped at 4
+    (8, 5.6, 2),
+    (1, 0.0, 1),
+])
+def test_default_threads_from_the_cpus_this_process_has(monkeypatch, cpus, load, expected):
+    fake_machine(monkeypatch, cpus, load)
+    assert default_threads(**BIG) == expected
+
+
+def test_default_threads_reads_the_affinity_mask_not_the_machine(monkeypatch):
+    fake_machine(monkeypatch, 1, 0.0, total=64)  # pinned to one CPU of 64
+    assert default_threads(**BIG) == 1
+    fake_machine(monkeypatch, 3, 0.0, total=64)
+    assert default_threads(**BIG) == 3
+
+
+def test_default_threads_without_affinity_or_load_average(monkeypatch):
+    fake_machine(monkeypatch, 6, None, affinity=False)  # e.g. macOS: cpu_count, no mask
+    assert default_threads(**BIG) == 4
+    fake_machine(monkeypatch, 6, 3.0, affinity=False)
+    assert default_threads(**BIG) == 3
+    fake_machine(monkeypatch, None, None, affinity=False)  # cpu_count() unknown
+    assert default_threads(**BIG) == 1
+
+    def no_load() -> tuple[float, float, float]:
+        raise OSError("load average unobtainable")
+
+    fake_machine(monkeypatch, 2, 0.0)
+    monkeypatch.setattr(os, "getloadavg", no_load)
+    assert default_threads(**BIG) == 2
+
+
+def test_default_threads_small_work_and_few_chunks(monkeypatch):
+    fake_machine(monkeypatch, 8, 0.0)
+    cells = batch._THREAD_MIN_CELLS
+    assert default_threads(n_rows=cells // 8 - 1, n_hyps=8, chunk=100) == 1  # small
+    assert default_threads(n_rows=cells // 8, n_hyps=8, chunk=100) == 4
+    assert default_threads(n_rows=cells, n_hyps=1, chunk=cells // 2) == 2  # two chunks
+    assert default_threads(n_rows=cells, n_hyps=1, chunk=cells) == 1  # one chunk
+    monkeypatch.setattr(batch, "_THREAD_MIN_CELLS", 0)
+    assert default_threads(n_rows=10, n_hyps=2, chunk=3) == 4
+
+
+def test_first_bad_row_is_reported_whatever_the_threads(model, rows):
     frame = rows.copy()
     frame.loc["alarm-0390", "item 0"] = "late typo"
     frame.loc["alarm-0061", "item 5"] = "early typo"

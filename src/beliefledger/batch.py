@@ -61,6 +61,7 @@ UNKNOWN_COLUMN = "n_unknown"
 
 _CHUNK_BYTES = 4 * 2**20  # size of one chunk's (rows x hypotheses) float64 accumulator
 _THREAD_MIN_CELLS = 2**18  # below this many rows x hypotheses, threads cost more than they save
+_MAX_THREADS = 4  # numpy's loops here are memory-bound: more threads than this gain little
 _SKIP_ZERO_FREE_COUNT = True  # no zero likelihood in the scored items: eliminated is 0, uncounted
 
 
@@ -175,9 +176,11 @@ def score_rows(case: Case, rows: Any, *, chunk_size: int | None = None,
         Prefix for the posterior column names (use one, e.g. ``"p_"``, when a
         hypothesis is named like a result column).
     threads : int, optional
-        Threads scoring chunks side by side (default: the machine's CPUs, at
-        most 4; 1 on a Dask DataFrame, whose partitions already run in
-        parallel). Results do not depend on it.
+        Threads scoring chunks side by side. Default: :func:`default_threads`,
+        the CPUs this process may use less the load of other processes, at
+        most 4, and 1 for small frames; 1 on a Dask DataFrame, whose
+        partitions already run in parallel. A number given here is used as
+        it is (at most one thread per chunk). Results do not depend on it.
     weak_below : float
         The threshold of the ``weak_map`` flag, a probability in (0, 1]: a
         row is flagged when the posterior of its MAP hypothesis is below it
@@ -266,8 +269,9 @@ def score_rows(case: Case, rows: Any, *, chunk_size: int | None = None,
     if len(rows) == 0:
         raise CaseError("the frame of observation rows has no rows; give one row per incident, "
                         "alarm or claim to score")
-    threads = threads or min(os.cpu_count() or 1, 4)
-    return _score_frame(model, rows, columns, names, chunk_size, on_unknown, threads,
+    chunk = chunk_size or _default_chunk(len(model.hypotheses))
+    threads = threads or default_threads(len(rows), len(model.hypotheses), chunk)
+    return _score_frame(model, rows, columns, names, chunk, on_unknown, threads,
                         weak_below=weak_below)
 
 
@@ -537,6 +541,73 @@ def _plain(x: Any) -> Any:
 # --------------------------------------------------------------------------- scoring
 
 
+def default_threads(n_rows: int, n_hyps: int, chunk: int) -> int:
+    """How many threads :func:`score_rows` uses when ``threads`` is not given.
+
+    The CPUs this process may run on (its affinity mask where the platform
+    has one, ``os.sched_getaffinity``, else ``os.cpu_count()``), less the
+    load of other processes (the one-minute load average, ``os.getloadavg``,
+    where available), rounded to the nearest whole CPU, so a CPU at least
+    half free counts; never below 1, at most 4 and at most one per chunk.
+    Small work (fewer than 2**18 rows x hypotheses) gets 1: starting threads
+    would cost more than they save. On a busy machine a second thread only
+    competes with the other processes for the same CPUs, and is slower.
+
+    Parameters
+    ----------
+    n_rows : int
+        Rows to score.
+    n_hyps : int
+        Hypotheses of the model.
+    chunk : int
+        Rows scored at a time (a positive number).
+
+    Returns
+    -------
+    int
+        The number of threads, 1 to 4.
+
+    Notes
+    -----
+    The load average counts this process too while it is busy (a loop of
+    large calls sees its own earlier work), and CPU quotas of a container
+    (cgroups) are not seen; pass ``threads`` to :func:`score_rows` to
+    choose yourself.
+
+    Examples
+    --------
+    >>> default_threads(n_rows=1000, n_hyps=5, chunk=1024)  # small: one thread
+    1
+    """
+    if n_rows * n_hyps < _THREAD_MIN_CELLS:
+        return 1
+    n_chunks = -(-n_rows // max(chunk, 1))
+    free = _available_cpus() - _current_load()
+    return max(1, min(_MAX_THREADS, n_chunks, int(free + 0.5)))
+
+
+def _available_cpus() -> int:
+    """CPUs this process may run on: its affinity mask where there is one."""
+    affinity = getattr(os, "sched_getaffinity", None)
+    if affinity is not None:
+        try:
+            return max(len(affinity(0)), 1)
+        except OSError:
+            pass
+    return os.cpu_count() or 1
+
+
+def _current_load() -> float:
+    """The one-minute load average (runnable processes), 0 where the platform has none."""
+    loadavg = getattr(os, "getloadavg", None)
+    if loadavg is None:
+        return 0.0
+    try:
+        return max(float(loadavg()[0]), 0.0)
+    except OSError:
+        return 0.0
+
+
 def _default_chunk(n_hyps: int) -> int:
     return int(min(max(_CHUNK_BYTES // (8 * max(n_hyps, 1)), 1024), 1 << 20))
 
@@ -642,10 +713,10 @@ def _score_frame(model: _Model, frame: pd.DataFrame, columns: tuple[tuple[int, A
         o["log_ev"][a:b] = (top - model.log_prior_total) + np.log(total)
 
     starts = range(0, n, chunk)
-    if threads > 1 and len(starts) > 1 and n * h >= _THREAD_MIN_CELLS:
+    if threads > 1 and len(starts) > 1:
         # numpy releases the GIL in these loops; results are in order, so the first
         # bad row reported is the same as in a single thread
-        with ThreadPoolExecutor(max_workers=threads) as pool:
+        with ThreadPoolExecutor(max_workers=min(threads, len(starts))) as pool:
             for f in [pool.submit(run, a) for a in starts]:
                 f.result()
     else:
@@ -714,4 +785,4 @@ def _stop_early(model: _Model, series: list, codes: list[np.ndarray],
     return w, stop
 
 
-__all__ = ["score_rows", "compile_model", "RESULT_COLUMNS", "UNKNOWN_COLUMN"]
+__all__ = ["score_rows", "compile_model", "default_threads", "RESULT_COLUMNS", "UNKNOWN_COLUMN"]
