@@ -433,7 +433,7 @@ class _Coder:
 
     Categorical columns map their categories once; integer and float columns are
     read as whole-number codes of the states (``v`` is the state ``str(int(v))``,
-    NaN is not observed) with one binary search per cell; other columns are
+    NaN is not observed) with one table look-up per cell; other columns are
     factorised chunk by chunk (one hash pass per cell). Memory stays bounded
     either way. A value that cannot be read (a non-whole number, a number two
     states spell) raises when its chunk is coded.
@@ -487,21 +487,22 @@ class _Coder:
     def refused_error(self, column: pd.Series, where: int) -> CaseError:
         """A number the column cannot be read as: not whole, or spelled by two states."""
         value, label = _plain(column.iloc[where]), _plain(column.index[where])
+        whole = float(value).is_integer()
+        if whole and len(self.numbers.spellings.get(int(value), ())) < 2:
+            return self.unknown_error(column, where)  # a whole float beyond the int64 range
         head = f"row {label!r}, column {column.name!r}: {value!r}"
         rule = (f"the column holds numbers, each read as the state of evidence '{self.item}' "
                 "that spells it (7 as '7')")
-        if float(value).is_integer() and len(self.numbers.spellings.get(int(value), ())) < 2:
-            return self.unknown_error(column, where)  # a whole float beyond the int64 range
-        if not float(value).is_integer():
+        if not whole:
             return CaseError(f"{head} is not a whole number; {rule}, and its states are "
                              f"{list(self.states)}; fix the value, or leave it empty (NaN) for not "
                              f"observed{self._text_hint(column, value)}")
         v = int(value)
-        both = " or ".join(repr(s) for s in self.numbers.spellings[v])
-        return CaseError(f"{head} could be state {both}; {rule}, and two states spell {v}: "
-                         "rename the states so that each number has one spelling, or map the "
-                         f"column to state labels yourself (e.g. .map({{{v}: "
-                         f"{self.numbers.spellings[v][-1]!r}}}))")
+        spellings = self.numbers.spellings[v]
+        return CaseError(f"{head} could be state {' or '.join(map(repr, spellings))}; {rule}, "
+                         f"and two states spell {v}: rename the states so that each number has "
+                         "one spelling, or map the column to state labels yourself (e.g. "
+                         f".map({{{v}: {spellings[-1]!r}}}))")
 
     def unknown_error(self, column: pd.Series, where: int) -> CaseError:
         """A label (or number) that is not a state of the item."""
