@@ -1,7 +1,7 @@
 """score_rows on a Dask DataFrame, on a local two-worker cluster, against the pandas path.
 
 Needs the optional extra ``beliefledger[dask]``; skipped with a message without it.
-The model and observations are invented, seeded test data (see test_batch.py).
+The model and observation rows are invented, seeded test data (see test_batch.py).
 """
 
 from __future__ import annotations
@@ -16,7 +16,7 @@ distributed = pytest.importorskip("distributed", reason="distributed is not inst
                                   "pip install 'beliefledger[dask]' to run the Dask tests")
 
 import beliefledger as bl  # noqa: E402
-from test_batch import random_model, random_observations  # noqa: E402
+from test_batch import gauge_model, gauge_rows, random_model, random_rows  # noqa: E402
 
 
 @pytest.fixture(scope="module")
@@ -42,15 +42,15 @@ def client():
 def data():
     rng = np.random.default_rng(20261201)
     model = random_model(rng)
-    obs = random_observations(rng, model, 3000)
-    return model, obs
+    rows = random_rows(rng, model, 3000)
+    return model, rows
 
 
 def test_dask_path_equals_pandas_path(client, data):
-    model, obs = data
-    ref = bl.score_rows(model, obs)
+    model, rows = data
+    ref = bl.score_rows(model, rows)
     assert ref["impossible"].any() and (ref["eliminated"] > 0).any()
-    ddf = dd.from_pandas(obs, npartitions=5)
+    ddf = dd.from_pandas(rows, npartitions=5)
     lazy = bl.score_rows(model, ddf, chunk_size=97)
     assert isinstance(lazy, dd.DataFrame)
     assert list(lazy.columns) == list(ref.columns)
@@ -62,28 +62,37 @@ def test_dask_path_equals_pandas_path(client, data):
 
 
 def test_dask_categorical_columns_and_skip_option(client, data):
-    model, obs = data
-    frame = obs.copy()
+    model, rows = data
+    frame = rows.copy()
     frame.iloc[11, 2] = "not a state"
     cat = frame.astype("category")
-    ref = bl.score_rows(model, frame, on_unknown="skip")
+    ref = bl.score_rows(model, frame, on_unknown="skip", weak_below=0.7)
     got = client.compute(bl.score_rows(model, dd.from_pandas(cat, npartitions=3),
-                                        on_unknown="skip")).result()
+                                        on_unknown="skip", weak_below=0.7)).result()
     pd.testing.assert_frame_equal(got, ref, check_exact=True)
     assert got["n_unknown"].sum() == 1
+    assert got["weak_map"].any() and (got["weak_map"] == (got["map_probability"] < 0.7)).all()
 
 
 def test_dask_unknown_label_raises_case_error_at_compute(client, data):
-    model, obs = data
-    frame = obs.copy()
-    frame.loc["case-2500", "item 4"] = "typo"
+    model, rows = data
+    frame = rows.copy()
+    frame.loc["alarm-2500", "item 4"] = "typo"
     lazy = bl.score_rows(model, dd.from_pandas(frame, npartitions=4))
-    with pytest.raises(bl.CaseError, match=r"row 'case-2500', column 'item 4': 'typo'"):
+    with pytest.raises(bl.CaseError, match=r"row 'alarm-2500', column 'item 4': 'typo'"):
         client.compute(lazy).result()
 
 
 def test_dask_bad_columns_fail_before_compute(data):
-    model, obs = data
-    ddf = dd.from_pandas(obs.assign(extra=1), npartitions=2)
-    with pytest.raises(bl.CaseError, match=r"column 'extra' of observations is not an evidence"):
+    model, rows = data
+    ddf = dd.from_pandas(rows.assign(extra=1), npartitions=2)
+    with pytest.raises(bl.CaseError,
+                       match=r"column 'extra' of the observation rows is not an evidence"):
         bl.score_rows(model, ddf)
+
+
+def test_dask_integer_coded_columns(client):
+    case, frame = gauge_model(), gauge_rows(np.random.default_rng(20261202), 500)
+    ref = bl.score_rows(case, frame)
+    got = client.compute(bl.score_rows(case, dd.from_pandas(frame, npartitions=3))).result()
+    pd.testing.assert_frame_equal(got, ref, check_exact=True)

@@ -1,9 +1,11 @@
-"""Batch scoring: one audited evidence model applied to many cases at once.
+"""Batch scoring: one audited evidence model applied to many observation rows at once.
 
 :func:`score_rows` takes a model :class:`~beliefledger.case.Case` (its
 hypotheses, the priors of its active scenario and the likelihood table of
-each evidence item) and a table of observations, one row per case and one
-column per evidence item, and returns the posterior of every row.
+each evidence item) and a table of observation rows, one row per incident,
+alarm or claim and one column per evidence item, and returns the posterior
+of every row. (A case, in beliefledger, is an investigation; the rows are
+the many things scored against one case's model.)
 
 How: each item's natural-log likelihood table is extended with two count
 columns (observed, unknown label) and neighbouring items are bundled into
@@ -16,8 +18,8 @@ rows there are. A Dask DataFrame is scored partition by partition
 (``map_partitions``) and gives a Dask DataFrame back.
 
 The result equals :func:`beliefledger.engine.update` run on each row alone
-(the tests check this on a seeded random sample), including the two edge
-cases the engine defines:
+(the tests check this on a seeded random sample), including the two
+boundary rules the engine defines:
 
 - an observed state with likelihood exactly 0 under a hypothesis eliminates
   it (posterior exactly 0, counted in ``eliminated``);
@@ -33,6 +35,7 @@ Dask DataFrame brings it along; ``pip install 'beliefledger[dask]'``).
 from __future__ import annotations
 
 import os
+import re
 import threading
 from collections.abc import Sequence
 from concurrent.futures import ThreadPoolExecutor
@@ -49,8 +52,8 @@ from .errors import CaseError, CaseTypeError
 if TYPE_CHECKING:
     from .case import Case
 
-RESULT_COLUMNS = ("map", "n_observed", "eliminated", "impossible", "stopped_at",
-                  "log_evidence")
+RESULT_COLUMNS = ("map", "map_probability", "weak_map", "n_observed", "eliminated",
+                  "impossible", "stopped_at", "log_evidence")
 """Columns of a :func:`score_rows` result after the posterior columns."""
 
 UNKNOWN_COLUMN = "n_unknown"
@@ -58,6 +61,8 @@ UNKNOWN_COLUMN = "n_unknown"
 
 _CHUNK_BYTES = 4 * 2**20  # size of one chunk's (rows x hypotheses) float64 accumulator
 _THREAD_MIN_CELLS = 2**18  # below this many rows x hypotheses, threads cost more than they save
+_MAX_THREADS = 4  # numpy's loops here are memory-bound: more threads than this gain little
+_SKIP_ZERO_FREE_COUNT = True  # no zero likelihood in the scored items: eliminated is 0, uncounted
 
 
 @dataclass(frozen=True)
@@ -102,7 +107,7 @@ def compile_model(case: Case) -> _Model:
                 j = int(bad[0])
                 raise CaseError(f"likelihoods of evidence '{ev.name}' for hypothesis "
                                 f"'{hyps[j]}' sum to {sums[j]:.6g} over its states, not 1; fix "
-                                "the column before scoring cases with this model")
+                                "the column before scoring rows with this model")
         ns, nh = len(ev.states), len(hyps)
         lt = np.zeros((ns + 2, nh + 2))
         lt[:ns, :nh] = log_of(t)
@@ -130,9 +135,10 @@ def _check_count(name: str, value: Any, kind: str, fix: str) -> None:
         raise CaseError(f"{name} is {value}; {fix}")
 
 
-def score_rows(case: Case, observations: Any, *, chunk_size: int | None = None,
-                on_unknown: str = "raise", prefix: str = "", threads: int | None = None) -> Any:
-    """Posterior of every case in a table of observations, under one model case.
+def score_rows(case: Case, rows: Any, *, chunk_size: int | None = None,
+               on_unknown: str = "raise", prefix: str = "", threads: int | None = None,
+               weak_below: float = 0.5) -> Any:
+    """Posterior of every observation row of a table, under one model case.
 
     Parameters
     ----------
@@ -142,11 +148,22 @@ def score_rows(case: Case, observations: Any, *, chunk_size: int | None = None,
         itself has observed are ignored; each row brings its own. The priors
         must sum to 1 and each likelihood column to 1 (likelihood evidence items
         excepted), else a :class:`~beliefledger.errors.CaseError` is raised.
-    observations : pandas.DataFrame or dask.dataframe.DataFrame
-        One row per case, one column per evidence item of the model (a
-        subset is fine: a missing column means not observed in any row).
+    rows : pandas.DataFrame or dask.dataframe.DataFrame
+        The observation rows: one row per incident, alarm or claim, one
+        column per evidence item of the model (a subset is fine: a missing
+        column means not observed in any row).
         Values are state labels of that item; missing values (NaN, None,
         ``pd.NA``) mean not observed. Categorical columns are fastest.
+
+        Integer-coded states: an integer or float column (numpy or pandas
+        nullable), or a categorical whose categories are numbers, is read as
+        whole-number codes: the value ``v`` is the state spelled
+        ``str(int(v))`` (states ``["0", "1", "2"]`` or ``["1", "2"]``), and
+        NaN is not observed, so integers with gaps, which pandas keeps as
+        float, need no conversion. A value that is not a whole number (1.5),
+        or a number two states spell (``"1"`` and ``"01"``), raises a
+        ``CaseError`` whatever ``on_unknown`` says; a number no state spells
+        is an unknown label.
     chunk_size : int, optional
         Rows scored at a time (default: about 4 MB of float64 per chunk).
         Results do not depend on it.
@@ -159,19 +176,31 @@ def score_rows(case: Case, observations: Any, *, chunk_size: int | None = None,
         Prefix for the posterior column names (use one, e.g. ``"p_"``, when a
         hypothesis is named like a result column).
     threads : int, optional
-        Threads scoring chunks side by side (default: the machine's CPUs, at
-        most 4; 1 on a Dask DataFrame, whose partitions already run in
-        parallel). Results do not depend on it.
+        Threads scoring chunks side by side. Default: :func:`default_threads`,
+        the CPUs this process may use less the load of other processes, at
+        most 4, and 1 for small frames; 1 on a Dask DataFrame, whose
+        partitions already run in parallel. A number given here is used as
+        it is (at most one thread per chunk). Results do not depend on it.
+    weak_below : float
+        The threshold of the ``weak_map`` flag, a probability in (0, 1]: a
+        row is flagged when the posterior of its MAP hypothesis is below it
+        (default 0.5: no hypothesis holds a majority of the belief).
 
     Returns
     -------
     pandas.DataFrame or dask.dataframe.DataFrame
-        Same index as ``observations``. One float column per hypothesis (the
+        Same index as ``rows``. One float column per hypothesis (the
         posterior; rows sum to 1), then:
 
         ``map``
             The MAP hypothesis (categorical; the first of tied maxima, as in
             the engine).
+        ``map_probability``
+            The posterior of the MAP hypothesis (float).
+        ``weak_map``
+            True when ``map_probability`` is below ``weak_below``: the
+            leading hypothesis is a weak lead, worth a look before acting on
+            it in a fleet of rows.
         ``n_observed``
             How many evidence items the row observed.
         ``eliminated``
@@ -190,11 +219,12 @@ def score_rows(case: Case, observations: Any, *, chunk_size: int | None = None,
     Raises
     ------
     CaseTypeError
-        ``observations`` is not a DataFrame, or ``case`` is not a Case.
+        ``rows`` is not a DataFrame, or ``case`` is not a Case.
     CaseError
         An empty frame, a column that is not an evidence item of the model,
-        an unknown state label (with ``on_unknown="raise"``), an incoherent
-        model, or evidence that depends on other evidence.
+        an unknown state label (with ``on_unknown="raise"``), a number that
+        cannot be read as a state (not whole, or two states spell it), an
+        incoherent model, or evidence that depends on other evidence.
 
     Examples
     --------
@@ -204,11 +234,12 @@ def score_rows(case: Case, observations: Any, *, chunk_size: int | None = None,
     >>> _ = model.add_evidence("vibration", states=["high", "normal"],
     ...                        likelihoods={"bearing": [0.8, 0.2], "Other": [0.1, 0.9]})
     >>> rows = pd.DataFrame({"vibration": ["high", "normal", None]})
-    >>> bl.score_rows(model, rows).round(4)[["bearing", "Other", "map"]]
-       bearing   Other      map
-    0   0.7742  0.2258  bearing
-    1   0.0870  0.9130    Other
-    2   0.3000  0.7000    Other
+    >>> scored = bl.score_rows(model, rows, weak_below=0.8)
+    >>> scored.round(4)[["bearing", "Other", "map", "map_probability", "weak_map"]]
+       bearing   Other      map  map_probability  weak_map
+    0   0.7742  0.2258  bearing           0.7742      True
+    1   0.0870  0.9130    Other           0.9130     False
+    2   0.3000  0.7000    Other           0.7000      True
     """
     if on_unknown not in ("raise", "skip"):
         raise CaseError(f"on_unknown is {on_unknown!r}; use 'raise' or 'skip'")
@@ -217,29 +248,45 @@ def score_rows(case: Case, observations: Any, *, chunk_size: int | None = None,
     _check_count("threads", threads, "must be a whole number", "give 1 or more")
     if not isinstance(prefix, str):
         raise CaseTypeError(f"prefix must be a string, got {type(prefix).__name__}")
-    is_dask = _is_dask_frame(observations)
-    if not is_dask and not isinstance(observations, pd.DataFrame):
+    _check_threshold(weak_below)
+    is_dask = _is_dask_frame(rows)
+    if not is_dask and not isinstance(rows, pd.DataFrame):
         raise CaseTypeError(
-            f"observations must be a pandas DataFrame (one row per case, one column per "
-            f"evidence item) or a Dask DataFrame, got {type(observations).__name__}; build "
-            "one with pandas.DataFrame(...)")
+            f"rows must be a pandas DataFrame of observation rows (one row per incident, alarm "
+            f"or claim, one column per evidence item) or a Dask DataFrame, got "
+            f"{type(rows).__name__}; build one with pandas.DataFrame(...)")
     model = compile_model(case)
-    columns = _check_columns(model, observations.columns)
+    columns = _check_columns(model, rows.columns)
     _refuse_dependent(case, [c for _, c in columns])
     names = _output_names(model, prefix, on_unknown)
     if is_dask:
-        meta = _score_frame(model, observations._meta, columns, names, chunk_size, on_unknown)
-        return observations.map_partitions(_score_partition, model, columns=columns, names=names,
-                                           chunk_size=chunk_size, on_unknown=on_unknown,
-                                           threads=threads or 1, meta=meta,
-                                           align_dataframes=False)
-    if len(observations) == 0:
-        raise CaseError("observations has no rows; give one row per case to score")
-    threads = threads or min(os.cpu_count() or 1, 4)
-    return _score_frame(model, observations, columns, names, chunk_size, on_unknown, threads)
+        meta = _score_frame(model, rows._meta, columns, names, chunk_size, on_unknown,
+                            weak_below=weak_below)
+        return rows.map_partitions(_score_partition, model, columns=columns, names=names,
+                                   chunk_size=chunk_size, on_unknown=on_unknown,
+                                   threads=threads or 1, weak_below=weak_below, meta=meta,
+                                   align_dataframes=False)
+    if len(rows) == 0:
+        raise CaseError("the frame of observation rows has no rows; give one row per incident, "
+                        "alarm or claim to score")
+    chunk = chunk_size or _default_chunk(len(model.hypotheses))
+    threads = threads or default_threads(len(rows), len(model.hypotheses), chunk)
+    return _score_frame(model, rows, columns, names, chunk, on_unknown, threads,
+                        weak_below=weak_below)
 
 
 # --------------------------------------------------------------------------- checks
+
+
+def _check_threshold(weak_below: Any) -> None:
+    """``weak_below`` is a probability in (0, 1]."""
+    if isinstance(weak_below, bool) or not isinstance(weak_below, int | float | np.number):
+        raise CaseTypeError(f"weak_below must be a probability in (0, 1], got "
+                            f"{type(weak_below).__name__} {weak_below!r}")
+    if not 0 < weak_below <= 1:
+        raise CaseError(f"weak_below is {weak_below!r}; give a probability above 0 and at most "
+                        "1 (default 0.5): rows whose MAP hypothesis has a posterior below it "
+                        "are flagged weak_map")
 
 
 def _is_dask_frame(obj: Any) -> bool:
@@ -252,15 +299,15 @@ def _check_columns(model: _Model, columns: Sequence[Any]) -> tuple[tuple[int, An
     """(item position, column label) for each column, in the model's evidence order."""
     cols = list(columns)
     if not cols:
-        raise CaseError("observations has no columns; give one column per evidence item, "
-                        f"named after the items {_short(model.items)}")
+        raise CaseError("the frame of observation rows has no columns; give one column per "
+                        f"evidence item, named after the items {_short(model.items)}")
     pos = {name: i for i, name in enumerate(model.items)}
     seen: dict[Any, int] = {}
     out = []
     for c in cols:
         if c in seen:
-            raise CaseError(f"observations has column {c!r} twice; give each evidence item "
-                            "one column")
+            raise CaseError(f"the observation rows have column {c!r} twice; give each evidence "
+                            "item one column")
         seen[c] = 1
         if not isinstance(c, str) or c not in pos:
             hint = ""
@@ -268,9 +315,9 @@ def _check_columns(model: _Model, columns: Sequence[Any]) -> tuple[tuple[int, An
                 near = [n for n in model.items if n.strip().lower() == c.strip().lower()]
                 if near:
                     hint = f" (did you mean {near[0]!r}?)"
-            raise CaseError(f"column {c!r} of observations is not an evidence item of the model"
-                            f"{hint}; the items are {_short(model.items)}; rename or drop the "
-                            "column (keep case identifiers in the index)")
+            raise CaseError(f"column {c!r} of the observation rows is not an evidence item of "
+                            f"the model{hint}; the items are {_short(model.items)}; rename or "
+                            "drop the column (keep row identifiers, e.g. alarm ids, in the index)")
         out.append((pos[c], c))
     return tuple(sorted(out, key=lambda t: t[0]))
 
@@ -283,7 +330,7 @@ def _refuse_dependent(case: Case, names: list[str]) -> None:
         if name in links:
             raise CaseError(f"column '{name}' is evidence in a stated dependence ({links[name]}); "
                             "score_rows handles independent evidence items only: drop the "
-                            "column, or score such cases one by one with case.update()")
+                            "column, or score such rows one by one with case.update()")
 
 
 def _output_names(model: _Model, prefix: str, on_unknown: str) -> tuple[str, ...]:
@@ -305,52 +352,261 @@ def _short(names: Sequence[str], limit: int = 10) -> str:
 
 # --------------------------------------------------------------------------- labels -> codes
 
+_REFUSED = -1  # a row code the coder raises on before anything uses it
+_INT_TEXT = re.compile(r"\s*[+-]?[0-9]+\s*")
+_INT64_END = 2**63  # whole numbers at or beyond +-2**63 spell no state
+_LUT_SPAN = 2**16  # integer states spanning more are looked up by binary search
+
+
+class _WholeNumbers:
+    """How one item reads whole numbers: the number ``v`` is the state spelled ``str(v)``.
+
+    ``spellings`` maps every integer some state spells (leading zeros, a sign
+    and spaces allowed) to those states. A number becomes the index of the
+    state spelled exactly ``str(v)``; ``n_states + 1`` (an unknown label) when
+    no state is (only ``"01"`` for 1); ``_REFUSED`` when two states spell it
+    (``"1"`` and ``"01"``): ambiguous. Looked up in a table indexed by the
+    number when the numbers span at most ``_LUT_SPAN``, else by binary search.
+    """
+
+    def __init__(self, states: tuple[str, ...]) -> None:
+        spelled: dict[int, list[str]] = {}
+        for s in states:
+            if _INT_TEXT.fullmatch(s) and -_INT64_END < int(s) < _INT64_END - 1:
+                spelled.setdefault(int(s), []).append(s)
+        self.spellings = spelled
+        self.unknown = len(states) + 1
+        dtype = np.int16 if len(states) < 32000 else np.int64
+        where = {s: i for i, s in enumerate(states)}
+        nums = sorted(spelled)
+        self.numbers = np.array(nums, dtype=np.int64)
+        self.codes = np.array([_REFUSED if len(spelled[v]) > 1 else where.get(str(v), self.unknown)
+                               for v in nums], dtype=dtype)
+        self.lut = None
+        if not nums or nums[-1] - nums[0] < _LUT_SPAN:
+            # entry 0: below the lowest number, entry -1: above the highest (both unknown)
+            self.low = nums[0] - 1 if nums else 0
+            self.lut = np.full((nums[-1] - self.low + 2) if nums else 2, self.unknown, dtype)
+            self.lut[self.numbers - self.low] = self.codes
+
+    def __call__(self, x: np.ndarray) -> np.ndarray:
+        """Codes of the numbers ``x``: floats that are not whole int64 values (NaN, inf,
+        1.5, 1e30) come out ``_REFUSED``, for the caller to sort out."""
+        if x.dtype.kind == "f":
+            with np.errstate(invalid="ignore"):
+                xi = x.astype(np.int64)  # NaN, inf and out-of-range values: garbage ...
+            return np.where(xi == x, self._lookup(xi), _REFUSED)  # ... that fails this test
+        if x.dtype.kind == "u" and x.dtype.itemsize == 8:
+            return np.where(x < _INT64_END, self._lookup(x.astype(np.int64)), self.unknown)
+        return self._lookup(x.astype(np.int64, copy=False))
+
+    def _lookup(self, x: np.ndarray) -> np.ndarray:
+        """Codes of int64 values."""
+        if self.lut is not None:
+            idx = np.clip(x, self.low, self.low + self.lut.size - 1)
+            idx -= self.low
+            return self.lut[idx]
+        pos = np.searchsorted(self.numbers, x)
+        np.minimum(pos, self.numbers.size - 1, out=pos)
+        return np.where(self.numbers[pos] == x, self.codes[pos], self.unknown)
+
+
+def _is_numbers(dtype: Any) -> bool:
+    """Integer or float columns (numpy or pandas nullable; not bool): whole-number codes."""
+    return ((pd.api.types.is_integer_dtype(dtype) or pd.api.types.is_float_dtype(dtype))
+            and (isinstance(dtype, np.dtype) or hasattr(dtype, "numpy_dtype")))
+
+
+def _as_numbers(values: pd.Series | pd.Index) -> tuple[np.ndarray, np.ndarray]:
+    """A numeric column (or categories) as a numpy array and its missing-value mask."""
+    if isinstance(values.dtype, np.dtype):
+        x = values.to_numpy()
+        return x, (np.isnan(x) if x.dtype.kind == "f" else np.zeros(x.shape, dtype=bool))
+    missing = np.asarray(values.isna())
+    x = values.to_numpy(dtype=values.dtype.numpy_dtype, na_value=0)
+    return x, (missing | np.isnan(x) if x.dtype.kind == "f" else missing)
+
 
 class _Coder:
     """Turns one column of state labels into row codes: the state index, ``n_states``
     for not observed, ``n_states + 1`` for an unknown label.
 
-    Categorical columns map their categories once; other columns are factorised
-    chunk by chunk (one hash pass per cell), so memory stays bounded either way.
+    Categorical columns map their categories once; integer and float columns are
+    read as whole-number codes of the states (``v`` is the state ``str(int(v))``,
+    NaN is not observed) with one table look-up per cell; other columns are
+    factorised chunk by chunk (one hash pass per cell). Memory stays bounded
+    either way. A value that cannot be read (a non-whole number, a number two
+    states spell) raises when its chunk is coded.
     """
 
-    def __init__(self, states: tuple[str, ...], column: pd.Series) -> None:
+    def __init__(self, item: str, states: tuple[str, ...], column: pd.Series) -> None:
+        self.item, self.states = item, states
         self.n = len(states)
         self.index = pd.Index(states, dtype=object)
         self.codes = None
+        numbers = column.cat.categories if isinstance(column.dtype, pd.CategoricalDtype) \
+            else column
+        self.numbers = _WholeNumbers(states) if _is_numbers(numbers.dtype) else None
+        self.refuses = self.numbers is not None
         if isinstance(column.dtype, pd.CategoricalDtype):
             self.lut = self._lut(column.cat.categories)
             self.codes = column.array.codes  # a read-only view (cat.codes copies)
+            self.refuses = bool((self.lut < 0).any())
 
     def _lut(self, labels: Any) -> np.ndarray:
-        lut = self.index.get_indexer(labels) if len(labels) else np.empty(0, dtype=np.intp)
-        lut = np.where(lut < 0, self.n + 1, lut)
+        if self.numbers is not None:
+            lut = self._number_codes(labels)
+        elif len(labels):
+            lut = self.index.get_indexer(labels)
+            lut = np.where(lut < 0, self.n + 1, lut)
+        else:
+            lut = np.empty(0, dtype=np.intp)
         # code -1 (missing) picks the last entry: not observed
         return np.append(lut, self.n).astype(np.int16 if self.n < 32000 else np.int64)
 
+    def _number_codes(self, values: pd.Series | pd.Index) -> np.ndarray:
+        x, missing = _as_numbers(values)
+        codes = self.numbers(x)
+        np.putmask(codes, missing, self.n)
+        return codes
+
     def __call__(self, column: pd.Series, a: int, b: int) -> np.ndarray:
         if self.codes is not None:
-            return self.lut[self.codes[a:b]]
-        codes, labels = pd.factorize(column.iloc[a:b], use_na_sentinel=True)
-        return self._lut(labels)[codes]
+            codes = self.lut[self.codes[a:b]]
+        elif self.numbers is not None:
+            codes = self._number_codes(column.iloc[a:b])
+        else:
+            codes, labels = pd.factorize(column.iloc[a:b], use_na_sentinel=True)
+            return self._lut(labels)[codes]
+        if self.refuses:
+            bad = np.flatnonzero(codes == _REFUSED)
+            if bad.size:
+                raise self.refused_error(column, a + int(bad[0]))
+        return codes
+
+    def refused_error(self, column: pd.Series, where: int) -> CaseError:
+        """A number the column cannot be read as: not whole, or spelled by two states."""
+        value, label = _plain(column.iloc[where]), _plain(column.index[where])
+        whole = float(value).is_integer()
+        if whole and len(self.numbers.spellings.get(int(value), ())) < 2:
+            return self.unknown_error(column, where)  # a whole float beyond the int64 range
+        head = f"row {label!r}, column {column.name!r}: {value!r}"
+        rule = (f"the column holds numbers, each read as the state of evidence '{self.item}' "
+                "that spells it (7 as '7')")
+        if not whole:
+            return CaseError(f"{head} is not a whole number; {rule}, and its states are "
+                             f"{list(self.states)}; fix the value, or leave it empty (NaN) for not "
+                             f"observed{self._text_hint(column, value)}")
+        v = int(value)
+        spellings = self.numbers.spellings[v]
+        return CaseError(f"{head} could be state {' or '.join(map(repr, spellings))}; {rule}, "
+                         f"and two states spell {v}: rename the states so that each number has "
+                         "one spelling, or map the column to state labels yourself (e.g. "
+                         f".map({{{v}: {spellings[-1]!r}}}))")
+
+    def unknown_error(self, column: pd.Series, where: int) -> CaseError:
+        """A label (or number) that is not a state of the item."""
+        value, label = _plain(column.iloc[where]), _plain(column.index[where])
+        hint = self._number_hint(value) if self.numbers is not None else \
+            self._text_hint(column, value)
+        return CaseError(f"row {label!r}, column {column.name!r}: {value!r} is not a state of "
+                         f"evidence '{self.item}'{hint}; its states are {list(self.states)}; fix "
+                         "the label, leave it empty for not observed, or pass on_unknown='skip' "
+                         "to count and skip unknown labels")
+
+    def _number_hint(self, value: Any) -> str:
+        v = int(value)
+        others = self.numbers.spellings.get(v)
+        if others:
+            return (f" (a number is read as the state that spells it, {v} as '{v}', but the "
+                    f"states spell it {others[0]!r}: rename the states to plain numbers, or map "
+                    f"the column to state labels yourself, e.g. .map({{{v}: {others[0]!r}}}))")
+        return f" (a number is read as the state that spells it: {v} as '{v}', not a state)"
+
+    def _text_hint(self, column: pd.Series, value: Any) -> str:
+        if isinstance(value, str) or str(value) not in self.states:
+            return ""
+        if isinstance(column.dtype, pd.CategoricalDtype):
+            return (f" (the categories are {column.cat.categories.dtype} values, not text: "
+                    "rename them with .cat.rename_categories(str), which keeps the fast "
+                    "categorical path)")
+        return (f" (the column holds {column.dtype} values, not text: convert it with "
+                ".astype('string'), which keeps missing values missing)")
 
 
-def _unknown_error(model: _Model, k: int, col: Any, frame: pd.DataFrame, where: int) -> CaseError:
-    value = frame[col].iloc[where]
-    label = frame.index[where]
-    value = value.item() if isinstance(value, np.generic) else value
-    label = label.item() if isinstance(label, np.generic) else label
-    states = list(model.states[k])
-    hint = ""
-    if not isinstance(value, str) and str(value) in states:
-        hint = f" (the column holds {frame[col].dtype} values: convert it with .astype(str))"
-    return CaseError(f"row {label!r}, column {col!r}: {value!r} is not a state of evidence "
-                     f"'{model.items[k]}'{hint}; its states are {states}; fix the label, leave "
-                     "it empty for not observed, or pass on_unknown='skip' to count and skip "
-                     "unknown labels")
+def _plain(x: Any) -> Any:
+    """A numpy scalar as the Python value it holds (for messages)."""
+    return x.item() if isinstance(x, np.generic) else x
 
 
 # --------------------------------------------------------------------------- scoring
+
+
+def default_threads(n_rows: int, n_hyps: int, chunk: int) -> int:
+    """How many threads :func:`score_rows` uses when ``threads`` is not given.
+
+    The CPUs this process may run on (its affinity mask where the platform
+    has one, ``os.sched_getaffinity``, else ``os.cpu_count()``), less the
+    load of other processes (the one-minute load average, ``os.getloadavg``,
+    where available), rounded to the nearest whole CPU, so a CPU at least
+    half free counts; never below 1, at most 4 and at most one per chunk.
+    Small work (fewer than 2**18 rows x hypotheses) gets 1: starting threads
+    would cost more than they save. On a busy machine a second thread only
+    competes with the other processes for the same CPUs, and is slower.
+
+    Parameters
+    ----------
+    n_rows : int
+        Rows to score.
+    n_hyps : int
+        Hypotheses of the model.
+    chunk : int
+        Rows scored at a time (a positive number).
+
+    Returns
+    -------
+    int
+        The number of threads, 1 to 4.
+
+    Notes
+    -----
+    The load average counts this process too while it is busy (a loop of
+    large calls sees its own earlier work), and CPU quotas of a container
+    (cgroups) are not seen; pass ``threads`` to :func:`score_rows` to
+    choose yourself.
+
+    Examples
+    --------
+    >>> default_threads(n_rows=1000, n_hyps=5, chunk=1024)  # small: one thread
+    1
+    """
+    if n_rows * n_hyps < _THREAD_MIN_CELLS:
+        return 1
+    n_chunks = -(-n_rows // max(chunk, 1))
+    free = _available_cpus() - _current_load()
+    return max(1, min(_MAX_THREADS, n_chunks, int(free + 0.5)))
+
+
+def _available_cpus() -> int:
+    """CPUs this process may run on: its affinity mask where there is one."""
+    affinity = getattr(os, "sched_getaffinity", None)
+    if affinity is not None:
+        try:
+            return max(len(affinity(0)), 1)
+        except OSError:
+            pass
+    return os.cpu_count() or 1
+
+
+def _current_load() -> float:
+    """The one-minute load average (runnable processes), 0 where the platform has none."""
+    loadavg = getattr(os, "getloadavg", None)
+    if loadavg is None:
+        return 0.0
+    try:
+        return max(float(loadavg()[0]), 0.0)
+    except OSError:
+        return 0.0
 
 
 def _default_chunk(n_hyps: int) -> int:
@@ -389,7 +645,7 @@ def _groups(model: _Model, present: list[int]) -> list[tuple[list[int], list[int
 
 def _score_frame(model: _Model, frame: pd.DataFrame, columns: tuple[tuple[int, Any], ...],
                  names: tuple[str, ...], chunk_size: int | None, on_unknown: str,
-                 threads: int = 1) -> pd.DataFrame:
+                 threads: int = 1, *, weak_below: float = 0.5) -> pd.DataFrame:
     """Score one pandas frame (a whole input or one Dask partition; may be empty)."""
     n, h = len(frame), len(model.hypotheses)
     chunk = chunk_size or _default_chunk(h)
@@ -397,14 +653,16 @@ def _score_frame(model: _Model, frame: pd.DataFrame, columns: tuple[tuple[int, A
     # dtype pandas would pick, so the categoricals take them as they are.
     o = {"post": np.empty((n, h)),
          "map": np.empty(n, dtype=_code_dtype(h)),
+         "map_p": np.empty(n),
          "stop": np.full(n, -1, dtype=_code_dtype(len(model.items))),
          "n_obs": np.zeros(n, dtype=np.int32),
          "n_unk": np.zeros(n if on_unknown == "skip" else 0, dtype=np.int32),
-         "elim": np.empty(n, dtype=np.int32),
+         "elim": np.zeros(n, dtype=np.int32),
          "log_ev": np.empty(n)}
     series = [(k, col, frame[col]) for k, col in columns]
-    coders = [_Coder(model.states[k], s) for k, _, s in series]
+    coders = [_Coder(model.items[k], model.states[k], s) for k, _, s in series]
     groups = _groups(model, [k for k, _ in columns])
+    count_eliminated = not _SKIP_ZERO_FREE_COUNT or _any_zero_likelihood(model, columns)
     width = min(chunk, n)
     scratch = threading.local()
 
@@ -434,7 +692,7 @@ def _score_frame(model: _Model, frame: pd.DataFrame, columns: tuple[tuple[int, A
             r = int(np.flatnonzero(wm[:, h + 1])[0])
             i = next(i for i, (k, _, _) in enumerate(series)
                      if codes[i][r] == len(model.states[k]) + 1)
-            raise _unknown_error(model, series[i][0], series[i][1], frame, a + r)
+            raise coders[i].unknown_error(series[i][2], a + r)
         lw = wm[:, :h]
         # log-sum-exp per row, fused with the posterior: one exp per entry
         top = lw.max(axis=1)
@@ -448,15 +706,18 @@ def _score_frame(model: _Model, frame: pd.DataFrame, columns: tuple[tuple[int, A
         np.exp(out, out=out)
         total = out.sum(axis=1)
         out /= total[:, None]
-        o["map"][a:b] = np.argmax(out, axis=1)
-        o["elim"][a:b] = np.count_nonzero(np.isneginf(lw) & model.positive_prior, axis=1)
+        top_h = np.argmax(out, axis=1)
+        o["map"][a:b] = top_h
+        o["map_p"][a:b] = np.take_along_axis(out, top_h[:, None], axis=1)[:, 0]
+        if count_eliminated:  # else no row can eliminate anything: the zeros stand
+            o["elim"][a:b] = np.count_nonzero(np.isneginf(lw) & model.positive_prior, axis=1)
         o["log_ev"][a:b] = (top - model.log_prior_total) + np.log(total)
 
     starts = range(0, n, chunk)
-    if threads > 1 and len(starts) > 1 and n * h >= _THREAD_MIN_CELLS:
+    if threads > 1 and len(starts) > 1:
         # numpy releases the GIL in these loops; results are in order, so the first
         # bad row reported is the same as in a single thread
-        with ThreadPoolExecutor(max_workers=threads) as pool:
+        with ThreadPoolExecutor(max_workers=min(threads, len(starts))) as pool:
             for f in [pool.submit(run, a) for a in starts]:
                 f.result()
     else:
@@ -467,6 +728,10 @@ def _score_frame(model: _Model, frame: pd.DataFrame, columns: tuple[tuple[int, A
     result = pd.DataFrame(o.pop("post"), index=frame.index, columns=list(names[:h]),
                           copy=False)
     result["map"] = pd.Categorical.from_codes(o.pop("map"), categories=list(model.hypotheses))
+    map_p = o.pop("map_p")
+    result["map_probability"] = map_p
+    result["weak_map"] = map_p < weak_below
+    del map_p
     result["n_observed"] = o.pop("n_obs")
     result["eliminated"] = o.pop("elim")
     stop = o.pop("stop")
@@ -479,6 +744,14 @@ def _score_frame(model: _Model, frame: pd.DataFrame, columns: tuple[tuple[int, A
     return result
 
 
+def _any_zero_likelihood(model: _Model, columns: tuple[tuple[int, Any], ...]) -> bool:
+    """Whether a likelihood of a scored item is exactly 0. Only then can a row eliminate
+    a hypothesis with a positive prior (or be impossible): without one, every log weight
+    of such a hypothesis stays finite."""
+    h = len(model.hypotheses)
+    return any(bool(np.isneginf(model.log_tables[k][:, :h]).any()) for k, _ in columns)
+
+
 def _code_dtype(n_categories: int) -> type:
     for dt in (np.int8, np.int16, np.int32):
         if n_categories < np.iinfo(dt).max:
@@ -487,9 +760,10 @@ def _code_dtype(n_categories: int) -> type:
 
 
 def _score_partition(frame: pd.DataFrame, model: _Model, *, columns, names, chunk_size,
-                     on_unknown, threads) -> pd.DataFrame:
+                     on_unknown, threads, weak_below) -> pd.DataFrame:
     """One Dask partition (``map_partitions`` passes the partition first)."""
-    return _score_frame(model, frame, columns, names, chunk_size, on_unknown, threads)
+    return _score_frame(model, frame, columns, names, chunk_size, on_unknown, threads,
+                        weak_below=weak_below)
 
 
 def _stop_early(model: _Model, series: list, codes: list[np.ndarray],
@@ -512,4 +786,4 @@ def _stop_early(model: _Model, series: list, codes: list[np.ndarray],
     return w, stop
 
 
-__all__ = ["score_rows", "compile_model", "RESULT_COLUMNS", "UNKNOWN_COLUMN"]
+__all__ = ["score_rows", "compile_model", "default_threads", "RESULT_COLUMNS", "UNKNOWN_COLUMN"]

@@ -1,6 +1,6 @@
 """Batch scoring speed and memory (issue 7).
 
-The model and the observations are random and invented for timing only: 10
+The model and the observation rows are random and invented for timing only: 10
 hypotheses, 30 three-state evidence items, each cell of the observation table
 one of the three states or missing (a quarter of the cells). Observation
 columns are categorical (pandas' dtype for labelled states); a figure for
@@ -16,8 +16,8 @@ table, in the same run:
   ratio against it is the honest floor of the speed-up.
 
 The memory figure runs in a child process (so its peak RSS is its own):
-10,000,000 cases scored in chunks by one ``score_rows`` call; the input and
-the result table themselves take about 1.4 GB of it.
+10,000,000 observation rows scored in chunks by one ``score_rows`` call; the
+input and the result table themselves take about 1.4 GB of it.
 """
 
 from __future__ import annotations
