@@ -311,3 +311,71 @@ def test_a_zero_prior_stays_zero(case, which):
     pri[name] = 0.0
     case.set_priors(pri, normalize=True)
     assert (case.update().steps[name] == 0.0).all()
+
+
+# --------------------------------------------------------------------------- the running sum
+
+
+def _drifting_case(n_h: int, n_items: int, seed: int) -> tuple[bl.Case, np.ndarray, np.ndarray]:
+    """Evidence whose strongest hypothesis changes every step by huge ratios (1e-40), so a
+    running log sum drifts far below its maximum (invented numbers; members built directly)."""
+    rng = np.random.default_rng(seed)
+    names = tuple(f"H{i}" for i in range(n_h))
+    logs = rng.uniform(-92.0, 0.0, size=(n_items, n_h))  # down to about 1e-40
+    prior = rng.dirichlet(np.ones(n_h))
+    items = []
+    for k in range(n_items):
+        seen = np.exp(logs[k])
+        table = np.vstack([seen, 1 - seen])
+        items.append(Evidence(f"E{k}", ("seen", "not seen"), names, table, observed="seen"))
+    hyps = [bl.Hypothesis(n, float(p)) for n, p in zip(names, prior, strict=True)]
+    return bl.Case.from_members("drift", hyps, evidence=items), np.log(prior), logs
+
+
+@pytest.mark.parametrize("n_h,n_items", [(6, 40), (400, 120)])  # the vectorised and the row path
+def test_every_step_matches_logsumexp_however_far_the_sum_drifts(n_h, n_items):
+    case, log_prior, logs = _drifting_case(n_h, n_items, seed=n_h)
+    ledger = case.update()
+    # reference: scipy.special.logsumexp on the plain cumulative sums (a general-purpose
+    # library's log-space normalisation, independent of the engine's shifting)
+    cum = np.vstack([log_prior, log_prior + np.cumsum(np.log(np.exp(logs)), axis=0)])
+    expected = np.exp(cum - logsumexp(cum, axis=1, keepdims=True))
+    np.testing.assert_allclose(ledger.probabilities, expected, rtol=1e-9, atol=1e-300)
+    np.testing.assert_allclose(ledger.log_steps, cum - logsumexp(cum, axis=1, keepdims=True),
+                               rtol=1e-9, atol=1e-9)
+    ev = np.exp(np.diff(logsumexp(cum, axis=1)))
+    np.testing.assert_allclose(ledger.evidence_probability.to_numpy(), ev, rtol=1e-9)
+
+
+def test_a_ledger_cannot_be_changed(demo_case):
+    ledger = demo_case.update()
+    with pytest.raises(AttributeError, match="immutable"):
+        ledger.flags = ()
+    with pytest.raises(ValueError, match="read-only"):
+        ledger.steps.iloc[0, 0] = 0.5
+    with pytest.raises(ValueError, match="read-only"):
+        ledger.probabilities[0, 0] = 0.5
+    assert ledger.flags == demo_case.update().flags  # filled once, at construction
+
+
+def test_update_all_gives_each_scenario_once(demo_case):
+    every = bl.update_all(demo_case)
+    assert list(every) == demo_case.scenario_names
+    for name, ledger in every.items():
+        alone = update(demo_case, scenario=name)
+        assert ledger.scenario == name
+        np.testing.assert_array_equal(ledger.probabilities, alone.probabilities)
+        assert ledger.flags == alone.flags and ledger.map_hypothesis == alone.map_hypothesis
+
+
+def test_stopped_update_says_so_where_people_look():
+    case = bl.Case("stop", hypotheses={"A": 0.6, "Other": 0.4})
+    case.add_evidence("reading", states=["x", "y"],
+                      likelihoods={"A": [1.0, 0.0], "Other": [1.0, 0.0]}, observed="y")
+    ledger = case.update()
+    assert ledger.stopped_at == "reading"
+    assert "STOPPED before 'reading'" in repr(ledger)
+    assert "update stopped" in ledger.posterior.name and "'reading'" in ledger.posterior.name
+    from beliefledger.display import ledger_text
+
+    assert "STOPPED" in ledger_text(ledger).splitlines()[0]

@@ -95,6 +95,10 @@ def ledger_text(ledger: Ledger, max_cols: int = 12) -> str:
     name_w = max([len(visible(s)) for s in ledger.step_names] + [4])
     col_w = [max(len(visible(c)), 8) for c in cols]
     lines = [f"Case: {visible(ledger.title)}   (scenario: {visible(ledger.scenario)})", ""]
+    if ledger.stopped_at is not None:
+        lines.insert(0, f"UPDATE STOPPED before '{visible(ledger.stopped_at)}': that evidence is "
+                        "impossible under every hypothesis; the posterior below is the one "
+                        "before it")
     lines.append("step".ljust(name_w) + "  " + "  ".join(visible(c).rjust(w)
                                                           for c, w in zip(cols, col_w, strict=True)))
     for step, row in ledger.steps.iterrows():

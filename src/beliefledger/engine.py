@@ -22,7 +22,7 @@ import numpy as np
 import pandas as pd
 
 from ._logmath import log_of
-from .flags import Flag, diagnose
+from .flags import diagnose
 
 if TYPE_CHECKING:
     from .case import Case
@@ -75,42 +75,46 @@ class Ledger:
         What a reviewer should look at (errors first).
     """
 
-    __slots__ = ("title", "scenario", "hypotheses", "prior_values", "probabilities",
-                 "step_names", "map_hypothesis", "ml_hypothesis", "stopped_at", "skipped",
-                 "members", "flags", "_cum", "_z", "_loglik", "_total", "_frozen", *_LAZY)
+    __slots__ = ("title", "scenario", "hypotheses", "prior_values", "step_names",
+                 "map_hypothesis", "stopped_at", "skipped", "members", "flags",
+                 "_cum", "_weights", "_sums", "_lognorm", "_z", "_rows", "_post",
+                 "_frozen", "_probs", *_LAZY)
 
     def __init__(self, *, title: str, scenario: str, hypotheses: list[str],
-                 prior_values: np.ndarray, probabilities: np.ndarray, cum: np.ndarray,
-                 z: np.ndarray, loglik: np.ndarray, step_names: list[str],
-                 members: dict[str, tuple[str, ...]], stopped_at: str | None,
-                 skipped: list[str], case: Case | None = None, with_flags: bool = True) -> None:
+                 prior_values: np.ndarray, cum: np.ndarray, weights: np.ndarray,
+                 sums: np.ndarray, lognorm: np.ndarray, z: np.ndarray, rows: list[np.ndarray],
+                 step_names: list[str], members: dict[str, tuple[str, ...]],
+                 stopped_at: str | None, skipped: list[str], case: Case | None = None,
+                 with_flags: bool = True) -> None:
         put = object.__setattr__
         put(self, "_frozen", False)
-        self.title = title
-        self.scenario = scenario
-        self.hypotheses = list(hypotheses)
-        self.prior_values = _readonly(prior_values)
-        self.probabilities = _readonly(probabilities)
-        self.step_names = list(step_names)
-        self.members = dict(members)
-        self.stopped_at = stopped_at
-        self.skipped = list(skipped)
-        self._cum = _readonly(cum)
-        self._z = z
-        self._loglik = _readonly(loglik)  # all observed steps, applied or not
-        total = loglik.sum(axis=0)
-        self._total = _readonly(total)
-        for name in _LAZY:
+        put(self, "title", title)
+        put(self, "scenario", scenario)
+        put(self, "hypotheses", list(hypotheses))
+        put(self, "prior_values", _readonly(prior_values))
+        put(self, "step_names", list(step_names))
+        put(self, "members", dict(members))
+        put(self, "stopped_at", stopped_at)
+        put(self, "skipped", list(skipped))
+        # applied rows: cum is a shifted running log sum, weights its exponential (each
+        # row scaled by 1 / sums), lognorm = ln(sums), z the true log normalizers
+        put(self, "_cum", _readonly(cum))
+        put(self, "_weights", _readonly(weights))
+        put(self, "_sums", sums)
+        put(self, "_lognorm", lognorm)
+        put(self, "_z", z)
+        put(self, "_rows", rows)  # ln P(observed | H) of every observed step, applied or not
+        for name in (*_LAZY, "_probs"):
             put(self, name, None)
         put(self, "_cache", {})
-        last = probabilities[-1]
-        self.map_hypothesis = self.hypotheses[int(np.argmax(last))] if last.any() else \
-            self.hypotheses[0]
-        self.ml_hypothesis = None
-        if len(loglik) and np.isfinite(np.max(total)):
-            self.ml_hypothesis = self.hypotheses[int(np.argmax(total))]
-        self.flags: tuple[Flag, ...] = tuple(diagnose(case, self)) if (
-            with_flags and case is not None) else ()
+        last = weights[-1] / sums[-1] if sums[-1] > 0 else np.zeros(len(hypotheses))
+        if len(step_names) == 1:
+            last = self._prior_row()
+        put(self, "_post", _readonly(last))
+        put(self, "map_hypothesis",
+            self.hypotheses[int(np.argmax(last))] if last.any() else self.hypotheses[0])
+        put(self, "flags", tuple(diagnose(case, self)) if (with_flags and case is not None)
+            else ())
         put(self, "_frozen", True)
 
     def __setattr__(self, name: str, value: Any) -> None:
@@ -126,7 +130,33 @@ class Ledger:
             object.__setattr__(self, name, value)
         return value
 
+    def _prior_row(self) -> np.ndarray:
+        p = self.prior_values
+        total = p.sum()
+        return p / total if total > 0 else np.zeros(len(p))
+
     # ------------------------------------------------------------------ views
+    @property
+    def probabilities(self) -> np.ndarray:
+        """Each step's probabilities (steps x hypotheses, rows sum to 1), read-only."""
+        def build() -> np.ndarray:
+            with np.errstate(invalid="ignore", divide="ignore"):
+                out = self._weights / self._sums[:, None]
+            out[0] = self._prior_row()  # the prior row exactly as entered
+            out[-1] = self._post
+            return _readonly(out)
+        return self._lazy("_probs", build)
+
+    @property
+    def posterior_values(self) -> np.ndarray:
+        """The posterior as a read-only array in hypothesis order."""
+        return self._post
+
+    @property
+    def step_weights_unnormalized(self) -> np.ndarray:
+        """Each step's probabilities up to a positive factor per row (read-only): what
+        ratios within a step need, without the division pass."""
+        return self._weights
     @property
     def applied(self) -> int:
         """How many evidence steps were applied."""
@@ -145,7 +175,7 @@ class Ledger:
             if self.stopped_at is not None:
                 name = (f"posterior before '{self.stopped_at}' (update stopped: that evidence "
                         "is impossible under every hypothesis)")
-            return pd.Series(self.probabilities[-1], index=self.hypotheses, name=name, copy=False)
+            return pd.Series(self._post, index=self.hypotheses, name=name, copy=False)
         return self._lazy("_posterior", build)
 
     @property
@@ -157,9 +187,8 @@ class Ledger:
     def log_steps(self) -> np.ndarray:
         """ln of each step's probabilities (``-inf`` for exact zeros), read-only."""
         def build() -> np.ndarray:
-            n = len(self.step_names)
             with np.errstate(invalid="ignore"):
-                out = self._cum[:n] - self._z[:n, None]
+                out = self._cum - self._lognorm[:, None]
             if not np.isfinite(self._z[0]):  # no usable prior: all -inf
                 out = np.full_like(out, -np.inf)
             return _readonly(out)
@@ -167,15 +196,18 @@ class Ledger:
 
     @property
     def log_likelihoods(self) -> pd.DataFrame:
-        n = self.applied
         return self._lazy("_ll_frame", lambda: pd.DataFrame(
-            self._loglik[:n], index=pd.Index(self.step_names[1:], name="step"),
+            self.log_likelihood_values, index=pd.Index(self.step_names[1:], name="step"),
             columns=pd.Index(self.hypotheses, name="hypothesis"), copy=False))
 
     @property
     def log_likelihood_values(self) -> np.ndarray:
         """ln P(observed | H) of the applied steps (steps x hypotheses), read-only."""
-        return self._loglik[: self.applied]
+        def build() -> np.ndarray:
+            n = self.applied
+            out = (np.stack(self._rows[:n]) if n else np.zeros((0, len(self.hypotheses))))
+            return _readonly(out)
+        return self.memo("log_likelihood_values", build)
 
     @property
     def evidence_probability(self) -> pd.Series:
@@ -189,13 +221,36 @@ class Ledger:
 
     @property
     def total_log_likelihood(self) -> pd.Series:
-        return self._lazy("_total_s", lambda: pd.Series(self._total, index=self.hypotheses,
-                                                        name="log_likelihood", copy=False))
+        return self._lazy("_total_s", lambda: pd.Series(
+            self.total_log_likelihood_values, index=self.hypotheses, name="log_likelihood",
+            copy=False))
 
     @property
     def total_log_likelihood_values(self) -> np.ndarray:
         """Summed ln P(observed | H) over every observed step (read-only)."""
-        return self._total
+        def build() -> np.ndarray:
+            rows = self._rows
+            if len(rows) * len(self.hypotheses) <= SMALL_CELLS:
+                total = np.add.reduce(np.array(rows), axis=0) if rows else \
+                    np.zeros(len(self.hypotheses))
+            else:
+                total = np.zeros(len(self.hypotheses))
+                for r in rows:  # row by row: no stacked copy of a large table
+                    np.add(total, r, out=total)
+            return _readonly(total)
+        return self._lazy("_total_ll", build)
+
+    @property
+    def ml_hypothesis(self) -> str | None:
+        """The maximum-likelihood hypothesis: the largest total likelihood of the observed
+        evidence, ignoring priors (the first listed on a tie; ``None`` when nothing is
+        observed or the evidence is impossible under every hypothesis)."""
+        def build() -> Any:
+            total = self.total_log_likelihood_values
+            if not self._rows or not np.isfinite(np.max(total)):
+                return ""
+            return self.hypotheses[int(np.argmax(total))]
+        return self.memo("ml_hypothesis", build) or None
 
     @property
     def evidence_steps(self) -> list[str]:
@@ -210,8 +265,7 @@ class Ledger:
     @property
     def eliminated(self) -> list[str]:
         """Hypotheses with a positive prior and a posterior of exactly zero."""
-        last = self.probabilities[-1]
-        idx = np.flatnonzero((self.prior_values > 0) & (last == 0))
+        idx = np.flatnonzero((self.prior_values > 0) & (self._post == 0))
         return [self.hypotheses[i] for i in idx]
 
     @property
@@ -242,7 +296,7 @@ class Ledger:
                  "probabilities": dict(zip(hyps, row, strict=True))}
                 for s, row in zip(self.step_names, self.probabilities.tolist(), strict=True)
             ],
-            "posterior": dict(zip(hyps, self.probabilities[-1].tolist(), strict=True)),
+            "posterior": dict(zip(hyps, self._post.tolist(), strict=True)),
             "map_hypothesis": self.map_hypothesis,
             "ml_hypothesis": self.ml_hypothesis,
             "evidence_probability": {k: float(v) for k, v in self.evidence_probability.items()},
@@ -251,7 +305,7 @@ class Ledger:
         }
 
     def __repr__(self) -> str:
-        p = float(self.probabilities[-1][self.hypotheses.index(self.map_hypothesis)])
+        p = float(self._post[self.hypotheses.index(self.map_hypothesis)])
         errors = sum(f.severity == "error" for f in self.flags)
         warnings = sum(f.severity == "warning" for f in self.flags)
         stop = (f"STOPPED before '{self.stopped_at}' (impossible under every hypothesis; the "
@@ -269,51 +323,102 @@ def _prior_values(case: Case, scenario: str) -> np.ndarray:
     return np.asarray(case.prior_array(scenario), dtype=float)
 
 
-def _run(case: Case, scenario: str, p: np.ndarray, names: list[str],
-         members: dict[str, tuple[str, ...]], loglik: np.ndarray, with_flags: bool) -> Ledger:
-    """One update from prior values ``p`` and the observed log-likelihood rows."""
+SMALL_CELLS = 1 << 15
+"""Below this many steps x hypotheses the running sum is one vectorised pass."""
+RECENTRE = 16
+"""Rows between two re-centrings of the running log sum."""
+DRIFTED = 1e-20
+"""A step whose largest weight is below this is recomputed from its own maximum."""
+
+
+def _run(case: Case, scenario: str, p: np.ndarray, steps: Any, with_flags: bool) -> Ledger:
+    """One update from prior values ``p`` and the observed steps (a ``LogSteps``).
+
+    Row 0 of the running sum is the shifted log prior; each step adds the
+    shifted log-likelihood row (its maximum is 0), so the running sum stays
+    near 0 and one exponential pass gives every step's weights. A step whose
+    weights underflow is redone with its own maximum; the first step under
+    which every hypothesis has probability 0 stops the update before it.
+    """
     n_h = len(p)
-    total = p.sum()
+    total_p = p.sum()
     # Priors off 1 (a part-way edit) are used as relative weights; the prior-sum flag
     # says so. A zero total cannot be used at all.
-    log_prior = log_of(p / total) if total > 0 else np.full(n_h, -np.inf)
+    log_prior = log_of(p / total_p) if total_p > 0 else np.full(n_h, -np.inf)
+    names = steps.names
     n = len(names)
     cum = np.empty((n + 1, n_h))
-    cum[0] = log_prior
-    if n:
-        np.cumsum(loglik, axis=0, out=cum[1:])
-        cum[1:] += log_prior
-    top = cum.max(axis=1)
+    m0 = float(np.max(log_prior)) if n_h else 0.0
+    m0 = m0 if np.isfinite(m0) else 0.0
+    np.subtract(log_prior, m0, out=cum[0])
+    shift = np.empty(n + 1)
+    shift[0] = m0
+    np.cumsum(steps.shifts, out=shift[1:])
+    shift[1:] += m0
+    if n and n * n_h <= SMALL_CELLS:
+        # small: whole-array passes cost less than a Python loop; every row is put back
+        # at maximum 0, so no step can underflow
+        np.cumsum(np.array(steps.shifted), axis=0, out=cum[1:])
+        cum[1:] += cum[0]
+        top = cum.max(axis=1)  # -inf for a row of -inf (impossible), without a warning
+        top[np.isneginf(top)] = 0.0
+        cum -= top[:, None]
+        shift += top
+    elif n:
+        # Each shifted row has maximum 0, but the hypothesis at that maximum changes from
+        # step to step, so the running sum drifts below 0; every RECENTRE rows it is put
+        # back at maximum 0 (the amount is kept in the row shifts).
+        adj = np.zeros(n + 1)
+        for i, r in enumerate(steps.shifted, 1):
+            row = cum[i]
+            np.add(cum[i - 1], r, out=row)
+            if i % RECENTRE == 0:
+                top = row.max()
+                if np.isfinite(top) and top != 0.0:
+                    row -= top
+                    adj[i] = top
+        shift += np.cumsum(adj)
+    weights = np.exp(cum)
+    # a row whose largest weight is far below 1 drifted between two re-centrings: its
+    # smallest entries may have underflowed, so it is redone from its own maximum
+    low = np.flatnonzero(weights.max(axis=1) < DRIFTED)
     stop = None
     n_ok = n + 1
-    if total > 0:
-        dead = np.flatnonzero(np.isneginf(top))
-        if dead.size:
-            n_ok = int(dead[0])
-            stop = names[n_ok - 1]
-        probs = np.subtract(cum[:n_ok], top[:n_ok, None])
-        np.exp(probs, out=probs)
-        sums = probs.sum(axis=1)
-        probs /= sums[:, None]
-        z = top[:n_ok] + np.log(sums)
-        probs[0] = p / total  # the prior row exactly as entered, not via exp(log)
-    else:
+    for i in low:  # underflow, or impossible evidence (every entry -inf)
+        top = float(np.max(cum[i]))
+        if not np.isfinite(top):
+            n_ok = int(i)
+            break
+        cum[i] -= top
+        shift[i] += top
+        np.exp(cum[i], out=weights[i])
+    sums = weights.sum(axis=1)
+    if total_p <= 0:
         n_ok = 1  # no usable prior: report the zero row, apply nothing
-        probs = np.zeros((1, n_h))
-        z = np.full(1, -np.inf)
-    skipped = names[n_ok - 1:] if stop else (list(names) if total <= 0 else [])
+    elif n_ok <= n:
+        if n_ok == 0:
+            n_ok = 1
+        else:
+            stop = names[n_ok - 1]
+    cum, weights, sums, shift = cum[:n_ok], weights[:n_ok], sums[:n_ok], shift[:n_ok]
+    if total_p <= 0:
+        lognorm = np.full(1, -np.inf)
+        z = lognorm
+    else:
+        lognorm = np.log(sums)  # every applied row has a positive sum
+        z = shift + lognorm
+    skipped = names[n_ok - 1:] if stop else (list(names) if total_p <= 0 else [])
     return Ledger(title=case.title, scenario=scenario, hypotheses=case.hypothesis_names,
-                  prior_values=np.array(p, dtype=float), probabilities=probs, cum=cum, z=z,
-                  loglik=loglik, step_names=[PRIOR_STEP, *names[: n_ok - 1]], members=members,
+                  prior_values=np.array(p, dtype=float), cum=cum, weights=weights, sums=sums,
+                  lognorm=lognorm, z=z, rows=steps.rows,
+                  step_names=[PRIOR_STEP, *names[: n_ok - 1]], members=steps.members,
                   stopped_at=stop, skipped=skipped, case=case, with_flags=with_flags)
 
 
 def update(case: Case, *, scenario: str | None = None, with_flags: bool = True) -> Ledger:
     """Run the sequential update of ``case`` under its active (or the named) scenario."""
     sc = case.active_scenario if scenario is None else scenario
-    p = _prior_values(case, sc)
-    names, members, loglik = case.observed_log_steps()
-    return _run(case, sc, p, names, members, loglik, with_flags)
+    return _run(case, sc, _prior_values(case, sc), case.observed_log_steps(), with_flags)
 
 
 def update_all(case: Case, *, with_flags: bool = True) -> dict[str, Ledger]:
@@ -323,8 +428,8 @@ def update_all(case: Case, *, with_flags: bool = True) -> dict[str, Ledger]:
     scenarios. The workbench, the sealer, ``verify``, ``diff`` and the
     sensitivity code read these instead of re-running the update.
     """
-    names, members, loglik = case.observed_log_steps()
-    return {sc: _run(case, sc, _prior_values(case, sc), names, members, loglik, with_flags)
+    steps = case.observed_log_steps()
+    return {sc: _run(case, sc, _prior_values(case, sc), steps, with_flags)
             for sc in case.scenario_names}
 
 

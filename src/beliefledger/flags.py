@@ -66,24 +66,28 @@ def map_step_decibans(ledger: Ledger) -> np.ndarray:
 
     The rest is the mixture of the other hypotheses at each step, so the
     weights add up to the change from prior to posterior log-odds. Computed
-    once per ledger from its probabilities (an exact masked sum of the
-    others, in log space only where that sum underflows).
+    once per ledger from its step weights (whose largest entry per step is 1);
+    a step where the rest is too small for that to be exact is redone in log
+    space.
     """
     def build() -> np.ndarray:
-        probs = ledger.probabilities
-        if len(probs) < 2 or probs.shape[1] < 2:  # no step, or no rest to weigh against
-            return np.zeros(max(len(probs) - 1, 0))
+        w = ledger.step_weights_unnormalized  # ratios within a step are all we need
+        if len(w) < 2 or w.shape[1] < 2:  # no step, or no rest to weigh against
+            return np.zeros(max(len(w) - 1, 0))
         j = ledger.hypotheses.index(ledger.map_hypothesis)
-        mask = np.ones(probs.shape[1], dtype=bool)
-        mask[j] = False
+        wj = w[:, j]
+        rest = w.sum(axis=1) - wj
+        exact = rest > 1e-8 * (rest + wj)  # else the subtraction lost the rest's digits
         with np.errstate(divide="ignore", invalid="ignore"):
-            rest = np.sum(probs, axis=1, where=mask)
-            lo = np.log(probs[:, j]) - np.log(rest)
-            low = (rest == 0) | (probs[:, j] == 0)
-            if low.any():  # underflow: redo those steps exactly in log space
-                ls = ledger.log_steps
-                rows = np.flatnonzero(low)
+            lo = np.log(wj) - np.log(rest)
+        if not exact.all():
+            ls = ledger.log_steps
+            mask = np.ones(w.shape[1], dtype=bool)
+            mask[j] = False
+            rows = np.flatnonzero(~exact)
+            with np.errstate(invalid="ignore"):
                 lo[rows] = ls[rows, j] - log_normalizer(ls[rows][:, mask], axis=1)
+        with np.errstate(invalid="ignore"):
             return np.diff(lo) * DECIBANS_PER_NAT
     return ledger.memo("map_step_decibans", build)
 
@@ -119,19 +123,24 @@ def _check_near_certain(case: Case, ledger: Ledger) -> Iterator[Flag]:
     pv = ledger.prior_values
     total = float(pv.sum()) or 1.0
     p = pv / total
-    for j in np.flatnonzero(((p > 0) & (p < NEAR_CERTAIN)) | ((p < 1) & (p > 1 - NEAR_CERTAIN))):
-        h, x = ledger.hypotheses[j], float(p[j])
-        yield Flag("near-certain", "warning",
-                   f"The prior of '{h}' is {x:.3g}, within {NEAR_CERTAIN:g} of "
-                   f"{'0' if x < 0.5 else '1'}: evidence will barely move it. Check that such "
-                   "certainty is justified.", f"hypothesis '{h}'")
-    post = ledger.probabilities[-1]
-    top = [ledger.hypotheses[j] for j in np.flatnonzero((post > 1 - NEAR_CERTAIN) & (post < 1))]
-    if top and ledger.applied:
-        yield Flag("near-certain", "info",
-                   f"The posterior of {_names(top)} is within {NEAR_CERTAIN:g} of 1. Such "
-                   "certainty rests on the hypothesis set being complete and the evidence "
-                   "items being independent; check both.", f"hypothesis '{top[0]}'")
+    positive = p[p > 0]
+    if positive.size and (positive.min() < NEAR_CERTAIN or p.max() > 1 - NEAR_CERTAIN):
+        for j in np.flatnonzero(((p > 0) & (p < NEAR_CERTAIN))
+                                | ((p < 1) & (p > 1 - NEAR_CERTAIN))):
+            h, x = ledger.hypotheses[j], float(p[j])
+            yield Flag("near-certain", "warning",
+                       f"The prior of '{h}' is {x:.3g}, within {NEAR_CERTAIN:g} of "
+                       f"{'0' if x < 0.5 else '1'}: evidence will barely move it. Check that "
+                       "such certainty is justified.", f"hypothesis '{h}'")
+    post = ledger.posterior_values
+    if ledger.applied and post.max() > 1 - NEAR_CERTAIN:
+        top = [ledger.hypotheses[j]
+               for j in np.flatnonzero((post > 1 - NEAR_CERTAIN) & (post < 1))]
+        if top:
+            yield Flag("near-certain", "info",
+                       f"The posterior of {_names(top)} is within {NEAR_CERTAIN:g} of 1. Such "
+                       "certainty rests on the hypothesis set being complete and the evidence "
+                       "items being independent; check both.", f"hypothesis '{top[0]}'")
 
 
 def _check_column_sums(case: Case, ledger: Ledger) -> Iterator[Flag]:
@@ -150,7 +159,7 @@ def _check_impossible(case: Case, ledger: Ledger) -> Iterator[Flag]:
     if ledger.stopped_at is None:
         return
     step = ledger.stopped_at
-    last = ledger.probabilities[-1]
+    last = ledger.posterior_values
     live = [ledger.hypotheses[j] for j in np.flatnonzero(last > 0)]
     evidence = case.evidence
     states = [f"'{evidence[m].observed}'" for m in ledger.members.get(step, (step,))
@@ -167,7 +176,7 @@ def _check_impossible(case: Case, ledger: Ledger) -> Iterator[Flag]:
 
 
 def _check_eliminated(case: Case, ledger: Ledger) -> Iterator[Flag]:
-    last = ledger.probabilities[-1]
+    last = ledger.posterior_values
     gone = np.flatnonzero((ledger.prior_values > 0) & (last == 0))
     if not gone.size:
         return
@@ -301,15 +310,16 @@ def _check_no_evidence(case: Case, ledger: Ledger) -> Iterator[Flag]:
 
 
 def _check_map_vs_ml(case: Case, ledger: Ledger) -> Iterator[Flag]:
-    post = ledger.probabilities[-1]
+    post = ledger.posterior_values
     if len(post) > 1:
-        order = np.argsort(-post, kind="stable")
-        if post[order[0]] > 0 and abs(post[order[0]] - post[order[1]]) <= 1e-12:
-            a, b = ledger.hypotheses[order[0]], ledger.hypotheses[order[1]]
+        i0 = int(np.argmax(post))
+        best = post[i0]
+        near = np.flatnonzero(post >= best - 1e-12)
+        if best > 0 and len(near) > 1:
+            a, b = ledger.hypotheses[near[0]], ledger.hypotheses[near[1]]
             yield Flag("map-tie", "info",
-                       f"'{a}' and '{b}' are tied for the highest posterior "
-                       f"({post[order[0]]:.4g}); the MAP shown is the first listed.",
-                       f"hypothesis '{a}'")
+                       f"'{a}' and '{b}' are tied for the highest posterior ({best:.4g}); the "
+                       "MAP shown is the first listed.", f"hypothesis '{a}'")
     ml, mp = ledger.ml_hypothesis, ledger.map_hypothesis
     if ml and ml != mp and not ledger.stopped_at:
         yield Flag("map-differs-from-ml", "info",

@@ -67,8 +67,7 @@ def _priors(case: Case, scenario: str) -> np.ndarray:
 
 def _loglik(case: Case) -> tuple[list[str], np.ndarray]:
     """Observed step names and ln P(observed | H) per step (steps x hypotheses)."""
-    names, _, rows = case.observed_log_steps()
-    return names, rows
+    return case.observed_log_likelihoods()
 
 
 def _check_defined(log_prior: np.ndarray, total: np.ndarray, what: str) -> None:

@@ -18,7 +18,7 @@ exact).
 from __future__ import annotations
 
 from collections.abc import Mapping
-from typing import Any
+from typing import Any, NamedTuple
 
 import numpy as np
 
@@ -173,26 +173,66 @@ def observed_steps(evidence: Mapping[str, Evidence], groups: Mapping[str, JointG
     return steps
 
 
-def observed_log_steps(evidence: Mapping[str, Evidence], groups: Mapping[str, JointGroup],
-                       n_h: int) -> tuple[list[str], dict[str, tuple[str, ...]], np.ndarray]:
-    """The update steps as (names, step -> members, ln P(observed | H) as steps x H).
+class LogSteps(NamedTuple):
+    """The observed steps in log space, as the engine reads them.
 
-    Independent items read their row of the log table each item keeps (so an
+    ``rows[k]`` is ln P(observed | H) of step ``k`` (read-only, often a view of
+    the item's kept log table); ``shifted[k]`` is the same row minus its
+    largest finite entry ``shifts[k]`` (so its maximum is 0), which lets the
+    engine exponentiate a running sum without subtracting a maximum per row.
+    """
+
+    names: list[str]
+    members: dict[str, tuple[str, ...]]
+    rows: list[np.ndarray]
+    shifted: list[np.ndarray]
+    shifts: np.ndarray
+
+    def stacked(self, n: int | None = None) -> np.ndarray:
+        """The first ``n`` rows (default all) as one steps x hypotheses array."""
+        rows = self.rows if n is None else self.rows[:n]
+        if not rows:
+            return np.zeros((0, len(self.shifted[0]) if self.shifted else 0))
+        return np.array(rows)
+
+
+def shift_row(row: np.ndarray) -> tuple[np.ndarray, float]:
+    """``row - max(row)`` and the max (0 and the row itself when every entry is -inf)."""
+    m = float(np.max(row)) if row.size else 0.0
+    if not np.isfinite(m):
+        return row, 0.0
+    return row - m, m
+
+
+def observed_log_steps(evidence: Mapping[str, Evidence], groups: Mapping[str, JointGroup],
+                       n_h: int) -> LogSteps:
+    """The update steps in log space (see :class:`LogSteps`).
+
+    Independent items read their row of the log tables each item keeps (so an
     update takes no logarithm of an unchanged table); grouped and chained
     steps take the log of their vector.
     """
     if not has_dependence(evidence, groups):
         obs = [e for e in evidence.values() if e.observed is not None]
         names = [e.name for e in obs]
-        rows = np.empty((len(obs), n_h))
+        rows, shifted, shifts = [], [], np.empty(len(obs))
         for i, e in enumerate(obs):
-            rows[i] = e.log_table[e.observed_index]
-        return names, {n: (n,) for n in names}, rows
+            row, sh, m = e.observed_log_row
+            rows.append(row)
+            shifted.append(sh)
+            shifts[i] = m
+        return LogSteps(names, {n: (n,) for n in names}, rows, shifted, shifts)
     steps = observed_steps(evidence, groups, n_h)
-    rows = np.empty((len(steps), n_h))
+    rows, shifted, shifts = [], [], np.empty(len(steps))
     for i, (_, _, vec) in enumerate(steps):
-        rows[i] = log_of(vec)
-    return [s[0] for s in steps], {s[0]: tuple(s[1]) for s in steps}, rows
+        lg = log_of(vec)
+        lg.setflags(write=False)
+        rows.append(lg)
+        sh, m = shift_row(lg)
+        shifted.append(sh)
+        shifts[i] = m
+    return LogSteps([s[0] for s in steps], {s[0]: tuple(s[1]) for s in steps}, rows, shifted,
+                    shifts)
 
 
 def predictive_table(evidence: Mapping[str, Evidence], groups: Mapping[str, JointGroup],
@@ -356,7 +396,7 @@ def check_group_numbers(g: JointGroup, evidence: Mapping[str, Evidence]) -> None
                 "tables (fix the joint table or the item's likelihoods)")
 
 
-__all__ = ["observed_steps", "observed_log_steps", "predictive_table", "group_of",
+__all__ = ["observed_steps", "observed_log_steps", "LogSteps", "shift_row", "predictive_table", "group_of",
            "chain_roots", "ancestors", "dependence_links", "chain_probability", "group_vector",
            "refreshed_conditionals", "validate_dependence", "check_group_numbers",
            "has_dependence", "safe_ratio", "GROUP_MARGIN_TOL"]

@@ -137,7 +137,7 @@ class Evidence:
     __slots__ = (
         "name", "states", "hypotheses", "_table", "observed", "description",
         "source", "shared_source", "likelihood_evidence", "entry_sources", "given",
-        "parent_states", "_conditional", "_log", "observed_index", "_sums", "_bad",
+        "parent_states", "_conditional", "_log", "observed_index", "_sums", "_bad", "_shifted", "_obs_log",
     )
 
     def __init__(
@@ -180,6 +180,8 @@ class Evidence:
         self._log: np.ndarray | None = None
         self._sums: np.ndarray | None = None
         self._bad: tuple[int, ...] | None = None
+        self._shifted: tuple[np.ndarray, np.ndarray] | None = None
+        self._obs_log: tuple[np.ndarray, np.ndarray, float] | None = None
         #: position of the observed state among the states (None while pending)
         self.observed_index = None if observed is None else self.state_index(observed)
 
@@ -207,6 +209,33 @@ class Evidence:
             lg.setflags(write=False)
             self._log = lg
         return self._log
+
+    @property
+    def shifted_log_table(self) -> tuple[np.ndarray, np.ndarray]:
+        """``(log table minus each row's largest finite entry, those maxima)``, computed
+        once: the engine's running sum of shifted rows never needs a maximum per step."""
+        if self._shifted is None:
+            lg = self.log_table
+            with np.errstate(invalid="ignore"):
+                m = np.max(lg, axis=1) if lg.shape[1] else np.zeros(lg.shape[0])
+            m = np.where(np.isfinite(m), m, 0.0)
+            sh = lg - m[:, None]
+            sh.setflags(write=False)
+            m.setflags(write=False)
+            self._shifted = (sh, m)
+        return self._shifted
+
+    @property
+    def observed_log_row(self) -> tuple[np.ndarray, np.ndarray, float]:
+        """ln P(observed state | H), the same row shifted to maximum 0, and the shift
+        (read-only; kept once computed). Only for an observed item."""
+        if self._obs_log is None:
+            if self.observed_index is None:
+                raise CaseError(f"evidence '{self.name}' is pending; it has no observed row")
+            sh, m = self.shifted_log_table
+            k = self.observed_index
+            self._obs_log = (self.log_table[k], sh[k], float(m[k]))
+        return self._obs_log
 
     @property
     def column_totals(self) -> np.ndarray:
@@ -279,7 +308,7 @@ class Evidence:
     def replace(self, **changes: Any) -> Evidence:
         """A copy with ``changes`` (field name -> new value); the original is untouched."""
         kw = {k: getattr(self, k) for k in self.__slots__
-              if k not in ("_table", "_conditional", "_log", "observed_index", "_sums", "_bad")}
+              if k not in ("_table", "_conditional", "_log", "observed_index", "_sums", "_bad", "_shifted", "_obs_log")}
         kw["table"] = changes.pop("table", self._table)
         kw["conditional"] = changes.pop("conditional", self._conditional)
         kw.update(changes)

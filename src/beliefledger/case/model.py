@@ -250,10 +250,15 @@ class Case:
         """
         return dep.observed_steps(self._evidence, self._groups, len(self._hyps))
 
-    def observed_log_steps(self) -> tuple[list[str], dict[str, tuple[str, ...]], np.ndarray]:
-        """The update steps as (step names, step -> member items, ln P(observed | H) as a
-        steps x hypotheses array); what the engine reads."""
+    def observed_log_steps(self) -> dep.LogSteps:
+        """The update steps in log space (names, members, ln P(observed | H) rows and
+        their shifted forms); what the engine reads."""
         return dep.observed_log_steps(self._evidence, self._groups, len(self._hyps))
+
+    def observed_log_likelihoods(self) -> tuple[list[str], np.ndarray]:
+        """Step names and ln P(observed | H) per step as a steps x hypotheses array."""
+        steps = self.observed_log_steps()
+        return steps.names, steps.stacked()
 
     def predictive_table(self, name: str) -> np.ndarray:
         """P(state | hypothesis, the other observed evidence) for one item, as an array
