@@ -106,7 +106,7 @@ def test_killed_case_saves_leave_the_last_good_file(tmp_path):
 @pytest.mark.slow
 def test_killed_record_writes_leave_a_verifiable_record(tmp_path):
     from beliefledger.record import verify
-    from beliefledger.record.sealer import write_text
+    from beliefledger.record.nbio import write_text
 
     rec = records.conveyor_record()
     text_a = records.dumps(rec)
@@ -130,7 +130,7 @@ def test_killed_record_writes_leave_a_verifiable_record(tmp_path):
 
 
 def test_normal_saves_leave_no_temporary_file(tmp_path, small_case):
-    from beliefledger.record.sealer import write_text
+    from beliefledger.record.nbio import write_text
 
     for i in range(5):
         small_case.save(tmp_path / "c.json")

@@ -99,7 +99,8 @@ def test_loaders_refuse_pickles_and_keep_code_as_text(tmp_path):
     p.write_bytes(blob)
     with pytest.raises(CaseFileError):
         bl.load_case(p)
-    from beliefledger.record import RecordError, verify
+    from beliefledger.errors import RecordError
+    from beliefledger.record import verify
 
     nb = tmp_path / "r.ipynb"
     nb.write_bytes(blob)

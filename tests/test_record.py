@@ -19,7 +19,7 @@ import beliefledger as bl
 from beliefledger.case import CASE_MIMETYPE
 from beliefledger.record import canonical
 from beliefledger.record.html import clean_html, inline_svg, render_html
-from beliefledger.record.nbio import RecordError
+from beliefledger.errors import RecordError
 from beliefledger.record.sealer import build_record, case_digest, dumps_notebook
 from beliefledger.record.verifier import RESULT_TOL, verify, verify_notebook
 

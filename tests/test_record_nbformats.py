@@ -16,7 +16,8 @@ from pathlib import Path
 import nbformat
 import pytest
 
-from beliefledger.record.nbio import RecordError, load_notebook
+from beliefledger.errors import RecordError
+from beliefledger.record.nbio import load_notebook
 from beliefledger.record.sealer import prepare, seal
 from beliefledger.record.verifier import verify
 

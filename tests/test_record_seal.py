@@ -7,7 +7,7 @@ import re
 
 import pytest
 
-from beliefledger.record.nbio import RecordError
+from beliefledger.errors import RecordError
 from beliefledger.record.sealer import seal
 from beliefledger.record.verifier import verify
 

@@ -22,7 +22,8 @@ import pytest
 
 from beliefledger import cli
 from beliefledger.case import CASE_MIMETYPE
-from beliefledger.record import RecordError, verify
+from beliefledger.errors import RecordError
+from beliefledger.record import verify
 from beliefledger.record.canonical import META_KEY, cell_digest, cell_role, hashed_cells
 from helpers import records, report
 

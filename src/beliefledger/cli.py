@@ -17,7 +17,7 @@ import json
 import sys
 from collections.abc import Sequence
 
-from . import __version__
+from ._version import __version__
 
 EXIT_OK, EXIT_FAILED, EXIT_BAD_INPUT = 0, 1, 2
 

@@ -18,6 +18,7 @@ Harvard (Bayes actions, expected loss).
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
@@ -96,14 +97,19 @@ def loss_table(case: Case, loss: Any = None, *, kind: str = "loss") -> pd.DataFr
 # --------------------------------------------------------------------------- decisions
 
 
+def _checked(post: np.ndarray, scenario: str) -> np.ndarray:
+    if not np.all(np.isfinite(post)) or post.sum() <= 0:
+        raise CaseError(f"the posterior under scenario '{scenario}' is undefined (all priors "
+                        "zero); fix the priors before deciding")
+    return post
+
+
 def posterior_array(case: Case, scenario: str | None) -> np.ndarray:
+    """The posterior under ``scenario`` (default: the active one) as an array."""
     from .engine import update
 
-    post = update(case, scenario=scenario, with_flags=False).posterior.to_numpy(float)
-    if not np.all(np.isfinite(post)) or post.sum() <= 0:
-        raise CaseError(f"the posterior under scenario '{scenario or case.active_scenario}' is "
-                        "undefined (all priors zero); fix the priors before deciding")
-    return post
+    sc = case.active_scenario if scenario is None else scenario
+    return _checked(update(case, scenario=sc, with_flags=False).posterior_values, sc)
 
 
 def expected_loss(case: Case, loss: Any = None, *, kind: str = "loss",
@@ -125,7 +131,8 @@ def bayes_action(case: Case, loss: Any = None, *, kind: str = "loss",
     return str(el.index[int(np.argmin(el.to_numpy()))])
 
 
-def decision_summary(case: Case, loss: Any = None, *, kind: str = "loss") -> pd.DataFrame:
+def decision_summary(case: Case, loss: Any = None, *, kind: str = "loss",
+                     ledgers: Mapping[str, Any] | None = None) -> pd.DataFrame:
     """Expected loss (or payoff) of every action under the posterior of every scenario.
 
     One row per prior scenario ('base' first), the posterior computed from
@@ -133,13 +140,18 @@ def decision_summary(case: Case, loss: Any = None, *, kind: str = "loss") -> pd.
     in the table's own terms, then ``bayes_action`` (the best action under
     that scenario), ``measure`` ("expected loss" or "expected payoff") and
     ``active`` (the case's active scenario). JSON-ready via
-    ``.to_dict(orient="index")``.
+    ``.to_dict(orient="index")``. ``ledgers`` (scenario -> ledger, from
+    ``engine.update_all``) saves recomputing them.
     """
+    from .engine import update_all
+
     arr, actions, kind = resolve_losses(case, loss, kind)
+    if ledgers is None or not set(case.scenario_names) <= set(ledgers):
+        ledgers = update_all(case, with_flags=False)
     sign = -1.0 if kind == "payoff" else 1.0
     rows = []
     for sc in case.scenario_names:
-        el = arr @ posterior_array(case, sc)
+        el = arr @ _checked(ledgers[sc].posterior_values, sc)
         row: dict[str, Any] = {a: float(sign * v) + 0.0 for a, v in zip(actions, el, strict=True)}
         row["bayes_action"] = actions[int(np.argmin(el))]
         row["measure"] = f"expected {kind}"

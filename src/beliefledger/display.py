@@ -120,4 +120,37 @@ def ledger_text(ledger: Ledger, max_cols: int = 12) -> str:
     return "\n".join(lines)
 
 
-__all__ = ["esc", "visible", "case_html", "ledger_html", "ledger_text", "flags_html"]
+def robustness_html(result) -> str:
+    """A robustness result (:func:`beliefledger.robustness`) as a table with its verdict."""
+    frame = result.to_frame()
+    hyps = [c for c in frame.columns if c != "map"]
+    rows = [[s, *[fmt_probability(row[h]) for h in hyps], row["map"]]
+            for s, row in frame.iterrows()]
+    return (f'<div class="bl-robustness"><p>{esc(result.verdict)}</p>'
+            + _table(["scenario", *hyps, "MAP"], rows) + "</div>")
+
+
+def simulation_html(result) -> str:
+    """A Monte Carlo result (:func:`beliefledger.simulate`) as a table with its summary."""
+    frame = result.to_frame()
+    rows = [[h, *[fmt_probability(v) for v in row]] for h, row in frame.iterrows()]
+    return (f'<div class="bl-simulation"><p>{esc(result.summary)} (seed {result.seed}, '
+            f"{result.draws:,} draws, {result.level:.0%} intervals)</p>"
+            + _table(["hypothesis", *frame.columns], rows) + "</div>")
+
+
+def fmt_probability(p: float) -> str:
+    """A probability for people: four significant figures, exact 0 and 1 as such, tiny
+    values in exponent form, never float noise (0.09200000000000001 reads 0.092)."""
+    x = float(p)
+    if x != x:  # NaN
+        return "n/a"
+    if x in (0.0, 1.0):
+        return f"{x:g}"
+    if x < 1e-4 or x > 1 - 1e-4:
+        return f"{x:.3e}"
+    return f"{x:.4g}"
+
+
+__all__ = ["robustness_html", "simulation_html", "fmt_probability", "esc", "visible", "case_html",
+           "ledger_html", "ledger_text", "flags_html"]

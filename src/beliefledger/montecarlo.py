@@ -427,15 +427,9 @@ class SimulationResult:
                 f"{len(self.inputs)} uncertain inputs; {self.summary})")
 
     def _repr_html_(self) -> str:
-        from .display import esc
+        from .display import simulation_html
 
-        frame = self.to_frame()
-        head = "".join(f"<th>{esc(c)}</th>" for c in ["hypothesis", *frame.columns])
-        body = "".join("<tr><td>" + esc(h) + "</td>" + "".join(f"<td>{v:.4g}</td>" for v in row)
-                       + "</tr>" for h, row in frame.iterrows())
-        return (f'<div class="bl-simulation"><p>{esc(self.summary)} (seed {self.seed}, '
-                f'{self.level:.0%} intervals)</p><table class="bl-table"><thead><tr>{head}'
-                f"</tr></thead><tbody>{body}</tbody></table></div>")
+        return simulation_html(self)
 
 
 def _seed(seed: Any) -> int:

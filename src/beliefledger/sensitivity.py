@@ -173,18 +173,13 @@ class Robustness:
         return f"Robustness({self.title!r}: {len(self._frame)} scenarios; {self.verdict})"
 
     def _repr_html_(self) -> str:
-        from .display import esc
+        from .display import robustness_html
 
-        hyps = [c for c in self._frame.columns if c != "map"]
-        head = "".join(f"<th>{esc(c)}</th>" for c in ["scenario", *hyps, "MAP"])
-        body = "".join(
-            "<tr><td>" + esc(s) + "</td>" + "".join(f"<td>{row[h]:.4g}</td>" for h in hyps)
-            + f"<td>{esc(row['map'])}</td></tr>" for s, row in self._frame.iterrows())
-        return (f'<div class="bl-robustness"><p>{esc(self.verdict)}</p><table class="bl-table">'
-                f"<thead><tr>{head}</tr></thead><tbody>{body}</tbody></table></div>")
+        return robustness_html(self)
 
 
-def robustness(case: Case, scenarios: Iterable[str] | None = None) -> Robustness:
+def robustness(case: Case, scenarios: Iterable[str] | None = None, *,
+               ledgers: Mapping[str, Any] | None = None) -> Robustness:
     """Posterior of every hypothesis and the MAP under each prior scenario.
 
     Parameters
@@ -193,6 +188,9 @@ def robustness(case: Case, scenarios: Iterable[str] | None = None) -> Robustness
         Scenario names to compare (default: all, 'base' first). The active
         scenario is the reference the verdict compares against (or the
         first one listed when the active one is not among them).
+    ledgers : mapping, optional
+        Scenario -> ledger already computed (``engine.update_all(case)``), so a
+        caller that has them (the workbench, the sealer) does not recompute.
 
     Returns
     -------
@@ -200,7 +198,7 @@ def robustness(case: Case, scenarios: Iterable[str] | None = None) -> Robustness
         ``.to_frame()``, ``.verdict`` (e.g. "the MAP is 'X' under all 3
         scenarios"), ``.stable``, ``.to_dict()``.
     """
-    from .engine import update
+    from .engine import update_all
 
     names = case.scenario_names if scenarios is None else [_scenario(case, s)
                                                            for s in scenarios]
@@ -208,11 +206,10 @@ def robustness(case: Case, scenarios: Iterable[str] | None = None) -> Robustness
         raise CaseError("no scenarios to compare; give at least one scenario name")
     if len(set(names)) != len(names):
         raise CaseError(f"scenarios {names} list one scenario twice")
-    rows, maps = [], []
-    for s in names:
-        tr = update(case, scenario=s, with_flags=False)
-        rows.append(tr.posterior.to_numpy())
-        maps.append(tr.map_hypothesis)
+    if ledgers is None or not set(names) <= set(ledgers):
+        ledgers = update_all(case, with_flags=False)
+    rows = [ledgers[s].posterior_values for s in names]
+    maps = [ledgers[s].map_hypothesis for s in names]
     frame = pd.DataFrame(rows, index=pd.Index(names, name="scenario"),
                          columns=case.hypothesis_names)
     frame["map"] = maps

@@ -101,6 +101,6 @@ def conveyor_record() -> dict[str, Any]:
 
 
 def dumps(record: dict[str, Any]) -> str:
-    from beliefledger.record.sealer import dumps_notebook
+    from beliefledger.record.nbio import dumps_notebook
 
     return dumps_notebook(record)

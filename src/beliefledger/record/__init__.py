@@ -14,10 +14,10 @@ _EXPORTS = {
     "verify": "verifier", "VerifyResult": "verifier", "Problem": "verifier", "RESULT_TOL": "verifier",
     "diff": "differ", "diff_cases": "differ", "CaseDiff": "differ", "load_cases": "differ",
     "register": "collect", "collect_cases": "collect",
-    "keygen": "signing", "sign": "signing", "make_signoff": "signing",
+    "keygen": "signing", "sign": "review", "make_signoff": "signing",
     "check_signoff": "signing",
     "render_html": "html",
-    "RecordError": "nbio", "read_record": "nbio",
+    "read_record": "nbio",
     "fingerprint": "canonical", "digest": "canonical",
     "load_record": "differ",
 }

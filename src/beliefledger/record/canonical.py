@@ -32,6 +32,8 @@ WIDGET_STATE_MIME = "application/vnd.jupyter.widget-state+json"
 # cell metadata that is part of the record; everything else (timings,
 # collapsed/scrolled flags, editor state) is volatile and stripped
 KEPT_CELL_METADATA = ("tags", META_KEY)
+ALGORITHM = "sha256"
+CANONICAL_JSON = "sort_keys, compact, UTF-8"
 FINGERPRINT_HEX = 20  # 80 bits, five groups of four
 _FP_RE = re.compile(r"^[0-9A-F]{4}(-[0-9A-F]{4})+$")
 
@@ -149,10 +151,15 @@ def root_digest(header: Mapping[str, Any], case_digests: list[str],
                    "cases": list(case_digests), "cells": list(cell_digests)})
 
 
+def case_digest(entry: dict[str, Any]) -> str:
+    return digest({"title": entry["title"], "envelope": entry["envelope"],
+                   "results": entry["results"]})
+
+
 def is_fingerprint(text: str) -> bool:
     return bool(_FP_RE.match(text))
 
 
-__all__ = ["canonical_bytes", "digest", "fingerprint", "normalize_fingerprint", "cell_content",
+__all__ = ["ALGORITHM", "CANONICAL_JSON", "case_digest", "canonical_bytes", "digest", "fingerprint", "normalize_fingerprint", "cell_content",
            "cell_digest", "normalize_output", "hashed_cells", "root_digest", "cell_role", "notebook_frame",
            "RECORD_FORMAT", "RECORD_VERSION", "META_KEY", "MANIFEST_ROLE", "RECORD_ROLE"]

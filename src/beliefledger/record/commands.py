@@ -51,7 +51,7 @@ def _cmd_verify(args: argparse.Namespace) -> int:
 
 def _cmd_diff(args: argparse.Namespace) -> int:
     from .differ import diff
-    from .sealer import write_text
+    from .nbio import write_text
 
     d = diff(args.old, args.new)
     text = {"text": d.text, "markdown": d.markdown, "html": d.html}[args.format]()
@@ -64,7 +64,8 @@ def _cmd_diff(args: argparse.Namespace) -> int:
 
 
 def _cmd_sign(args: argparse.Namespace) -> int:
-    from .signing import RecordNotIntact, sign
+    from ..errors import RecordNotIntact
+    from .review import sign
 
     try:
         entry = sign(args.record, args.reviewer, args.comment or "", key=args.key)

@@ -7,10 +7,12 @@ exits with code 2, "unusable input") naming the file and the fix.
 from __future__ import annotations
 
 import json
+import os
 from collections.abc import Mapping
 from pathlib import Path
 from typing import Any
 
+from ..casefile import atomic_write_text
 from ..errors import RecordError
 from .canonical import META_KEY, RECORD_FORMAT, RECORD_VERSION
 
@@ -217,5 +219,33 @@ def read_record(path: str | Path) -> tuple[dict[str, Any], dict[str, Any]]:
     return nb, record_meta(nb, label)
 
 
-__all__ = ["RecordError", "read_json_file", "read_notebook", "load_notebook", "read_record", "check_notebook",
+# --------------------------------------------------------------------------- writing
+
+
+def default_out(path: Path) -> Path:
+    stem = path.name[:-len(".ipynb")] if path.name.endswith(".ipynb") else path.name
+    if stem.endswith(".sealed"):
+        stem = stem[:-len(".sealed")]
+    return path.with_name(f"{stem}.sealed.ipynb")
+
+
+def html_path_for(out: Path) -> Path:
+    name = out.name[:-len(".ipynb")] if out.name.endswith(".ipynb") else out.name
+    return out.with_name(name + ".html")
+
+
+def dumps_notebook(nb: dict[str, Any]) -> str:
+    return json.dumps(nb, indent=1, ensure_ascii=False, allow_nan=False) + "\n"
+
+
+def write_text(path: Path, text: str) -> Path:
+    """Atomic write, then the usual permissions for a shared document (umask applied)."""
+    atomic_write_text(path, text)
+    mask = os.umask(0)
+    os.umask(mask)
+    os.chmod(path, 0o666 & ~mask)
+    return path
+
+
+__all__ = ["write_text", "dumps_notebook", "default_out", "html_path_for", "RecordError", "read_json_file", "read_notebook", "load_notebook", "read_record", "check_notebook",
            "record_meta", "MAX_NOTEBOOK_BYTES", "MAX_OUTPUT_BYTES"]

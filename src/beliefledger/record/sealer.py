@@ -13,7 +13,6 @@ from __future__ import annotations
 
 import copy
 import json
-import os
 import sys
 import threading
 import time
@@ -24,6 +23,8 @@ from pathlib import Path
 from typing import Any
 
 from .canonical import (
+    ALGORITHM,
+    CANONICAL_JSON,
     KEPT_CELL_METADATA,
     MANIFEST_ROLE,
     META_KEY,
@@ -33,19 +34,25 @@ from .canonical import (
     WIDGET_STATE_MIME,
     WIDGET_VIEW_MIME,
     canonical_bytes,
+    case_digest,
     cell_digest,
     cell_role,
-    digest,
     fingerprint,
     hashed_cells,
     notebook_frame,
     root_digest,
 )
-from .nbio import MAX_OUTPUT_BYTES, RecordError, load_notebook
+from .nbio import (
+    MAX_OUTPUT_BYTES,
+    RecordError,
+    default_out,
+    dumps_notebook,
+    html_path_for,
+    load_notebook,
+    write_text,
+)
 
 DEFAULT_CELL_TIMEOUT = 600
-ALGORITHM = "sha256"
-CANONICAL_JSON = "sort_keys, compact, UTF-8"
 KEPT_NOTEBOOK_METADATA = ("kernelspec", "language_info", "title", "authors")
 
 
@@ -63,18 +70,6 @@ class SealResult:
     def __repr__(self) -> str:
         return (f"SealResult({self.notebook.name!r}: {len(self.cases)} case(s), {self.cells} "
                 f"cells, fingerprint {self.fingerprint})")
-
-
-def default_out(path: Path) -> Path:
-    stem = path.name[:-len(".ipynb")] if path.name.endswith(".ipynb") else path.name
-    if stem.endswith(".sealed"):
-        stem = stem[:-len(".sealed")]
-    return path.with_name(f"{stem}.sealed.ipynb")
-
-
-def html_path_for(out: Path) -> Path:
-    name = out.name[:-len(".ipynb")] if out.name.endswith(".ipynb") else out.name
-    return out.with_name(name + ".html")
 
 
 def analyst_cells(nb: dict[str, Any]) -> list[dict[str, Any]]:
@@ -213,7 +208,7 @@ def execute(nb: dict[str, Any], *, cwd: Path, timeout: int = DEFAULT_CELL_TIMEOU
 def build_record(nb: dict[str, Any], *, notebook_name: str, sealed_at: str | None = None
                  ) -> dict[str, Any]:
     """Turn an executed notebook (plain JSON) into a sealed record (plain JSON)."""
-    from .. import __version__
+    from .._version import __version__
     from ..engine import update
     from .collect import collect_cases
     from .sections import environment, manifest_cell, record_cells
@@ -257,15 +252,6 @@ def build_record(nb: dict[str, Any], *, notebook_name: str, sealed_at: str | Non
                                 "header": header, "cases": case_entries, "manifest": manifest,
                                 "signoffs": []}
     return nb
-
-
-def case_digest(entry: dict[str, Any]) -> str:
-    return digest({"title": entry["title"], "envelope": entry["envelope"],
-                   "results": entry["results"]})
-
-
-def dumps_notebook(nb: dict[str, Any]) -> str:
-    return json.dumps(nb, indent=1, ensure_ascii=False, allow_nan=False) + "\n"
 
 
 def seal(notebook: str | Path, out: str | Path | None = None, *, force: bool = False,
@@ -336,20 +322,8 @@ def _warm_up() -> None:
         pass
 
 
-def write_text(path: Path, text: str) -> Path:
-    """Atomic write, then the usual permissions for a shared document (umask applied)."""
-    from ..casefile import atomic_write_text
-
-    atomic_write_text(path, text)
-    mask = os.umask(0)
-    os.umask(mask)
-    os.chmod(path, 0o666 & ~mask)
-    return path
-
-
 def _stderr(line: str) -> None:
     print(line, file=sys.stderr, flush=True)
 
 
-__all__ = ["seal", "SealResult", "build_record", "prepare", "strip_volatile", "execute",
-           "default_out", "html_path_for", "case_digest", "dumps_notebook"]
+__all__ = ["seal", "SealResult", "build_record", "prepare", "strip_volatile", "execute"]

@@ -28,7 +28,7 @@ from datetime import UTC, datetime
 from pathlib import Path
 from typing import Any
 
-from ..errors import RecordError, RecordNotIntact
+from ..errors import RecordError
 from .canonical import canonical_bytes, fingerprint
 
 SIGNED_FIELDS = ("reviewer", "comment", "signed_at", "root", "record_format")
@@ -82,7 +82,7 @@ def keygen(prefix: str | Path, *, force: bool = False) -> tuple[Path, Path, str]
     except BaseException:
         tmp.unlink(missing_ok=True)
         raise
-    from .sealer import write_text
+    from .nbio import write_text
 
     write_text(pub_path, pub.decode("ascii"))
     raw = key.public_key().public_bytes(serialization.Encoding.Raw, serialization.PublicFormat.Raw)
@@ -219,43 +219,5 @@ def check_signoff(index: int, entry: Any, root: str) -> SignoffStatus:
     return st("valid", "Ed25519 signature over the current root digest checks")
 
 
-
-
-def sign(path: str | Path, reviewer: str, comment: str = "", *, key: str | Path | None = None,
-         signed_at: str | None = None) -> dict[str, Any]:
-    """Add a reviewer's sign-off to a sealed record (in place, atomically).
-
-    Refuses a record that is not intact: a sign-off must cover exactly what
-    was sealed. Returns the new sign-off entry.
-    """
-    import copy
-
-    from .canonical import META_KEY
-    from .nbio import read_record
-    from .sealer import dumps_notebook, write_text
-    from .verifier import verify_notebook
-
-    nb, meta = read_record(path)
-    result = verify_notebook(nb, meta, path=str(path), reproduce_results=False)
-    if not result.intact:
-        raise RecordNotIntact(
-            f"record {Path(path).name!r} is not intact, so it cannot be signed:\n"
-            + "\n".join(f"  - {p}" for p in result.problems))
-    entry = make_signoff(result.root, reviewer, comment, key_path=key, signed_at=signed_at)
-    new = copy.deepcopy(nb)
-    new["metadata"][META_KEY].setdefault("signoffs", []).append(entry)
-    write_text(Path(path), dumps_notebook(new))
-    from .sealer import html_path_for
-
-    html_copy = html_path_for(Path(path))
-    if html_copy.exists():  # keep the reading copy's list of sign-offs current
-        from .html import render_html
-
-        write_text(html_copy, render_html(new))
-    return entry
-
-
-
-
-__all__ = ["sign", "RecordNotIntact", "keygen", "make_signoff", "check_signoff", "SignoffStatus", "key_id",
+__all__ = ["keygen", "make_signoff", "check_signoff", "SignoffStatus", "key_id",
            "load_public_key_raw", "load_private_key", "signed_bytes"]

@@ -301,8 +301,8 @@ def verify_notebook(nb: dict[str, Any], meta: dict[str, Any], *, path: str = "re
                     expect: str | None = None, public_keys: list[bytes] | None = None,
                     reproduce_results: bool = True) -> VerifyResult:
     """Verify an already-read record (see :func:`verify`)."""
+    from .canonical import ALGORITHM, CANONICAL_JSON, case_digest
     from .collect import collect_envelopes
-    from .sealer import ALGORITHM, CANONICAL_JSON, case_digest
     from .sections import manifest_cell
     from .signing import check_signoff, key_id
 
