@@ -17,9 +17,9 @@ import pytest
 
 import beliefledger as bl
 from beliefledger.case import CASE_MIMETYPE
+from beliefledger.errors import RecordError
 from beliefledger.record import canonical
 from beliefledger.record.html import clean_html, inline_svg, render_html
-from beliefledger.errors import RecordError
 from beliefledger.record.sealer import build_record, case_digest, dumps_notebook
 from beliefledger.record.verifier import RESULT_TOL, verify, verify_notebook
 

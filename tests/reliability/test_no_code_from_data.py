@@ -30,7 +30,7 @@ from helpers import records, report
 _report = report.reporting_fixture("no code from data")
 
 SRC = Path(bl.__file__).resolve().parent
-HERE = Path(__file__).resolve().parent
+HERE = Path(__file__).resolve().parent.parent  # tests/
 
 
 def _calls(tree: ast.AST):
