@@ -8,12 +8,13 @@ OUT    ?= demo_output
 PYTEST := $(BIN)/python -m pytest
 NBVAL_DIRS := templates_nb example_cases
 
-.PHONY: all demo test test-fast test-notebooks bench fuzz lint clean help
+.PHONY: all demo test test-fast test-notebooks notebooks bench fuzz lint clean help
 
 help:
 	@echo "make demo   - run the worked example end to end (sealed notebook + offline HTML in $(OUT)/)"
 	@echo "make test   - unit, property, notebook (nbval) and browser tests"
 	@echo "make bench  - benchmarks; results in tests/benchmarks/RESULTS.md"
+	@echo "make notebooks - re-run the shipped notebooks and store their outputs (for nbval)"
 	@echo "make fuzz   - the long generated-input, tamper and crash runs"
 	@echo "make lint   - ruff"
 
@@ -38,6 +39,9 @@ test-notebooks: $(STAMP)
 	  $(PYTEST) -q --nbval-lax --nbval-current-env --nbval-sanitize-with tests/nbval_sanitize.cfg \
 	    --nbval-cell-timeout=300 $$(ls $(NBVAL_DIRS:%=%/*.ipynb)); \
 	else echo "no notebooks to check"; fi
+
+notebooks: $(STAMP)
+	$(BIN)/python tests/helpers/refresh_notebooks.py
 
 bench: $(STAMP)
 	$(BIN)/python tests/benchmarks/run.py

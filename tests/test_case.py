@@ -300,7 +300,7 @@ def test_reprs_are_deterministic(demo_case):
         "Case('Ammonia odour at the Eastgate cold store': 5 hypotheses, priors sum to 1; "
         "6 evidence items, 5 observed; scenario 'base')")
     assert repr(demo_case.evidence["suction pressure trend"]) == (
-        "Evidence('suction pressure trend': 3 states, not yet observed)")
+        "Evidence('suction pressure trend': 3 states, pending)")
     assert repr(demo_case.update()).startswith("Ledger('Ammonia odour at the Eastgate cold store': "
                                                "5 evidence steps, MAP 'compressor seal leak'")
 

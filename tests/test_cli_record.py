@@ -60,7 +60,7 @@ def test_verify_json_report_lists_each_problem_with_where(rec, capsys):
     report = json.loads(capsys.readouterr().out)
     assert report["ok"] is False and report["intact"] is False
     assert report["tolerance"] == 1e-9
-    assert {"kind": "cell-removed", "where": "sealed cell 2 (code)",
+    assert {"code": "cell-removed", "where": "sealed cell 2 (code)",
             "detail": "is missing from the notebook"} in report["problems"]
 
 
@@ -118,7 +118,7 @@ def test_signature_defeats_a_forger_who_recomputes_the_digests(rec, tmp_path, ca
     rec.write_text(dumps_notebook(forged), encoding="utf-8")
     assert main(["verify", str(rec), "--json", "--public-key", pub]) == 1
     report = json.loads(capsys.readouterr().out)
-    assert [p["kind"] for p in report["problems"]] == ["signoff-broken", "key-not-trusted"]
+    assert [p["code"] for p in report["problems"]] == ["sign-off-broken", "key-not-trusted"]
     # re-signing with the forger's own key is caught by pinning the reviewer's public key
     rec.write_text(dumps_notebook(forged), encoding="utf-8")
     edit_file(rec, lambda nb: meta_of(nb).update(signoffs=[]))

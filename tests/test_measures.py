@@ -158,7 +158,7 @@ def test_likelihood_ratio_against_the_rest_uses_the_weights_before_the_step(smal
     # before E1 the weights are the priors: rest = (0.3*0.2 + 0.2*0.5) / 0.5 = 0.32
     assert bl.likelihood_ratio(small_case, "E1", "H1") == pytest.approx(0.9 / 0.32)
     assert bl.likelihood_ratio(small_case, "E1", "H1", "H2") == pytest.approx(4.5)
-    with pytest.raises(CaseError, match="not observed"):
+    with pytest.raises(CaseError, match="is pending"):
         bl.likelihood_ratio(small_case, "E3", "H1")
     assert bl.likelihood_ratio(small_case, "E3", "H1", "H2", state="yes") == pytest.approx(7)
 

@@ -81,7 +81,7 @@ def meta_of(nb):
 
 
 def kinds(result):
-    return sorted({p.kind for p in result.problems})
+    return sorted({p.code for p in result.problems})
 
 
 def reseal_hashes(nb: dict) -> dict:
@@ -299,7 +299,7 @@ def test_each_kind_of_edit_is_reported_where_it_happened(record, edit, kind, whe
     edit(nb)
     res = verify_notebook(nb, meta_of(nb))
     assert not res.ok and not res.intact
-    hits = [p for p in res.problems if p.kind == kind]
+    hits = [p for p in res.problems if p.code == kind]
     assert hits, res.text()
     assert hits[0].where.startswith(where), hits[0]
 
@@ -340,7 +340,7 @@ def test_tampered_results_fail_reproduction_with_the_tolerance_stated(record):
     res = verify_notebook(forged, meta_of(forged))
     assert res.intact and not res.reproducible
     (p,) = res.problems
-    assert p.kind == "results-differ" and f"tolerance {RESULT_TOL:g}" in p.detail
+    assert p.code == "results-differ" and f"tolerance {RESULT_TOL:g}" in p.detail
     # a difference inside the tolerance passes
     nb = copy.deepcopy(record)
     meta_of(nb)["cases"][0]["results"]["base"]["steps"][-1]["probabilities"][h] += 1e-12

@@ -110,7 +110,7 @@ def test_sweep_likelihood_against_engine(demo_case):
 
 def test_sweep_errors(demo_case, small_case):
     before = snapshot(small_case)
-    with pytest.raises(CaseError, match="'E3' is not observed"):
+    with pytest.raises(CaseError, match="'E3' is pending"):
         bl.sweep_likelihood(small_case, "E3", "H1")
     with pytest.raises(CaseError, match=r"value 1\.5 is outside \[0, 1\]"):
         bl.sweep_prior(small_case, "H1", [0.2, 1.5])
@@ -230,7 +230,7 @@ def test_tornado_uses_given_and_stated_ranges(small_case):
     assert (row["low"], row["high"], row["range_from"]) == (0.8, 0.97, "stated range")
     with pytest.raises(CaseError, match="does not contain the value in use"):
         bl.tornado(small_case, ranges={("prior", "H1"): (0.6, 0.9)})
-    with pytest.raises(CaseError, match="'E3', which is not observed"):
+    with pytest.raises(CaseError, match="'E3', which is pending"):
         bl.tornado(small_case, ranges={("E3", "H1"): (0.1, 0.9)})
 
 

@@ -1,4 +1,4 @@
-"""Command line: ``beliefledger demo | update | seal | verify | diff | sign | keygen``.
+"""Command line: ``beliefledger demo | show | seal | verify | diff | sign | keygen``.
 
 Exit codes: 0 success (for ``verify``: intact and reproducible), 1 a check
 failed (``verify``: not intact), 2 unusable input (a file that cannot be
@@ -26,19 +26,34 @@ EXIT_OK, EXIT_FAILED, EXIT_BAD_INPUT = 0, 1, 2
 COMMAND_MODULES = ["beliefledger.cli", "beliefledger.record.commands"]
 
 
-def _cmd_update(args: argparse.Namespace) -> int:
+def _cmd_show(args: argparse.Namespace) -> int:
+    """Print the ledger and review flags of one or more case files (the files are only
+    read: nothing is written)."""
     from .casefile import load_case
-    from .display import ledger_text
+    from .display import ledger_text, visible
 
-    case = load_case(args.case)
-    if args.scenario:
-        case.use_scenario(args.scenario)
-    ledger = case.update()
+    cases = [load_case(path) for path in args.cases]  # every file read before any output
+    ledgers = []
+    for path, case in zip(args.cases, cases, strict=True):
+        if args.scenario:
+            if args.scenario not in case.scenario_names:
+                from .errors import CaseError
+
+                raise CaseError(f"{path}: no scenario named {args.scenario!r}; its scenarios "
+                                f"are {case.scenario_names}")
+            case.use_scenario(args.scenario)
+        ledgers.append((path, case.update()))
     if args.json:
-        print(json.dumps(ledger.to_dict(), indent=1, ensure_ascii=False, allow_nan=False))
+        out = [dict(ledger.to_dict(), file=str(path)) for path, ledger in ledgers]
+        print(json.dumps(out[0] if len(out) == 1 else out, indent=1, ensure_ascii=False,
+                         allow_nan=False))
     else:
-        print(ledger_text(ledger))
-    return EXIT_OK if ledger.ok or not args.strict else EXIT_FAILED
+        for k, (path, ledger) in enumerate(ledgers):
+            if len(ledgers) > 1:
+                print(("\n" if k else "") + f"== {visible(str(path))}")
+            print(ledger_text(ledger))
+    failed = any(not ledger.ok for _, ledger in ledgers)
+    return EXIT_FAILED if failed and args.strict else EXIT_OK
 
 
 def _cmd_demo_engine(args: argparse.Namespace) -> int:
@@ -52,12 +67,15 @@ def _cmd_demo_engine(args: argparse.Namespace) -> int:
 
 
 def add_parsers(sub: argparse._SubParsersAction) -> None:
-    p = sub.add_parser("update", help="run the update of a case file and print the ledger")
-    p.add_argument("case", help="a case JSON file")
-    p.add_argument("--json", action="store_true", help="machine-readable output")
-    p.add_argument("--scenario", help="prior scenario to use (default: the file's active one)")
-    p.add_argument("--strict", action="store_true", help="exit 1 when any flag is an error")
-    p.set_defaults(handler=_cmd_update)
+    p = sub.add_parser("show", help="print the ledger and review flags of case files "
+                                    "(reads them; changes nothing)")
+    p.add_argument("cases", nargs="+", metavar="CASE.json", help="one or more case files")
+    p.add_argument("--json", action="store_true",
+                   help="machine-readable output (a list when several files are given)")
+    p.add_argument("--scenario", help="prior scenario to use (default: each file's active one)")
+    p.add_argument("--strict", action="store_true",
+                   help="exit 1 when any ledger has a flag of severity error")
+    p.set_defaults(handler=_cmd_show)
     if "demo" not in sub.choices:
         d = sub.add_parser("demo", help="run the built-in example case through the engine")
         d.add_argument("--out", help="(used once the record layer is installed)")

@@ -15,7 +15,6 @@ if TYPE_CHECKING:
     from .case import Case
     from .engine import Ledger
 
-SEVERITY_MARK = {"error": "ERROR", "warning": "warning", "info": "info"}
 
 
 def esc(text: object) -> str:
@@ -50,7 +49,7 @@ def case_html(case: Case, max_rows: int = 50) -> str:
     more = (f"<p>... and {len(hyps) - max_rows} more hypotheses</p>"
             if len(hyps) > max_rows else "")
     evs = list(case.evidence.values())
-    erows = [[e.name, ", ".join(e.states), e.observed if e.observed is not None else "not yet",
+    erows = [[e.name, ", ".join(e.states), e.observed if e.observed is not None else "pending",
               str(e.source)] for e in evs[:max_rows]]
     emore = f"<p>... and {len(evs) - max_rows} more items</p>" if len(evs) > max_rows else ""
     return (
@@ -67,7 +66,7 @@ def flags_html(flags) -> str:
     if not flags:
         return '<p class="bl-flags-none">No review flags.</p>'
     items = "".join(
-        f'<li class="bl-flag bl-{esc(f.severity)}"><b>{esc(SEVERITY_MARK[f.severity])}</b> '
+        f'<li class="bl-flag bl-{esc(f.severity)}"><b>{esc(f.severity)}</b> '
         f"<code>{esc(f.code)}</code> {esc(f.message)}</li>" for f in flags)
     return f'<ul class="bl-flags">{items}</ul>'
 

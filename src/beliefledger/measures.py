@@ -252,7 +252,7 @@ def likelihood_ratio(case: Case, evidence: str, hypothesis: str, against: str | 
         raise CaseError(f"no hypothesis named {hypothesis!r}; the hypotheses are {names}")
     st = state if state is not None else ev.observed
     if st is None:
-        raise CaseError(f"evidence '{evidence}' is not observed; pass state=... to ask about one")
+        raise CaseError(f"evidence '{evidence}' is pending (not observed yet); pass state=... to ask about one of its states")
     row = ev.likelihood_of(st)
     num = float(row[hypothesis])
     if against is not None:

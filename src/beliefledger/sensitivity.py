@@ -275,7 +275,7 @@ def sweep_likelihood(case: Case, evidence: str, hypothesis: str, values: Any = N
     ev = case.evidence_item(evidence)
     h = case.hypothesis(hypothesis).name
     if ev.observed is None:
-        raise CaseError(f"evidence '{ev.name}' is not observed, so its likelihoods do not affect "
+        raise CaseError(f"evidence '{ev.name}' is pending (not observed yet), so its likelihoods do not affect "
                         "the posterior; observe it first (case.observe) or sweep another item")
     st = ev.observed if state is None else state
     i = ev.state_index(st)
@@ -508,7 +508,7 @@ def tornado(case: Case, focus: str | None = None, *, ranges: Mapping[Any, Any] |
             ev = case.evidence_item(key[0])
             case.hypothesis(key[1])
             if ev.observed is None:
-                raise CaseError(f"ranges names evidence '{ev.name}', which is not observed and "
+                raise CaseError(f"ranges names evidence '{ev.name}', which is pending and "
                                 "so does not move the posterior")
     unc = current_uncertainty(case)
     by_key = {(e["evidence"], e["hypothesis"]): e for e in unc["likelihoods"]}

@@ -3,7 +3,7 @@
 Two questions the update alone does not answer: *what should we look at
 next?* and *what do we do now?*
 
-For an evidence item that is defined but not yet observed, the current
+For a pending evidence item (defined but not observed yet), the current
 posterior gives its predictive distribution over states, the posterior that
 each state would lead to, the expected reduction in entropy about the
 hypothesis (the mutual information, in bits), the probability that observing
@@ -87,7 +87,7 @@ def _pending(case: Case, evidence: Any) -> list[str]:
         ev = case.evidence_item(n)
         if ev.observed is not None:
             raise CaseError(f"evidence '{ev.name}' is already observed ({ev.observed!r}); value "
-                            "of information is for items not yet observed (to ask what it would "
+                            "of information is for pending items (to ask what it would "
                             f"have been worth, copy the case and call observe('{ev.name}', None))")
         out.append(ev.name)
     return out
@@ -193,7 +193,7 @@ def evsi(case: Case, evidence: str, loss: Any = None, *, kind: str = "loss",
 def rank_next_evidence(case: Case, loss: Any = None, *, kind: str = "loss",
                        by: str | None = None, cost: Any = None, scenario: str | None = None,
                        evidence: Any = None) -> pd.DataFrame:
-    """Rank the evidence not yet observed by what observing it is expected to give.
+    """Rank the pending evidence (not observed yet) by what observing it is expected to give.
 
     Parameters
     ----------
@@ -214,7 +214,7 @@ def rank_next_evidence(case: Case, loss: Any = None, *, kind: str = "loss",
     scenario : str, optional
         Prior scenario (default: the active one).
     evidence : str or list, optional
-        Rank only these items (default: every item not yet observed).
+        Rank only these items (default: every pending item).
 
     Returns
     -------

@@ -139,10 +139,10 @@ def test_terminal_output(twins, tmp_path, capsys):
     hostile, _ = twins
     assert_terminal_safe(ledger_text(hostile.update()), "ledger_text")
     path = hostile.save(tmp_path / "hostile.json")
-    assert cli.main(["update", str(path)]) == 0
+    assert cli.main(["show", str(path)]) == 0
     out = capsys.readouterr()
     assert "alert(1)" in out.out
-    assert_terminal_safe(out.out, "beliefledger update")
+    assert_terminal_safe(out.out, "beliefledger show")
     # an error message quoting a hostile name goes to the terminal too
     text = path.read_text(encoding="utf-8")
     first = hostile.hypothesis_names[0]
@@ -152,19 +152,19 @@ def test_terminal_output(twins, tmp_path, capsys):
     data["case"]["hypotheses"].append(dict(data["case"]["hypotheses"][0]))
     bad = tmp_path / "dup.json"
     bad.write_text(json.dumps(data, ensure_ascii=False), encoding="utf-8")
-    assert cli.main(["update", str(bad)]) == 2
+    assert cli.main(["show", str(bad)]) == 2
     err = capsys.readouterr().err
     assert "twice" in err and first.split("#")[-1] in err
-    assert_terminal_safe(err, "beliefledger update error message")
+    assert_terminal_safe(err, "beliefledger show error message")
     # and a name holding terminal escapes and a bidi override
     evil = bl.Case("t", hypotheses={"\x1b[2Jwiped\u202e": 0.5, "b": 0.5})
     data = json.loads(evil.save(tmp_path / "evil.json").read_text(encoding="utf-8"))
     data["case"]["hypotheses"].append(dict(data["case"]["hypotheses"][0]))
     bad.write_text(json.dumps(data), encoding="utf-8")
-    assert cli.main(["update", str(bad)]) == 2
+    assert cli.main(["show", str(bad)]) == 2
     err = capsys.readouterr().err
     assert "wiped" in err and "twice" in err
-    assert_terminal_safe(err, "beliefledger update error quoting an escape sequence")
+    assert_terminal_safe(err, "beliefledger show error quoting an escape sequence")
 
 
 def _widget_html(widget) -> str:

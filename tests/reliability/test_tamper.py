@@ -308,6 +308,6 @@ def test_a_case_edited_consistently_everywhere_is_still_caught(sealed, tmp_path)
     path.write_text(json.dumps(rec), encoding="utf-8")
     result = verify(path)
     assert not result.ok
-    kinds = {p.kind for p in result.problems}
+    kinds = {p.code for p in result.problems}
     assert "case-changed" in kinds and "cell-changed" in kinds, result.text()
     assert "results-differ" in kinds or "case-changed" in kinds

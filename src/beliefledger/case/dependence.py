@@ -7,7 +7,7 @@ the predictive table of a pending item given what else is observed; the
 engine and value-of-information analysis read them through the case.
 
 A joint group's observed members make one step whose vector is the joint
-table at their observed states (members not yet observed summed out). A
+table at their observed states (pending members summed out). A
 conditional item contributes P(its state | the evidence before it, H): the
 row of its table for the parent's observed state or, when the parent is
 pending, the parent's state summed out given what is known of its chain

@@ -341,7 +341,7 @@ class Evidence:
         return out
 
     def __repr__(self) -> str:
-        obs = f"observed {self.observed!r}" if self.observed is not None else "not yet observed"
+        obs = f"observed {self.observed!r}" if self.observed is not None else "pending"
         kind = "likelihood evidence" if self.likelihood_evidence else f"{len(self.states)} states"
         given = f", given {self.given!r}" if self.given is not None else ""
         return f"Evidence({self.name!r}: {kind}{given}, {obs})"

@@ -748,7 +748,7 @@ class Case:
             self._evidence[ev.name] = ev.replace(**changes)
 
     def observe(self, evidence: str, state: str | None) -> None:
-        """Record the observed state of an evidence item (``None``: not yet observed)."""
+        """Record the observed state of an evidence item (``None``: pending, not observed yet)."""
         ev = self.evidence_item(evidence)
         if state is not None:
             if not isinstance(state, str):

@@ -245,7 +245,8 @@ def _evidence_from(e: Any, what: str, names: tuple[str, ...], name_set: set[str]
         es = _obj(es, f"entry source #{k + 1} of {what}")
         _keys(es, {"state", "hypothesis", "source"}, f"entry source #{k + 1} of {what}")
         s_, h_ = _req(es, "state", what), _req(es, "hypothesis", what)
-        if s_ not in st or h_ not in name_set:
+        if not isinstance(s_, str) or not isinstance(h_, str) or s_ not in st or \
+                h_ not in name_set:
             raise CaseFileError(f"entry source #{k + 1} of {what} names state {s_!r:.40} / "
                                 f"hypothesis {h_!r:.40}, which the item does not have")
         entry_sources[(s_, h_)] = _source(es.get("source", {}), what)

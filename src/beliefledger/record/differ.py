@@ -252,13 +252,13 @@ def diff_cases(old, new, *, label: str = "") -> list[Change]:
         if e not in old.evidence_names:
             ev = new.evidence[e]
             add("evidence", "added", f"evidence '{e}'", None,
-                f"observed {ev.observed!r}" if ev.observed is not None else "not yet observed")
+                f"observed {ev.observed!r}" if ev.observed is not None else "pending")
     for e in [x for x in old.evidence_names if x in new.evidence_names]:
         eo, en = old.evidence[e], new.evidence[e]
         if eo.observed != en.observed:
             add("evidence", "changed", f"observed state of '{e}'",
-                eo.observed if eo.observed is not None else "not observed",
-                en.observed if en.observed is not None else "not observed")
+                eo.observed if eo.observed is not None else "pending",
+                en.observed if en.observed is not None else "pending")
         if eo.shared_source != en.shared_source:
             add("evidence", "changed", f"shared-source tag of '{e}'", eo.shared_source,
                 en.shared_source)

@@ -39,24 +39,25 @@ RESULT_TOL = 1e-9
 
 @dataclass(frozen=True)
 class Problem:
-    """One difference: ``kind`` (a short code), ``where`` (the cell, case or part), ``detail``."""
+    """One problem verify found: ``code`` (short kebab-case, like a flag's), ``where`` (the
+    cell, case or part) and ``detail``."""
 
-    kind: str
+    code: str
     where: str
     detail: str
 
     def to_dict(self) -> dict[str, str]:
-        return {"kind": self.kind, "where": self.where, "detail": self.detail}
+        return {"code": self.code, "where": self.where, "detail": self.detail}
 
     def __str__(self) -> str:
-        return f"{self.where}: {self.detail} [{self.kind}]"
+        return f"{self.where}: {self.detail} [{self.code}]"
 
 
-INTEGRITY_KINDS = frozenset({"cell-changed", "cell-added", "cell-removed", "cell-moved",
+INTEGRITY_CODES = frozenset({"cell-changed", "cell-added", "cell-removed", "cell-moved",
                              "case-changed", "case-added", "case-removed", "header-changed",
                              "root-mismatch", "manifest-cell", "case-not-as-shown",
-                             "fingerprint-mismatch", "signoff-broken", "key-not-trusted"})
-REPRODUCTION_KINDS = frozenset({"results-differ", "case-unreadable"})
+                             "fingerprint-mismatch", "sign-off-broken", "key-not-trusted"})
+REPRODUCTION_CODES = frozenset({"results-differ", "case-unreadable"})
 
 
 @dataclass
@@ -76,11 +77,11 @@ class VerifyResult:
 
     @property
     def intact(self) -> bool:
-        return not any(p.kind in INTEGRITY_KINDS for p in self.problems)
+        return not any(p.code in INTEGRITY_CODES for p in self.problems)
 
     @property
     def reproducible(self) -> bool:
-        return not any(p.kind in REPRODUCTION_KINDS for p in self.problems)
+        return not any(p.code in REPRODUCTION_CODES for p in self.problems)
 
     @property
     def ok(self) -> bool:
@@ -105,7 +106,7 @@ class VerifyResult:
                      "" if self.root == self.sealed_root else
                      f" (recomputed; the record claims {fingerprint(self.sealed_root)})")]
         if self.problems:
-            lines.append(f"Differences ({len(self.problems)}):")
+            lines.append(f"Problems ({len(self.problems)}):")
             lines += [f"  - {p}" for p in self.problems]
         if self.warnings:
             lines.append(f"Warnings ({len(self.warnings)}):")
@@ -360,7 +361,7 @@ def verify_notebook(nb: dict[str, Any], meta: dict[str, Any], *, path: str = "re
     except (TypeError, ValueError):
         root = "0" * 64
     sealed_root = man["root"]
-    structural = [p for p in problems if p.kind.startswith(("cell-", "case-"))]
+    structural = [p for p in problems if p.code.startswith(("cell-", "case-"))]
     if root != sealed_root and not structural:
         problems.append(Problem("header-changed", "record header",
                                 "the root digest in the manifest does not match the record: the "
@@ -405,7 +406,7 @@ def verify_notebook(nb: dict[str, Any], meta: dict[str, Any], *, path: str = "re
     statuses = [check_signoff(i, s, root) for i, s in enumerate(meta.get("signoffs", []))]
     for s in statuses:
         if s.status != "valid":
-            problems.append(Problem("signoff-broken", f"sign-off {s.index + 1} ({s.reviewer})",
+            problems.append(Problem("sign-off-broken", f"sign-off {s.index + 1} ({s.reviewer})",
                                     s.detail))
     if public_keys:
         trusted = {key_id(k) for k in public_keys}

@@ -17,8 +17,8 @@ if TYPE_CHECKING:  # pragma: no cover
 
     from ..engine import Ledger
 
-NOT_OBSERVED = ""  # dropdown value for "not yet observed" (state names are never empty)
-NOT_OBSERVED_LABEL = "(not yet observed)"
+NOT_OBSERVED = ""  # dropdown value for "pending" (state names are never empty)
+NOT_OBSERVED_LABEL = "(pending)"
 
 
 class EvidenceEditor(CaseView):
@@ -28,7 +28,7 @@ class EvidenceEditor(CaseView):
     compact grid (states as rows, hypotheses as columns, as in
     ``Evidence.likelihoods`` and the CSV layout) with each column's sum
     flagged when it is not 1, its source, and the observed state (a dropdown
-    with "(not yet observed)"). Columns are paged (``columns_per_page`` at a
+    with "(pending)"). Columns are paged (``columns_per_page`` at a
     time) so wide cases stay light. A table can be imported from a CSV file
     (first column: the states) or a DataFrame with :meth:`import_table`.
     """
@@ -110,7 +110,7 @@ class EvidenceEditor(CaseView):
             return
         state = None if value == NOT_OBSERVED else value
         what = (f"'{ev}' observed as '{state}'" if state is not None
-                else f"'{ev}' set to not yet observed")
+                else f"'{ev}' set to pending")
         self._apply(what, self.case.observe, ev, state)
 
     def _set_cell(self, state: str, hypothesis: str, value: float) -> None:
@@ -248,7 +248,7 @@ class EvidenceEditor(CaseView):
         if ev is None:
             return f"EvidenceEditor({self.case.title!r}: no evidence)"
         item = self.case.evidence[ev]
-        obs = f"observed {item.observed!r}" if item.observed is not None else "not yet observed"
+        obs = f"observed {item.observed!r}" if item.observed is not None else "pending"
         return f"EvidenceEditor({self.case.title!r}: {n} items; editing {ev!r}, {obs})"
 
     def _repr_html_(self) -> str:
