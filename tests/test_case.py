@@ -332,3 +332,36 @@ def test_flags_must_be_booleans(small_case):
     assert snapshot(small_case) == before
     with pytest.raises(CaseTypeError, match="safety_related must be True or False"):
         bl.Case("c", {"A": 1.0}, safety_related=1)
+
+
+# --------------------------------------------------------------------------- bulk construction
+
+
+def test_from_tables_builds_the_same_case_as_item_by_item(rng):
+    names = [f"cause {i}" for i in range(6)] + ["other cause"]
+    priors = pd.Series(rng.dirichlet(np.ones(7)), index=names)
+    tables, observed = {}, {}
+    for k in range(40):
+        states = [f"s{j}" for j in range(int(rng.integers(2, 5)))]
+        tables[f"item {k}"] = pd.DataFrame(rng.dirichlet(np.ones(len(states)), size=7).T,
+                                           index=states, columns=names)
+        if k % 3:
+            observed[f"item {k}"] = states[int(rng.integers(len(states)))]
+    src = {"where": "invented test tables"}
+    bulk = bl.Case.from_tables("bulk", priors, tables, observed=observed, sources=src,
+                               normalize=True)
+    one = bl.Case("bulk", priors, normalize=True)
+    for name, frame in tables.items():
+        one.add_evidence(name, likelihoods=frame, observed=observed.get(name), source=src)
+    assert bulk.to_dict() == one.to_dict()
+    np.testing.assert_allclose(bulk.update().probabilities, one.update().probabilities)
+
+
+def test_from_tables_names_the_bad_item_and_keeps_nothing():
+    frame = pd.DataFrame({"A": [0.9, 0.2], "Other": [0.5, 0.5]}, index=["yes", "no"])
+    with pytest.raises(CaseError, match="evidence 'bad one' for hypothesis 'A' sum to 1.1"):
+        bl.Case.from_tables("t", {"A": 0.5, "Other": 0.5}, {"good": frame.assign(A=[0.9, 0.1]),
+                                                            "bad one": frame})
+    with pytest.raises(CaseError, match=r"observed names evidence \['ghost'\]"):
+        bl.Case.from_tables("t", {"A": 0.5, "Other": 0.5}, {"good": frame.assign(A=[0.9, 0.1])},
+                            observed={"ghost": "yes"})

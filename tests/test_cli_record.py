@@ -219,3 +219,22 @@ def test_demo_end_to_end(tmp_path, capsys):
         "slow decline"
     page = html.read_text(encoding="utf-8")
     assert "<script" not in page and "Local codes, regulations" in page
+
+
+def test_demo_on_a_minimal_install_says_what_is_missing_before_starting(tmp_path, monkeypatch,
+                                                                         capsys):
+    """Without the notebook extra, demo stops at once with the install command: no
+    'sealing ...' line first and no output folder."""
+    import importlib.util
+
+    from beliefledger.cli import main
+
+    real = importlib.util.find_spec
+    monkeypatch.setattr(importlib.util, "find_spec",
+                        lambda name, *a: None if name == "nbclient" else real(name, *a))
+    out = tmp_path / "demo"
+    assert main(["demo", "--out", str(out)]) == 2
+    captured = capsys.readouterr()
+    assert "pip install 'beliefledger[notebook]'" in captured.err and "nbclient" in captured.err
+    assert "sealing" not in captured.err + captured.out
+    assert not out.exists()

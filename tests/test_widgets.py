@@ -249,17 +249,22 @@ def test_prior_edit_with_rescale_keeps_the_sum(demo_case):
         demo_case.base_priors["other cause"])
 
 
-def test_rename_source_rationale_and_catch_all(demo_case):
+def test_rename_every_source_field_and_catch_all(demo_case):
     ed = HypothesisEditor(demo_case)
     row = ed.row_for("maintenance venting")
     row.name.value = "planned venting"
     assert "planned venting" in demo_case.hypothesis_names
     assert row.hypothesis == "planned venting"
-    row.where.value = "permit records 2024"
-    row.why.value = "closest reference class"
+    assert list(row.source) == ["where", "who", "when", "why"]  # the same four everywhere
+    row.source["where"].value = "permit records 2024"
+    row.source["why"].value = "closest reference class"
     src = demo_case.hypotheses["planned venting"].source
     assert (src.where, src.why) == ("permit records 2024", "closest reference class")
     assert src.who == "R. Okafor (process safety)"  # untouched fields are kept
+    row.source["who"].value = "T. Ibsen"
+    row.source["when"].value = "2026-12-02"
+    src = demo_case.hypotheses["planned venting"].source
+    assert (src.who, src.when) == ("T. Ibsen", "2026-12-02")
     row.catch_all.value = True
     assert demo_case.hypotheses["planned venting"].catch_all
     before = _snapshot(demo_case)
@@ -272,7 +277,7 @@ def test_unsourced_prior_gets_a_banner(demo_case):
     ed = HypothesisEditor(demo_case)
     row = ed.row_for("other cause")
     assert "no source" not in row.banner.value
-    row.where.value = ""
+    row.source["where"].value = ""
     assert any(f.code == "unsourced" for f in ed.ledger.flags)
     assert "prior has no source" in row.banner.value
     assert "prior has no source" not in ed.row_for("relief valve lifted").banner.value
@@ -469,7 +474,8 @@ def test_workbench_template_executes_and_emits_the_case(tmp_path):
 ACTIONS = {
     "prior": lambda wb: setattr(wb.hypotheses.row_for("other cause").prior, "value", 0.2),
     "rename": lambda wb: setattr(wb.hypotheses.row_for("other cause").name, "value", "else"),
-    "source": lambda wb: setattr(wb.hypotheses.row_for("other cause").where, "value", "log"),
+    "source": lambda wb: setattr(wb.hypotheses.row_for("other cause").source["where"], "value",
+                                 "log"),
     "catch-all": lambda wb: setattr(wb.hypotheses.row_for("relief valve lifted").catch_all,
                                     "value", True),
     "normalize": lambda wb: (wb.case.set_prior("other cause", 0.3),
@@ -522,3 +528,16 @@ def test_views_of_one_case_share_one_recompute(demo_case, monkeypatch):
     for view in (wb, other, editor):
         view.close()
     assert demo_case._listeners == []  # the last view closed lets go of the case
+
+
+def test_rescaled_priors_show_without_float_noise(demo_case):
+    ed = HypothesisEditor(demo_case)
+    ed.rescale.value = True
+    # the others (0.65 in all) are rescaled by 0.988 / 0.65 = 1.52; 0.1 * that in binary
+    # floating point is 0.15200000000000002
+    ed.row_for("compressor seal leak").prior.value = 0.012
+    exact = demo_case.hypotheses["maintenance venting"].prior
+    assert exact != 0.152 and exact == pytest.approx(0.152, abs=1e-15)
+    assert ed.row_for("maintenance venting").prior.value == 0.152  # shown without the noise
+    assert ed.row_for("relief valve lifted").prior.value == 0.304
+    assert demo_case.hypotheses["maintenance venting"].prior == exact  # showing changed nothing

@@ -379,9 +379,11 @@ def _run(case: Case, scenario: str, p: np.ndarray, steps: Any, with_flags: bool)
                     adj[i] = top
         shift += np.cumsum(adj)
     weights = np.exp(cum)
+    sums = weights.sum(axis=1)
     # a row whose largest weight is far below 1 drifted between two re-centrings: its
-    # smallest entries may have underflowed, so it is redone from its own maximum
-    low = np.flatnonzero(weights.max(axis=1) < DRIFTED)
+    # smallest entries may have underflowed, so it is redone from its own maximum. The
+    # sum tells without another pass: the largest weight is at least sum / n_h.
+    low = np.flatnonzero(sums < DRIFTED * max(n_h, 1))
     stop = None
     n_ok = n + 1
     for i in low:  # underflow, or impossible evidence (every entry -inf)
@@ -392,7 +394,7 @@ def _run(case: Case, scenario: str, p: np.ndarray, steps: Any, with_flags: bool)
         cum[i] -= top
         shift[i] += top
         np.exp(cum[i], out=weights[i])
-    sums = weights.sum(axis=1)
+        sums[i] = weights[i].sum()
     if total_p <= 0:
         n_ok = 1  # no usable prior: report the zero row, apply nothing
     elif n_ok <= n:

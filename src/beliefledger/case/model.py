@@ -1159,6 +1159,69 @@ class Case:
         return case
 
     @classmethod
+    def from_tables(cls, title: str, priors: Any, likelihoods: Mapping[str, Any], *,
+                    observed: Mapping[str, str | None] | None = None,
+                    sources: Mapping[str, Any] | Any = None,
+                    descriptions: Mapping[str, str] | None = None,
+                    normalize_likelihoods: bool = False, **kwargs: Any) -> Case:
+        """A case with many evidence items built in one step (a model for batch scoring).
+
+        Parameters
+        ----------
+        title : str
+        priors : mapping, Series or DataFrame
+            The hypotheses and their priors, in any form the constructor takes.
+        likelihoods : mapping
+            Evidence name -> its table P(state | hypothesis): a DataFrame with the
+            states as rows and the hypotheses as columns, or any form
+            :meth:`add_evidence` takes.
+        observed : mapping, optional
+            Evidence name -> observed state (items left out are pending).
+        sources : mapping or Source, optional
+            Evidence name -> its Source (or one Source for every item).
+        descriptions : mapping, optional
+            Evidence name -> description.
+        normalize_likelihoods : bool
+            Rescale columns that do not sum to 1 (recorded as an assumption).
+        **kwargs
+            Passed to the constructor (``question``, ``analyst``, ``source`` of the
+            priors, ``normalize``, ``exhaustive`` ...).
+
+        Every table is checked as :meth:`add_evidence` checks it, and the whole
+        case is validated once, so ten thousand items take one pass instead of
+        ten thousand edits. An error names the item.
+        """
+        case = cls(title, priors, **kwargs)
+        if not isinstance(likelihoods, Mapping):
+            raise CaseTypeError(f"likelihoods must map each evidence name to its table, got "
+                                f"{type(likelihoods).__name__}")
+        observed = dict(observed or {})
+        descriptions = dict(descriptions or {})
+        per_item = isinstance(sources, Mapping) and not set(sources) <= set(Source._FIELDS)
+        for label, given in (("observed", observed), ("descriptions", descriptions),
+                             ("sources", sources if per_item else {})):
+            unknown = [k for k in given if k not in likelihoods]
+            if unknown:
+                raise CaseError(f"{label} names evidence {short_list(unknown)} that has no "
+                                "table in likelihoods")
+        items: dict[str, Evidence] = {}
+        for name, table in likelihoods.items():
+            ev = case._build_evidence(
+                name, likelihoods=table, states=None, observed=observed.get(name),
+                source=sources.get(name) if per_item else sources,
+                description=descriptions.get(name, ""), shared_source=None,
+                likelihood_evidence=False, normalize=normalize_likelihoods)
+            if ev.name in items:
+                raise CaseError(f"evidence '{ev.name}' is given twice; names must be unique")
+            items[ev.name] = ev
+        with case._edit("evidence"):
+            case._evidence.update(items)
+            if normalize_likelihoods:
+                case._record("normalize-likelihoods", "all items",
+                             "likelihood columns rescaled to sum to 1 over the states")
+        return case
+
+    @classmethod
     def from_csv(cls, title: str, path: str | Path, **kwargs: Any) -> Case:
         """Build a case from a CSV of hypotheses (columns name, prior, and optional
         description, catch_all, where, who, when, why)."""

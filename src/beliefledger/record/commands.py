@@ -23,6 +23,7 @@ def _err(msg: str) -> None:
 
 
 def _cmd_seal(args: argparse.Namespace) -> int:
+    require_sealing_packages("seal")
     from .sealer import seal
 
     _err(f"sealing {Path(args.notebook).name}: executing in a clean kernel")
@@ -93,7 +94,26 @@ def demo_notebook_path() -> Path:
     return Path(__file__).resolve().parent.parent / "data" / DEMO_NOTEBOOK
 
 
+SEAL_NEEDS = ("nbformat", "nbclient", "ipykernel")
+"""What sealing runs on (the notebook extra); checked before any work starts."""
+
+
+def require_sealing_packages(command: str) -> None:
+    """Refuse at once, before printing or writing anything, when a package sealing needs
+    is missing, naming it and the install command."""
+    import importlib.util
+
+    from ..errors import RecordError
+
+    missing = [m for m in SEAL_NEEDS if importlib.util.find_spec(m) is None]
+    if missing:
+        raise RecordError(f"{command} seals a notebook, which needs {', '.join(missing)}; "
+                          "install them with pip install 'beliefledger[notebook]' (nothing "
+                          "was written)")
+
+
 def _cmd_demo(args: argparse.Namespace) -> int:
+    require_sealing_packages("demo")
     from .sealer import seal
     from .verifier import verify
 

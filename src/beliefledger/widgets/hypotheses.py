@@ -27,8 +27,16 @@ BANNER_TEXT = {
     "unsourced": "prior has no source: say where it came from",
 }
 
-_COLS = ("minmax(150px, 2fr) 90px minmax(140px, 3fr) minmax(140px, 3fr) 70px 90px "
-         "minmax(140px, 2fr)")
+_COLS = ("minmax(150px, 2fr) 90px minmax(140px, 3fr) minmax(90px, 1fr) minmax(90px, 1fr) "
+         "minmax(140px, 3fr) 70px 90px minmax(140px, 2fr)")
+SOURCE_FIELDS = ("where", "who", "when", "why")
+"""The four fields of every source, in the order every editor shows them."""
+
+
+def shown_number(x: float) -> float:
+    """A number as the editor shows it: twelve significant figures, so a rescaled prior
+    reads 0.092, not 0.09200000000000001 (the case keeps the exact value)."""
+    return float(f"{float(x):.12g}")
 
 
 def _row_layout() -> W.Layout:
@@ -44,22 +52,24 @@ class _Row:
         self.name = W.Text(continuous_update=False, layout=lay,
                            tooltip="hypothesis name (press Enter to rename)")
         self.prior = W.FloatText(step=0.01, layout=lay)
-        self.where = W.Text(continuous_update=False, layout=lay, placeholder="source of the prior")
-        self.why = W.Text(continuous_update=False, layout=lay, placeholder="rationale")
+        hints = {"where": "where the prior came from", "who": "who set it",
+                 "when": "when (date)", "why": "why this reference class"}
+        self.source = {f: W.Text(continuous_update=False, layout=lay, placeholder=hints[f])
+                       for f in SOURCE_FIELDS}
         self.catch_all = W.Checkbox(description="", indent=False, layout=W.Layout(width="auto"))
         self.remove = W.Button(description="remove", layout=W.Layout(width="88px"),
                                tooltip="remove this hypothesis (click twice)")
         self.banner = W.HTML(layout=W.Layout(width="auto"))
         self.banner.add_class("bl-banner")
         self.hypothesis: str | None = None
-        self.box = W.GridBox([self.name, self.prior, self.where, self.why, self.catch_all,
+        self.box = W.GridBox([self.name, self.prior, *self.source.values(), self.catch_all,
                               self.remove, self.banner], layout=_row_layout())
         g = editor._guarded
         self.name.observe(g(lambda ch: editor._rename(self, ch["new"])), names="value")
         self.prior.observe(g(lambda ch: editor._set_prior(self, ch["new"])), names="value")
-        self.where.observe(g(lambda ch: editor._set_source(self, "where", ch["new"])),
-                           names="value")
-        self.why.observe(g(lambda ch: editor._set_source(self, "why", ch["new"])), names="value")
+        for field, box in self.source.items():
+            box.observe(g(lambda ch, f=field: editor._set_source(self, f, ch["new"])),
+                        names="value")
         self.catch_all.observe(g(lambda ch: editor._set_catch_all(self, ch["new"])),
                                names="value")
         self.remove.on_click(lambda _b: editor._remove(self))
@@ -91,7 +101,8 @@ class HypothesisEditor(CaseView):
         self.page_size = page_size
         self.page = 0
         self._armed: str | None = None  # hypothesis whose remove button awaits the 2nd click
-        heads = ["hypothesis", "prior", "source of the prior", "rationale", "catch-all", "", ""]
+        heads = ["hypothesis", "prior", "where (source)", "who", "when", "why", "catch-all", "",
+                 ""]
         header = W.GridBox([W.HTML(f'<span class="bl-head">{esc(h)}</span>') for h in heads],
                            layout=_row_layout())
         self.rows = [_Row(self) for _ in range(page_size)]
@@ -168,9 +179,8 @@ class HypothesisEditor(CaseView):
             return
         src = self.case.hypotheses[h].source.to_dict()
         src[field] = text
-        what = "source" if field == "where" else "rationale"
-        self._apply(f"{what} of the prior of '{h}' updated", self.case.set_hypothesis, h,
-                    source=Source(**src))
+        self._apply(f"source field '{field}' of the prior of '{h}' updated",
+                    self.case.set_hypothesis, h, source=Source(**src))
 
     def _set_catch_all(self, row: _Row, value: bool) -> None:
         h = row.hypothesis
@@ -212,7 +222,7 @@ class HypothesisEditor(CaseView):
         evidence = self.case.evidence
         vec = [e.name for e in evidence.values() if e.likelihood_evidence]
         if vec:
-            self.status.show(f"cannot add '{name}' here: likelihood evidence evidence {vec[:5]} needs "
+            self.status.show(f"cannot add '{name}' here: the likelihood evidence {vec[:5]} needs "
                              "a likelihood for it; use case.add_hypothesis(name, prior, "
                              "likelihoods={...}) in code", "error")
             return False
@@ -260,9 +270,9 @@ class HypothesisEditor(CaseView):
             row.hypothesis = h.name
             row.box.layout.display = None
             set_if_changed(row.name, value=h.name)
-            set_if_changed(row.prior, value=float(h.prior))
-            set_if_changed(row.where, value=h.source.where)
-            set_if_changed(row.why, value=h.source.why)
+            set_if_changed(row.prior, value=shown_number(h.prior))
+            for field, box in row.source.items():
+                set_if_changed(box, value=getattr(h.source, field))
             set_if_changed(row.catch_all, value=bool(h.catch_all))
             armed = self._armed == h.name
             set_if_changed(row.remove, description="confirm" if armed else "remove",
@@ -311,14 +321,17 @@ class HypothesisEditor(CaseView):
         for h in self.case.hypotheses.values():
             notes = "; ".join(BANNER_TEXT.get(f.code, f.code).format(detail=f.where)
                               for f in banners.get(h.name, []))
+            src = h.source
             rows.append(f"<tr><td>{esc(h.name)}</td><td>{h.prior:.6g}</td>"
-                        f"<td>{esc(h.source.where or 'unsourced')}</td><td>{esc(h.source.why)}</td>"
+                        f"<td>{esc(src.where or 'unsourced')}</td><td>{esc(src.who)}</td>"
+                        f"<td>{esc(src.when)}</td><td>{esc(src.why)}</td>"
                         f"<td>{'yes' if h.catch_all else ''}</td><td>{esc(notes)}</td></tr>")
         total = float(self.case.base_priors.sum())
         return ('<div class="bl-static"><table class="bl-table"><thead><tr><th>hypothesis</th>'
-                "<th>prior</th><th>source</th><th>rationale</th><th>catch-all</th><th>flags</th>"
+                "<th>prior</th><th>where (source)</th><th>who</th><th>when</th><th>why</th>"
+                "<th>catch-all</th><th>flags</th>"
                 f"</tr></thead><tbody>{''.join(rows)}</tbody></table>"
                 f"<p>sum of priors: {total:.6g}</p></div>")
 
 
-__all__ = ["HypothesisEditor", "BANNER_TEXT"]
+__all__ = ["HypothesisEditor", "BANNER_TEXT", "SOURCE_FIELDS", "shown_number"]
