@@ -19,7 +19,8 @@ from collections.abc import Iterable, Mapping
 from typing import Any
 
 RECORD_FORMAT = "beliefledger-record"
-RECORD_VERSION = 1
+RECORD_VERSION = 2
+"""2: results carry "flags" (were "findings"); cases are schema-2 case files."""
 META_KEY = "beliefledger"
 """Key of the record inside the notebook's top-level metadata."""
 

@@ -10,7 +10,9 @@ which their title first appeared. A notebook with no such output is refused.
 
 from __future__ import annotations
 
+import copy
 from collections.abc import Mapping, Sequence
+from dataclasses import dataclass
 from typing import Any
 
 from ..case import CASE_MIMETYPE
@@ -52,22 +54,53 @@ def collect_envelopes(cells: Sequence[Mapping[str, Any]]) -> list[dict[str, Any]
     return list(latest.values())
 
 
-def collect_cases(cells: Sequence[Mapping[str, Any]]) -> list[dict[str, Any]]:
-    """Collect and validate: ``[{"title", "envelope", "cell", "case"}]``; refuses none."""
+@dataclass(frozen=True)
+class SealedCase:
+    """One case as a record keeps it: its last display in the notebook (``envelope``,
+    ``cell``), the case rebuilt from it, and every scenario's ledger computed once."""
+
+    title: str
+    envelope: Mapping[str, Any]
+    cell: int
+    case: Any
+    ledgers: Mapping[str, Any]
+
+    @property
+    def ledger(self) -> Any:
+        """The ledger under the case's active scenario."""
+        return self.ledgers[self.case.active_scenario]
+
+    @property
+    def results(self) -> dict[str, Any]:
+        """Scenario -> the ledger as JSON ('base' first): what the record seals and
+        ``verify`` recomputes."""
+        return {name: ledger.to_dict() for name, ledger in self.ledgers.items()}
+
+    def entry(self) -> dict[str, Any]:
+        """The record metadata's entry for this case."""
+        return {"title": self.title, "cell": self.cell, "envelope": copy.deepcopy(self.envelope),
+                "results": self.results}
+
+
+def collect_cases(cells: Sequence[Mapping[str, Any]]) -> list[SealedCase]:
+    """Collect, validate and compute every case the notebook shows; refuses none."""
     from ..casefile import from_envelope
+    from ..engine import update_all
     from ..errors import CaseError
 
     items = collect_envelopes(cells)
     if not items:
         raise RecordError(NO_CASE_HELP)
+    out = []
     for item in items:
         try:
-            item["case"] = from_envelope(item["envelope"],
-                                         origin=f"case {item['title']!r} shown in cell "
-                                                f"{item['cell'] + 1}")
+            case = from_envelope(item["envelope"], origin=f"case {item['title']!r} shown in "
+                                                          f"cell {item['cell'] + 1}")
         except CaseError as exc:
             raise RecordError(str(exc)) from None
-    return items
+        out.append(SealedCase(item["title"], item["envelope"], item["cell"], case,
+                              update_all(case)))
+    return out
 
 
 def register(case: Any) -> None:
@@ -90,4 +123,4 @@ def register(case: Any) -> None:
     display(case)
 
 
-__all__ = ["collect_cases", "collect_envelopes", "case_outputs", "register", "NO_CASE_HELP"]
+__all__ = ["SealedCase", "collect_cases", "collect_envelopes", "case_outputs", "register", "NO_CASE_HELP"]

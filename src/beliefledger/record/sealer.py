@@ -14,7 +14,6 @@ from __future__ import annotations
 import copy
 import json
 import sys
-import threading
 import time
 from collections.abc import Callable
 from dataclasses import dataclass
@@ -209,32 +208,22 @@ def build_record(nb: dict[str, Any], *, notebook_name: str, sealed_at: str | Non
                  ) -> dict[str, Any]:
     """Turn an executed notebook (plain JSON) into a sealed record (plain JSON)."""
     from .._version import __version__
-    from ..engine import update
     from .collect import collect_cases
     from .sections import environment, manifest_cell, record_cells
 
     nb = strip_volatile(copy.deepcopy(nb))
     cells = analyst_cells(nb)
-    cases = collect_cases(cells)
-    for item in cases:
-        case = item["case"]
-        item["ledger"] = update(case)
-        results = {"base": update(case, scenario="base").to_dict()}
-        for sname in case.scenario_names:
-            if sname != "base":
-                results[sname] = update(case, scenario=sname).to_dict()
-        item["results"] = results
+    cases = collect_cases(cells)  # every scenario of every case computed once, here
     if sealed_at is None:
         sealed_at = datetime.now(UTC).strftime("%Y-%m-%dT%H:%M:%SZ")
     header = {"format": RECORD_FORMAT, "record_version": RECORD_VERSION,
               "sealed_at": sealed_at, "tool_version": __version__,
               "notebook": notebook_name, "analyst_cells": len(cells),
-              "active_scenarios": {c["title"]: c["case"].active_scenario for c in cases},
+              "active_scenarios": {c.title: c.case.active_scenario for c in cases},
               "environment": environment()}
-    title = _first_heading(cells) or cases[0]["title"]
+    title = _first_heading(cells) or cases[0].title
     all_cells = cells + record_cells(header, cases, title)
-    case_entries = [{"title": c["title"], "cell": c["cell"], "envelope": copy.deepcopy(c["envelope"]),
-                     "results": c["results"]} for c in cases]
+    case_entries = [c.entry() for c in cases]
     case_digests = [case_digest(e) for e in case_entries]
     covered = hashed_cells(all_cells)
     cell_entries = [{"index": i, "cell_type": c["cell_type"], "sha256": cell_digest(c)}
@@ -292,11 +281,8 @@ def seal(notebook: str | Path, out: str | Path | None = None, *, force: bool = F
             raise RecordError(f"{str(p)!r} already exists; pass --force to overwrite it")
     if not target.parent.is_dir():
         raise RecordError(f"folder {str(target.parent)!r} does not exist; create it first")
-    warm = threading.Thread(target=_warm_up, name="beliefledger-seal-warm-up", daemon=True)
-    warm.start()  # the chart libraries load while the kernel runs the analyst's cells
     executed = execute(prepare(nb), cwd=src.resolve().parent, timeout=timeout,
                        kernel_name=kernel_name, progress=progress)
-    warm.join()
     record = build_record(executed, notebook_name=src.name, sealed_at=sealed_at)
     text = dumps_notebook(record)
     html_text = None
@@ -311,15 +297,6 @@ def seal(notebook: str | Path, out: str | Path | None = None, *, force: bool = F
     return SealResult(notebook=target, html=html_target, root=man["root"],
                       fingerprint=man["fingerprint"],
                       cases=tuple(c["title"] for c in man["cases"]), cells=len(record["cells"]))
-
-
-def _warm_up() -> None:
-    try:
-        import vl_convert  # noqa: F401
-
-        from .. import charts  # noqa: F401  (imports altair)
-    except ImportError:
-        pass
 
 
 def _stderr(line: str) -> None:

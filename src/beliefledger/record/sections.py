@@ -256,37 +256,26 @@ def analyses(case) -> list[tuple[str, str]]:
     return out
 
 
-def chart_svgs(ledger, case) -> tuple[list[tuple[str, str]], str | None]:
-    """(alt text, svg) for the waterfall, probability path and prior/posterior charts;
-    or an explanation when the chart layer is not installed."""
-    try:
-        from .. import charts
-    except ImportError as exc:
-        return [], f"charts not drawn: {exc}"
+def chart_svgs(ledger, ledgers) -> tuple[list[tuple[str, str]], str | None]:
+    """(alt text, svg) for the waterfall, probability path and prior/posterior figures
+    (:mod:`beliefledger.figures`: the pictures the workbench and the templates show)."""
+    from .. import figures
+
+    others = {name: other for name, other in ledgers.items() if name != ledger.scenario}
     wanted = [
         ("waterfall: how each evidence item moved belief in the MAP hypothesis",
-         "waterfall", (ledger,), {}),
-        ("probability path: each hypothesis after each step", "probability_path", (ledger,), {}),
+         lambda: figures.waterfall_figure(ledger)),
+        ("probability path: each hypothesis after each step",
+         lambda: figures.path_figure(ledger)),
+        ("prior and posterior" + (" under each scenario" if others else ""),
+         lambda: figures.prior_posterior_figure(ledger, others or None)),
     ]
-    if case.scenarios:
-        from ..engine import update
-
-        others = {name: update(case, scenario=name)
-                  for name in case.scenario_names if name != ledger.scenario}
-        wanted.append(("prior and posterior under each scenario", "prior_posterior", (ledger,),
-                       {"scenarios": others}))
-    svgs = []
-    notes = []
-    for alt, fname, args, kwargs in wanted:
-        fn = getattr(charts, fname, None)
-        if fn is None or not hasattr(charts, "to_svg"):
-            notes.append(f"{fname} not available")
-            continue
+    svgs, notes = [], []
+    for alt, draw in wanted:
         try:
-            chart = fn(*args, **kwargs)
-            svgs.append((alt, charts.to_svg(chart)))
-        except Exception as exc:  # a chart that cannot be drawn is noted, not fatal
-            notes.append(f"{fname}: {type(exc).__name__}: {exc}")
+            svgs.append((alt, draw().svg))
+        except Exception as exc:  # a figure that cannot be drawn is noted, not fatal
+            notes.append(f"{alt.split(':')[0]}: {type(exc).__name__}: {exc}")
     return svgs, ("; ".join(notes) or None)
 
 
@@ -331,7 +320,7 @@ def caution_md(cases: Sequence[Any]) -> str:
 def record_cells(header: Mapping[str, Any], cases: list[dict[str, Any]],
                  title: str) -> list[dict[str, Any]]:
     """All generated cells except the manifest, in order."""
-    objs = [c["case"] for c in cases]
+    objs = [c.case for c in cases]
     cells = [_md_cell("front-matter", front_matter_md(header, objs, title)),
              _md_cell("cautions", caution_md(objs))]
     cells.append(_md_cell("assumption-register", "## Assumption register\n\nEvery prior and "
@@ -342,15 +331,15 @@ def record_cells(header: Mapping[str, Any], cases: list[dict[str, Any]],
                                         f"{c.title!r}") for c in objs]))
     find_out, ledger_out, chart_out, analysis_out = [], [], [], []
     for item in cases:
-        case, ledger = item["case"], item["ledger"]
+        case, ledger = item.case, item.ledger
         find_out.append(html_output(f"<h3>{esc(case.title)}</h3>" + flags_html(ledger.flags),
                                     f"{len(ledger.flags)} flags for {case.title!r}"))
         body = ledger_html(ledger)
-        if len(item["results"]) > 1:
+        if len(item.ledgers) > 1:
             body += "<h4>Posterior under each prior scenario</h4>" + scenario_table_html(
-                case, item["results"])
+                case, item.results)
         ledger_out.append(html_output(body, repr(ledger)))
-        svgs, note = chart_svgs(ledger, case)
+        svgs, note = chart_svgs(ledger, item.ledgers)
         chart_out.append(html_output(f"<h3>{esc(case.title)}</h3>"
                                      + (f"<p>{esc(note)}</p>" if note else ""),
                                      case.title))

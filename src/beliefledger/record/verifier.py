@@ -242,7 +242,7 @@ def _compare_results(title: str, scen: str, old: dict[str, Any], new: dict[str, 
 def reproduce(entries: list[dict[str, Any]]) -> list[Problem]:
     """Recompute every case's results from its embedded JSON with the installed engine."""
     from ..casefile import from_envelope
-    from ..engine import update
+    from ..engine import update_all
     from ..errors import CaseError
 
     problems = []
@@ -259,18 +259,18 @@ def reproduce(entries: list[dict[str, Any]]) -> list[Problem]:
             problems.append(Problem("case-unreadable", f"case {title!r}",
                                     "the sealed results are missing"))
             continue
+        try:
+            recomputed = update_all(case)
+        except CaseError as exc:
+            problems.append(Problem("results-differ", f"case {title!r}", f"update failed: {exc}"))
+            continue
         for scen, old in results.items():
             if scen != "base" and scen not in case.scenario_names:
                 problems.append(Problem("results-differ", f"case {title!r}",
                                         f"sealed results name scenario {scen!r}, which the case "
                                         "does not have"))
                 continue
-            try:
-                new = update(case, scenario=scen).to_dict()
-            except CaseError as exc:
-                problems.append(Problem("results-differ", f"case {title!r}, scenario {scen!r}",
-                                        f"update failed: {exc}"))
-                continue
+            new = recomputed[scen].to_dict()
             if not isinstance(old, dict):
                 problems.append(Problem("results-differ", f"case {title!r}, scenario {scen!r}",
                                         "sealed results are not an object"))
