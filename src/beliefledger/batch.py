@@ -199,7 +199,7 @@ def score_rows(case: Case, rows: Any, *, chunk_size: int | None = None,
             The posterior of the MAP hypothesis (float).
         ``weak_map``
             True when ``map_probability`` is below ``weak_below``: the
-            leading hypothesis is a weak lead, worth a look before acting on
+            MAP hypothesis is a weak lead, worth a look before acting on
             it in a fleet of rows.
         ``n_observed``
             How many evidence items the row observed.

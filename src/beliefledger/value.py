@@ -319,7 +319,7 @@ def _reason(row: dict[str, Any], h_now: float, cur: str, action: str | None,
     share = f" ({info / h_now:.0%} of the {h_now:.2f} bits now)" if h_now > 0 else ""
     text = f"expected to remove {info:.3f} bits{share}"
     pm = row["p_map_changes"]
-    text += (f"; {pm:.0%} chance it displaces '{cur}' as the leading hypothesis" if pm > 0
+    text += (f"; {pm:.0%} chance it displaces '{cur}' as the MAP hypothesis" if pm > 0
              else f"; no outcome displaces '{cur}'")
     if action is not None:
         if row["evsi"] <= 0:
