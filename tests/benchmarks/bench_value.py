@@ -15,7 +15,7 @@ import pandas as pd
 from _timing import best_time
 
 import beliefledger as bl
-from beliefledger import value
+from beliefledger import decision, value
 
 N_HYP, N_OBS, N_PENDING, N_STATES, N_ACTIONS = 20, 10, 30, 3, 5
 
@@ -97,9 +97,9 @@ def bench_rank_next_evidence() -> list[dict]:
 
 def bench_decisions() -> list[dict]:
     case, loss = make_case()
-    value.set_loss_table(case, loss)
-    t_sum = best_time(lambda: value.decision_summary(case), 20)
-    t_thr = best_time(lambda: value.decision_threshold(case), 20)
+    decision.set_loss_table(case, loss)
+    t_sum = best_time(lambda: decision.decision_summary(case), 20)
+    t_thr = best_time(lambda: decision.decision_threshold(case), 20)
     return [
         {"name": "decision_summary, 20 hyp, 5 actions, 1 scenario", "value": t_sum * 1e3,
          "unit": "ms", "target": None, "ok": None, "note": ""},

@@ -11,6 +11,9 @@ only. Results go to ``tests/benchmarks/RESULTS.md`` (quoted in the README)
 and ``tests/benchmarks/results.json``. Usage::
 
     python tests/benchmarks/run.py [-k SUBSTRING]
+
+With ``-k`` only the matching benchmarks run; their rows replace the same rows
+of the last full run in the results files.
 """
 
 from __future__ import annotations
@@ -62,12 +65,18 @@ def main(argv=None) -> int:
             for r in rows:
                 r.setdefault("note", "")
                 r["module"] = path.stem
+                r["bench"] = f"{path.stem}.{fname}"
                 results.append(r)
                 flag = {True: "ok", False: "MISSED", None: "-"}[r.get("ok")]
                 val = "n/a" if r["value"] is None else f"{r['value']:.4g}"
                 print(f"   {r['name']}: {val} {r['unit']}  target {r.get('target', '-')}  "
                       f"[{flag}] {r['note']}", flush=True)
             print(f"   ({time.perf_counter() - t0:.1f} s)", flush=True)
+    if args.k and (HERE / "results.json").exists():
+        # a partial run replaces only its own rows; the others keep their last figures
+        ran = {r["bench"] for r in results}
+        old = json.loads((HERE / "results.json").read_text()).get("results", [])
+        results = [r for r in old if r.get("bench") not in ran] + results
     env = {"python": platform.python_version(), "machine": platform.machine(),
            "cpus": os.cpu_count(), "started": started}
     (HERE / "results.json").write_text(json.dumps({"environment": env, "results": results},
