@@ -137,6 +137,43 @@ def test_joint_table_accepts_a_frame_with_a_multiindex():
     np.testing.assert_allclose(case.update().posterior, ref.update().posterior, rtol=1e-12)
 
 
+def test_a_joint_frame_named_after_its_items_may_list_them_in_any_order():
+    """Defect: a flat list follows the group's member order, last member fastest, which
+    is easy to get wrong. A frame indexed by the items' names is put in order, and a
+    frame named after other things is refused saying the order."""
+    ref = two_tests(cov={"weep": 0.05, "dry": 0.10})
+    table = ref.joint_table("same sample")  # index levels: dye test, sniffer
+    swapped = table.reorder_levels(["sniffer", "dye test"]).sort_index()
+    case = two_tests()
+    case.add_joint_group("same sample", ["dye test", "sniffer"], joint=swapped)
+    np.testing.assert_allclose(case.joint_table("same sample").to_numpy(), table.to_numpy())
+    bad = table.copy()
+    bad.index = bad.index.set_names(["first", "second"])
+    with pytest.raises(CaseError, match=r"name the index levels after the group's items.*"
+                                        r"last item's state varying fastest"):
+        two_tests().add_joint_group("same sample", ["dye test", "sniffer"], joint=bad)
+    with pytest.raises(CaseError, match=r"3 values for 4 combined states; combined states are "
+                                        r"tuples of the states of \['dye test', 'sniffer'\]"):
+        two_tests().add_joint_group("same sample", ["dye test", "sniffer"],
+                                    joint={"weep": [0.5, 0.2, 0.3], "dry": [0.25] * 4})
+
+
+def test_a_covariance_at_its_bound_gives_an_exact_zero_cell():
+    """Defect: at a feasible bound one joint cell is exactly 0, but rounding left about
+    1e-17, so impossible evidence became merely unlikely."""
+    case = two_tests(observed=("neg", "neg"))
+    # under 'weep' the lower bound is -P(neg)P(neg) = -(0.1 x 0.2); typed as -0.02 it is
+    # 4e-18 away from the product 0.1 * 0.2 = 0.020000000000000004 in floating point
+    assert 0.1 * 0.2 - 0.02 > 0
+    case.add_joint_group("same sample", ["dye test", "sniffer"],
+                         covariance={"weep": -0.02, "dry": 0.0})
+    cells = case.joint_table("same sample")["weep"]
+    assert (cells == 0.0).sum() == 1  # exactly zero, not 1e-17
+    assert cells.loc[("neg", "neg")] == 0.0  # P(neg)P(neg) = 0.02 < 0.72: that cell vanishes
+    ledger = case.update()
+    assert ledger.posterior["weep"] == 0.0 and "weep" in ledger.eliminated
+
+
 def test_three_item_table_group_partial_observation():
     case = bl.Case("t", hypotheses={"A": 0.5, "B": 0.5}, exhaustive=True)
     for n, (a, b) in {"x": (0.6, 0.3), "y": (0.7, 0.2), "z": (0.5, 0.4)}.items():

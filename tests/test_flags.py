@@ -80,6 +80,8 @@ def test_dominant_evidence():
                       observed="x")
     (f,) = [f for f in case.update().flags if f.code == "dominant-evidence"]
     assert "'strong'" in f.message and "%" in f.message
+    # it says its threshold, since near that share it can come and go between scenarios
+    assert "raised above 50%" in f.message
 
 
 def test_shared_source_needs_two_observed_items():
@@ -116,3 +118,17 @@ def test_all_zero_priors_give_an_error_not_nan():
     ledger = case.update()
     assert not ledger.posterior.isna().any()
     assert ledger.flags[0].code == "prior-sum" and "All priors" in ledger.flags[0].message
+
+
+def test_an_uncertainty_range_without_a_source_is_flagged(small_case):
+    for e in ("E1", "E2"):
+        small_case.set_likelihood(e, "H1", [0.9, 0.1] if e == "E1" else [0.3, 0.7],
+                                  source="invented test data")
+    small_case.set_hypothesis("H1", source="invented")
+    bl.set_likelihood_uncertainty(small_case, "E1", "H1", low=0.8, high=0.95)
+    flags = [f for f in small_case.update().flags if f.code == "unsourced"]
+    assert any(f.where == "likelihood uncertainty" and "'E1' under 'H1'" in f.message
+               for f in flags)
+    bl.set_likelihood_uncertainty(small_case, "E1", "H1", low=0.8, high=0.95,
+                                  source="vendor spread, invented")
+    assert not any(f.where == "likelihood uncertainty" for f in small_case.update().flags)
