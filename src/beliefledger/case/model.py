@@ -170,7 +170,7 @@ class Case:
     @property
     def base_priors(self) -> pd.Series:
         """The hypothesis table's own priors (the 'base' scenario)."""
-        return pd.Series({n: h.prior for n, h in self._hyps.items()}, name="prior", dtype=float)
+        return self.scenario_priors(BASE_SCENARIO)
 
     @property
     def scenarios(self) -> dict[str, Scenario]:
@@ -201,11 +201,8 @@ class Case:
         return np.fromiter((sc.priors[h] for h in self._hyps), float, len(self._hyps))
 
     def scenario_priors(self, name: str) -> pd.Series:
-        if name == BASE_SCENARIO:
-            return self.base_priors
-        sc = self.prior_scenario(name)
-        return pd.Series([sc.priors[h] for h in self._hyps], index=list(self._hyps),
-                         name="prior", dtype=float)
+        """The priors of scenario ``name`` as a Series indexed by hypothesis."""
+        return pd.Series(self.prior_array(name), index=list(self._hyps), name="prior")
 
     @property
     def observed_evidence(self) -> list[Evidence]:
