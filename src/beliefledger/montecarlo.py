@@ -28,6 +28,7 @@ import pandas as pd
 
 from ._checks import check_draws, check_level
 from ._logmath import log_of
+from .calls import ANALYSIS_MIMETYPE, Call
 from .errors import CaseError
 from .uncertainty import current_uncertainty
 
@@ -338,7 +339,7 @@ class SimulationResult:
                  base_posterior: pd.Series, base_map: str, seed: int, draws: int, level: float,
                  inputs: list[str], seconds: float,
                  methods: dict[str, str] | None = None,
-                 notes: list[str] | None = None) -> None:
+                 notes: list[str] | None = None, call: Call | None = None) -> None:
         self.title = title
         self.scenario = scenario
         self.hypotheses = hypotheses
@@ -353,6 +354,8 @@ class SimulationResult:
         self.seconds = seconds
         self.methods = dict(methods or {})
         self.notes = list(notes or [])
+        self.call = call
+        """The settings that redo this run (:class:`beliefledger.calls.Call`)."""
         defined = ~np.isnan(samples[:, 0])
         self.undefined = int(np.sum(~defined))
         ok = samples if self.undefined == 0 else samples[defined]
@@ -430,6 +433,11 @@ class SimulationResult:
         from .display import simulation_html
 
         return simulation_html(self)
+
+    def _repr_mimebundle_(self, include=None, exclude=None) -> dict[str, Any]:
+        # the HTML and text forms come from the methods above; this adds the settings
+        # a record reuses (seed, draws ...), see beliefledger.calls
+        return {ANALYSIS_MIMETYPE: self.call.bundle()} if self.call is not None else {}
 
 
 def _seed(seed: Any) -> int:
@@ -563,7 +571,10 @@ def simulate(case: Case, draws: int = 100_000, seed: int | None = None, *, level
                             methods=plan.methods, notes=plan.notes,
                             samples=out.T, base_posterior=ledger.posterior,
                             base_map=ledger.map_hypothesis, seed=sd, draws=n, level=lv,
-                            inputs=plan.inputs, seconds=time.perf_counter() - t0)
+                            inputs=plan.inputs, seconds=time.perf_counter() - t0,
+                            call=Call.of("simulate", case, {
+                                "draws": n, "seed": sd, "level": lv, "scenario": sc,
+                                "chunk": chunk, "method": method}))
 
 
 __all__ = ["simulate", "SimulationResult", "LogBetaSum", "DEFAULT_CHUNK", "METHODS"]

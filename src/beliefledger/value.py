@@ -38,6 +38,7 @@ import numpy as np
 import pandas as pd
 
 from ._checks import check_number
+from .calls import ANALYSIS_MIMETYPE, Call
 from .case.extras import LOSS_TABLE
 from .decision import posterior_array, resolve_losses
 from .errors import CaseError, CaseTypeError
@@ -48,6 +49,22 @@ if TYPE_CHECKING:
 MAP_TOL = 1e-12
 """A posterior must beat the current MAP hypothesis by more than this to count as a change."""
 CRITERIA = ("expected_entropy_reduction", "p_map_changes", "evsi", "net_value")
+
+
+class Ranking(pd.DataFrame):
+    """The table :func:`rank_next_evidence` returns: a DataFrame that also keeps the call
+    that made it (``.call``), so a sealed record ranks with the same costs and criterion.
+    Selections and sorts of it keep the call; everything else is a plain DataFrame."""
+
+    _metadata = ["call"]
+
+    @property
+    def _constructor(self):
+        return Ranking
+
+    def _repr_mimebundle_(self, include=None, exclude=None) -> dict[str, Any]:
+        call = getattr(self, "call", None)
+        return {ANALYSIS_MIMETYPE: call.bundle()} if call is not None else {}
 
 
 def evpi(case: Case, loss: Any = None, *, kind: str = "loss",
@@ -230,6 +247,7 @@ def rank_next_evidence(case: Case, loss: Any = None, *, kind: str = "loss",
     Raiffa & Schlaifer (1961) (EVSI).
     """
     names = _pending(case, evidence)
+    given_evidence = None if evidence is None else list(names)
     losses = actions = None
     use_loss = loss is not None or LOSS_TABLE in case.extras
     if use_loss:
@@ -266,8 +284,19 @@ def rank_next_evidence(case: Case, loss: Any = None, *, kind: str = "loss",
     if use_loss:
         cols += ["evsi", "cost", "net_value"]
     cols.append("reason")
+    settings = {"kind": kind, "by": by, "scenario": scenario, "evidence": given_evidence,
+                "cost": None if cost is None else {n: float(c) for n, c in zip(names, costs,
+                                                                               strict=True)
+                                                   if n in cmap},
+                "loss": None if loss is None else {
+                    a: {h: float(-v if kind == "payoff" else v) + 0.0
+                        for h, v in zip(case.hypothesis_names, row, strict=True)}
+                    for a, row in zip(actions, losses, strict=True)}}
+    call = Call.of("rank_next_evidence", case, settings)
     if not names:
-        return pd.DataFrame(columns=cols, index=pd.Index([], name="evidence"))
+        out = Ranking(columns=cols, index=pd.Index([], name="evidence"))
+        out.call = call
+        return out
     p = posterior_array(case, scenario)
     res = _voi(_stack(case, names), p, losses)
     hyps = case.hypothesis_names
@@ -307,7 +336,9 @@ def rank_next_evidence(case: Case, loss: Any = None, *, kind: str = "loss",
     for c in cols[1:]:
         v = columns[c]
         data[c] = v[order] if isinstance(v, np.ndarray) else [v[i] for i in order]
-    return pd.DataFrame(data, index=pd.Index([names[i] for i in order], name="evidence"))
+    out = Ranking(data, index=pd.Index([names[i] for i in order], name="evidence"))
+    out.call = call
+    return out
 
 
 def _reason(row: dict[str, Any], h_now: float, cur: str, action: str | None,
@@ -332,5 +363,5 @@ def _reason(row: dict[str, Any], h_now: float, cur: str, action: str | None,
     return text
 
 
-__all__ = ["evpi", "evsi", "predictive", "preposterior", "rank_next_evidence", "CRITERIA",
+__all__ = ["evpi", "evsi", "predictive", "preposterior", "rank_next_evidence", "Ranking", "CRITERIA",
            "MAP_TOL"]
