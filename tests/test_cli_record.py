@@ -11,6 +11,7 @@ import pytest
 import beliefledger as bl
 from beliefledger.cli import main
 from beliefledger.record.sealer import build_record, dumps_notebook
+from beliefledger.record.sections import FRONT_CELLS as F
 from test_record import executed_notebook, meta_of, reseal_hashes
 
 
@@ -43,10 +44,10 @@ def edit_file(path, fn):
 def test_verify_exit_codes(rec, tmp_path, capsys):
     assert main(["verify", str(rec)]) == 0
     assert "INTACT and reproducible" in capsys.readouterr().out
-    edit_file(rec, lambda nb: nb["cells"][1].update(source="tampered"))
+    edit_file(rec, lambda nb: nb["cells"][F + 1].update(source="tampered"))
     assert main(["verify", str(rec)]) == 1
     out = capsys.readouterr().out
-    assert "NOT INTACT" in out and "cell 2 (code, 'tampered')" in out
+    assert "NOT INTACT" in out and f"cell {F + 2} (code, 'tampered')" in out
     bad = tmp_path / "bad.ipynb"
     bad.write_bytes(b"\x89PNG\r\n")
     assert main(["verify", str(bad)]) == 2
@@ -55,12 +56,12 @@ def test_verify_exit_codes(rec, tmp_path, capsys):
 
 
 def test_verify_json_report_lists_each_problem_with_where(rec, capsys):
-    edit_file(rec, lambda nb: nb["cells"].pop(1))
+    edit_file(rec, lambda nb: nb["cells"].pop(F + 1))
     assert main(["verify", str(rec), "--json"]) == 1
     report = json.loads(capsys.readouterr().out)
     assert report["ok"] is False and report["intact"] is False
     assert report["tolerance"] == 1e-9
-    assert {"code": "cell-removed", "where": "sealed cell 2 (code)",
+    assert {"code": "cell-removed", "where": f"sealed cell {F + 2} (code)",
             "detail": "is missing from the notebook"} in report["problems"]
 
 
@@ -113,7 +114,7 @@ def test_signature_defeats_a_forger_who_recomputes_the_digests(rec, tmp_path, ca
     assert "Ed25519 signature over the current root digest checks" in capsys.readouterr().out
     # the forger edits an output, recomputes every digest, keeps the old sign-off
     nb = json.loads(rec.read_text(encoding="utf-8"))
-    nb["cells"][1]["outputs"][0]["data"]["text/plain"] = "a different case"
+    nb["cells"][F + 1]["outputs"][0]["data"]["text/plain"] = "a different case"
     forged = reseal_hashes(nb)
     rec.write_text(dumps_notebook(forged), encoding="utf-8")
     assert main(["verify", str(rec), "--json", "--public-key", pub]) == 1

@@ -36,7 +36,7 @@ def test_decision_summary_covers_every_scenario():
     case = three_cause_case()
     case.observe("T", "yes")
     case.add_scenario("wide", {"A": 0.2, "B": 0.2, "C": 0.6}, source="invented")
-    decision.set_loss_table(case, LOSS3)
+    decision.set_loss_table(case, LOSS3, units="k$")
     s = decision.decision_summary(case)
     assert list(s.index) == ["base", "wide"]
     for sc in s.index:
@@ -75,7 +75,7 @@ def test_loss_table_round_trip_and_hypothesis_edits():
 
 def test_bad_loss_tables_are_refused_and_the_case_is_unchanged():
     case = three_cause_case()
-    decision.set_loss_table(case, LOSS3)
+    decision.set_loss_table(case, LOSS3, units="k$")
     before = dumps(case)
     with pytest.raises(CaseError, match=r"no value for action 'a1' under hypothesis\(es\) "
                                         r"\['C'\]"):

@@ -21,13 +21,19 @@ from beliefledger.errors import RecordError
 from beliefledger.record import canonical
 from beliefledger.record.html import clean_html, inline_svg, render_html
 from beliefledger.record.sealer import build_record, case_digest, dumps_notebook
+from beliefledger.record.sections import FRONT_CELLS as F
 from beliefledger.record.verifier import RESULT_TOL, verify, verify_notebook
 
 SEALED_AT = "2026-11-30T08:00:00Z"
 
 
 def _display(obj) -> dict:
-    return {"output_type": "display_data", "metadata": {}, "data": obj._repr_mimebundle_()}
+    """The output a kernel records for ``obj``: IPython's own formatter, so every form
+    (``_repr_mimebundle_`` and the ``_repr_*_`` methods) is there as in a notebook."""
+    from IPython.core.formatters import DisplayFormatter
+
+    data, _ = DisplayFormatter().format(obj)
+    return {"output_type": "display_data", "metadata": {}, "data": json.loads(json.dumps(data))}
 
 
 def executed_notebook(*cases, extra_cells=()) -> dict:
@@ -160,30 +166,41 @@ def test_record_keeps_cells_and_adds_every_section(record):
                  "charts", "environment", "manifest"):
         assert name in sections
     assert canonical.cell_role(record["cells"][-1]) == canonical.MANIFEST_ROLE
-    front = "".join(record["cells"][4]["source"])
+    front = "".join(record["cells"][0]["source"])
     assert "Sealed at:** 2026-11-30T08:00:00Z" in front
     assert f"beliefledger {bl.__version__}" in front
-    assert "R. Okafor" in front and "Which failure best explains" in front
+    assert "R. Okafor" in front
+    assert sections[:5] == ["front-matter", "summary", "summary", "cautions", "notebook"]
+    summary = record["cells"][2]["outputs"][0]["data"]["text/html"]
+    assert "Which failure best explains" in summary
     text = json.dumps(record)
     assert "does not replace it" in text
     assert "Local codes, regulations and the judgement of licensed professionals prevail" in text
 
 
 def test_assumption_register_lists_every_prior_and_likelihood_with_its_source(record):
+    """Compact: one priors table (hypotheses x scenarios) and one matrix per item (states x
+    hypotheses); each source once, and every number present."""
     case = bl.example_case()
     reg = next(c for c in record["cells"] if canonical.cell_role(c)
                and c["metadata"]["beliefledger"]["section"] == "assumption-register"
                and c["cell_type"] == "code")
     html_text = reg["outputs"][0]["data"]["text/html"]
-    n_priors = len(case.hypothesis_names) * (1 + len(case.scenarios))
-    n_entries = sum(len(ev.states) * len(case.hypothesis_names) for ev in case.evidence.values())
-    tables = html_text.split("<table")
-    prior_rows = tables[1].count("<tr>") - 1
-    entry_rows = tables[2].count("<tr>") - 1
-    assert prior_rows == n_priors
-    assert entry_rows == n_entries
-    assert "tell-tale disc maker" in tables[2] and "J. Varga" in tables[2]
-    assert "trade association incident summary" in tables[1]
+    tables = html_text.split("<table")[1:]
+    priors = tables[0].split("</table>")[0]
+    assert priors.count("<tr>") - 1 == len(case.hypothesis_names)
+    for sc in case.scenarios.values():
+        assert sc.name in priors
+        for h in case.hypothesis_names:
+            assert f"<td>{float(sc.priors[h]):.6g}</td>" in priors
+    for k, ev in enumerate(case.evidence.values()):
+        mat = tables[1 + k].split("</table>")[0]
+        assert mat.count("<tr") - 1 == len(ev.states), ev.name
+        for i in range(len(ev.states)):
+            for j in range(len(ev.hypotheses)):
+                assert f"{float(ev.table[i, j]):.6g}" in mat
+    assert html_text.count("tell-tale disc maker") == 1  # the item's source, stated once
+    assert "J. Varga" in html_text and "trade association incident summary" in html_text
 
 
 def test_volatile_metadata_and_live_widgets_are_stripped(record):
@@ -224,7 +241,7 @@ def test_last_display_of_each_case_wins(no_charts):
     assert [e["title"] for e in entries] == [early.title, "Second case"]
     ev = {e["name"]: e for e in entries[0]["envelope"]["case"]["evidence"]}
     assert ev["suction pressure trend"]["observed"] == "steady"
-    assert entries[0]["cell"] == 3
+    assert entries[0]["cell"] == F + 3  # a position in the record, whose front comes first
 
 
 def test_a_notebook_with_no_case_is_refused_with_the_fix(no_charts):
@@ -283,14 +300,17 @@ def test_verify_imports_neither_nbclient_nor_altair(record_path):
 
 
 @pytest.mark.parametrize("edit, kind, where", [
-    (lambda nb: nb["cells"][1].update(source="case1 = build()\ncase1  # edited"),
-     "cell-changed", "cell 2"),
-    (lambda nb: nb["cells"][2]["outputs"][0].update(text=["goodbye\n"]), "cell-changed",
-     "cell 3"),
-    (lambda nb: nb["cells"].pop(2), "cell-removed", "sealed cell 3"),
-    (lambda nb: nb["cells"].insert(3, {"cell_type": "markdown", "metadata": {},
-                                       "source": "added later"}), "cell-added", "cell 4"),
-    (lambda nb: nb["cells"].insert(2, nb["cells"].pop(3)), "cell-moved", "cell"),
+    (lambda nb: nb["cells"][F + 1].update(source="case1 = build()\ncase1  # edited"),
+     "cell-changed", f"cell {F + 2}"),
+    (lambda nb: nb["cells"][F + 2]["outputs"][0].update(text=["goodbye\n"]), "cell-changed",
+     f"cell {F + 3}"),
+    (lambda nb: nb["cells"].pop(F + 2), "cell-removed", f"sealed cell {F + 3}"),
+    (lambda nb: nb["cells"].insert(F + 3, {"cell_type": "markdown", "metadata": {},
+                                           "source": "added later"}), "cell-added",
+     f"cell {F + 4}"),
+    (lambda nb: nb["cells"].insert(F + 2, nb["cells"].pop(F + 3)), "cell-moved", "cell"),
+    (lambda nb: nb["cells"][2]["outputs"][0]["data"].update({"text/html": "<p>MAP: other</p>"}),
+     "cell-changed", "cell 3"),
     (lambda nb: meta_of(nb)["header"].update(sealed_at="2026-12-24T00:00:00Z"),
      "header-changed", "record header"),
 ])
@@ -306,7 +326,7 @@ def test_each_kind_of_edit_is_reported_where_it_happened(record, edit, kind, whe
 
 def test_swapped_cells_are_reported_as_moved_not_changed(record):
     nb = copy.deepcopy(record)
-    nb["cells"][2], nb["cells"][3] = nb["cells"][3], nb["cells"][2]
+    nb["cells"][F + 2], nb["cells"][F + 3] = nb["cells"][F + 3], nb["cells"][F + 2]
     res = verify_notebook(nb, meta_of(nb))
     assert kinds(res) == ["cell-moved"], res.text()
 
@@ -323,7 +343,7 @@ def test_forged_record_with_recomputed_digests_fails_the_fingerprint(record):
     """Hashes alone cannot stop someone who recomputes them; the quoted fingerprint does."""
     original_fp = meta_of(record)["manifest"]["fingerprint"]
     nb = copy.deepcopy(record)
-    nb["cells"][2]["outputs"][0]["text"] = ["a different story\n"]
+    nb["cells"][F + 2]["outputs"][0]["text"] = ["a different story\n"]
     forged = reseal_hashes(nb)
     res = verify_notebook(forged, meta_of(forged))
     assert res.ok, res.text()  # digests alone are satisfied: say so plainly
@@ -488,17 +508,17 @@ def test_analyses_are_included_when_the_case_has_their_inputs(record):
     if importlib.util.find_spec("beliefledger.sensitivity"):
         assert "Robustness across prior scenarios" in text
     if importlib.util.find_spec("beliefledger.value"):
-        assert "Value of information: which evidence to examine next" in text
+        assert "Value of information: which pending item to examine next" in text
         assert "suction pressure trend" in text
 
 
 def test_a_failing_analysis_is_noted_not_fatal(monkeypatch, no_charts):
-    from beliefledger.record import sections
+    from beliefledger.record import analyses
 
-    def boom(case):
+    def boom(case, **kw):
         raise RuntimeError("solver diverged")
 
-    monkeypatch.setattr(sections, "_optional", lambda mods, fname: boom)
+    monkeypatch.setattr(analyses.value, "rank_next_evidence", boom)
     rec = build_record(executed_notebook(bl.example_case()), notebook_name="t.ipynb",
                        sealed_at=SEALED_AT)
     assert "Not computed: RuntimeError: solver diverged" in json.dumps(rec)
@@ -513,7 +533,7 @@ def test_uncertainty_and_simulation_sections_are_seeded_and_stable(no_charts):
     a = build_record(executed_notebook(case), notebook_name="t.ipynb", sealed_at=SEALED_AT)
     b = build_record(executed_notebook(case), notebook_name="t.ipynb", sealed_at=SEALED_AT)
     text = json.dumps(a)
-    assert "Uncertainty register" in text and "Monte Carlo over uncertain inputs" in text
+    assert "Uncertainty on the inputs" in text and "Monte Carlo over uncertain inputs" in text
     assert "seed 20261201" in text
     assert dumps_notebook(a) == dumps_notebook(b)
     assert verify_notebook(a, meta_of(a)).ok
@@ -573,9 +593,9 @@ def test_a_workbench_output_is_kept_as_static_html_and_its_case_collected(no_cha
     nb = executed_notebook(bl.example_case(), extra_cells=[
         ("bl.Workbench(case)", [{"output_type": "display_data", "metadata": {}, "data": bundle}])])
     rec = build_record(nb, notebook_name="t.ipynb", sealed_at=SEALED_AT)
-    out = rec["cells"][2]["outputs"][0]["data"]
+    out = rec["cells"][F + 2]["outputs"][0]["data"]
     assert "application/vnd.jupyter.widget-view+json" not in out
     assert out["text/html"] == "<div class='wb'>static view</div>"
     (entry,) = meta_of(rec)["cases"]
-    assert entry["cell"] == 2  # the workbench's display is the last one of the case
+    assert entry["cell"] == F + 2  # the workbench's display is the last one of the case
     assert "static view" in render_html(rec)

@@ -234,3 +234,17 @@ def test_tornado_uses_given_and_stated_ranges(small_case):
         bl.tornado(small_case, ranges={("E3", "H1"): (0.1, 0.9)})
 
 
+
+
+def test_break_even_prior_with_no_evidence_observed_is_the_rivals_prior():
+    """Defect found sealing a case with nothing observed: the break-even prior raised an
+    IndexError. With no evidence the Bayes factor is 1, so the MAP and its rival are equal
+    when x / (r (1 - x) / (1 - p)) = 1 (the formula in the docstring, by hand)."""
+    case = bl.Case("Nothing seen yet (invented)", hypotheses={"a": 0.5, "b": 0.3, "Other": 0.2})
+    case.add_evidence("e", states=["yes", "no"], likelihoods={"a": [0.9, 0.1], "b": [0.2, 0.8],
+                                                             "Other": [0.5, 0.5]})
+    be = bl.break_even_prior(case, "a")
+    p, r = 0.5, 0.3
+    c = r / (1 - p)
+    assert be.against == "b"
+    assert be.prior == pytest.approx(c / (1 + c), rel=1e-12)

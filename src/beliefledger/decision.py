@@ -18,6 +18,7 @@ Harvard (Bayes actions, expected loss).
 
 from __future__ import annotations
 
+import warnings
 from collections.abc import Mapping
 from typing import TYPE_CHECKING, Any
 
@@ -47,7 +48,9 @@ def set_loss_table(case: Case, table: Any, *, kind: str = "loss", source: Any = 
     source : Source, str or dict
         Where the figures came from.
     units : str
-        Their unit (e.g. "kEUR", "hours of downtime").
+        Their unit (e.g. "kEUR", "hours of downtime"). Without one a warning asks for
+        it, a review flag (``loss-unit-missing``) says so and records show "unit not
+        given".
     note : str
 
     Examples
@@ -65,6 +68,11 @@ def set_loss_table(case: Case, table: Any, *, kind: str = "loss", source: Any = 
     kind = check_loss_kind(kind)
     rows = check_loss_rows(loss_rows(table), case, kind)
     src = Source.coerce(source, what="source of the loss table")
+    units = str(units or "").strip()
+    if not units:
+        warnings.warn("the loss table has no unit: pass units='kEUR' (or 'hours of downtime', "
+                      "whatever its figures are in) so readers of the record know what they "
+                      "mean; it is stored as 'unit not given'", UserWarning, stacklevel=2)
     case.set_extra(LOSS_TABLE, {"kind": kind, "table": rows, "units": units,
                                   "source": src.to_dict(), "note": note})
 
@@ -182,7 +190,7 @@ def decision_threshold(case: Case, loss: Any = None, *, kind: str = "loss",
     >>> case = bl.Case("Tank alarm", hypotheses={"leak": 0.2, "no leak": 0.8},
     ...                exhaustive=True)
     >>> bl.set_loss_table(case, {"drain tank": {"leak": 1, "no leak": 5},
-    ...                          "carry on": {"leak": 21, "no leak": 0}})
+    ...                          "carry on": {"leak": 21, "no leak": 0}}, units="k$")
     >>> t = bl.decision_threshold(case, hypothesis="leak")
     >>> [(round(a, 6), act) for a, act in zip(t["from_probability"], t["action"])]
     [(0.0, 'carry on'), (0.2, 'drain tank')]

@@ -328,6 +328,16 @@ def _check_map_vs_ml(case: Case, ledger: Ledger) -> Iterator[Flag]:
                    "care.", f"hypothesis '{mp}'")
 
 
+def _check_loss_unit(case: Case, ledger: Ledger) -> Iterator[Flag]:
+    sec = case.extras.get("loss_table")
+    if sec is not None and not str(sec.get("units") or "").strip():
+        yield Flag("loss-unit-missing", "info",
+                   "The loss table has no unit, so its figures (and any value of information "
+                   "in its terms) cannot be read as money, hours or anything else. Set one with "
+                   "bl.set_loss_table(case, table, units='kEUR') (or the unit it is in).",
+                   "loss table")
+
+
 CHECKS = [
     _check_prior_sum,
     _check_impossible,
@@ -341,6 +351,7 @@ CHECKS = [
     _check_catch_all,
     _check_no_evidence,
     _check_map_vs_ml,
+    _check_loss_unit,
 ]
 
 _RANK = {s: i for i, s in enumerate(SEVERITIES)}

@@ -104,3 +104,11 @@ def dumps(record: dict[str, Any]) -> str:
     from beliefledger.record.nbio import dumps_notebook
 
     return dumps_notebook(record)
+
+
+def analyst_index(nb: dict[str, Any], k: int) -> int:
+    """Position in the record of the analyst's ``k``-th cell (0-based): the record puts
+    its front matter and summary before the analyst's cells."""
+    from beliefledger.record.canonical import cell_role
+
+    return [i for i, c in enumerate(nb["cells"]) if cell_role(c) is None][k]

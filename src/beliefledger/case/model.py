@@ -255,6 +255,8 @@ class Case:
     def observed_log_likelihoods(self) -> tuple[list[str], np.ndarray]:
         """Step names and ln P(observed | H) per step as a steps x hypotheses array."""
         steps = self.observed_log_steps()
+        if not steps.rows:  # no observed evidence: zero steps, one column per hypothesis
+            return [], np.zeros((0, len(self.hypothesis_names)))
         return steps.names, steps.stacked()
 
     def predictive_table(self, name: str) -> np.ndarray:

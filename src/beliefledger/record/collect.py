@@ -12,10 +12,12 @@ from __future__ import annotations
 
 import copy
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Any
 
+from ..calls import ANALYSIS_MIMETYPE, Call
 from ..case import CASE_MIMETYPE
+from .canonical import cell_role, join_text
 from .nbio import RecordError
 
 NO_CASE_HELP = (
@@ -24,12 +26,19 @@ NO_CASE_HELP = (
     "notebook shows the final state of every case it works on; then seal again")
 
 
-def case_outputs(cells: Sequence[Mapping[str, Any]]) -> list[tuple[int, Any]]:
+def _analyst_code(cells: Sequence[Mapping[str, Any]], offset: int):
+    """(index, cell) of the analyst's code cells (generated record cells skipped); the
+    index is the cell's position in the record when the list is the analyst's cells
+    alone and ``offset`` the number of generated cells before them."""
+    for i, cell in enumerate(cells):
+        if cell.get("cell_type") == "code" and cell_role(cell) is None:
+            yield i + offset, cell
+
+
+def case_outputs(cells: Sequence[Mapping[str, Any]], offset: int = 0) -> list[tuple[int, Any]]:
     """(cell index, envelope) for every case bundle in the outputs, in order."""
     found = []
-    for i, cell in enumerate(cells):
-        if cell.get("cell_type") != "code":
-            continue
+    for i, cell in _analyst_code(cells, offset):
         for out in cell.get("outputs", []) or []:
             data = out.get("data") if isinstance(out, Mapping) else None
             if isinstance(data, Mapping) and CASE_MIMETYPE in data:
@@ -37,10 +46,11 @@ def case_outputs(cells: Sequence[Mapping[str, Any]]) -> list[tuple[int, Any]]:
     return found
 
 
-def collect_envelopes(cells: Sequence[Mapping[str, Any]]) -> list[dict[str, Any]]:
+def collect_envelopes(cells: Sequence[Mapping[str, Any]], offset: int = 0
+                      ) -> list[dict[str, Any]]:
     """The final envelope of each case: ``[{"title", "envelope", "cell"}]`` (no validation)."""
     latest: dict[str, dict[str, Any]] = {}
-    for i, env in case_outputs(cells):
+    for i, env in case_outputs(cells, offset):
         title = None
         if isinstance(env, Mapping) and isinstance(env.get("case"), Mapping):
             title = env["case"].get("title")
@@ -55,6 +65,33 @@ def collect_envelopes(cells: Sequence[Mapping[str, Any]]) -> list[dict[str, Any]
 
 
 @dataclass(frozen=True)
+class ShownCall:
+    """An analysis call a cell output shows: the call, the cell (0-based position in the
+    record) and the output's HTML as shown (what a record quotes)."""
+
+    call: Call
+    cell: int
+    html: str
+
+
+def analysis_calls(cells: Sequence[Mapping[str, Any]], offset: int = 0
+                   ) -> dict[tuple[str, str], ShownCall]:
+    """(case title, kind) -> the last call of that kind shown for that case."""
+    found: dict[tuple[str, str], ShownCall] = {}
+    for i, cell in _analyst_code(cells, offset):
+        for out in cell.get("outputs", []) or []:
+            data = out.get("data") if isinstance(out, Mapping) else None
+            if not isinstance(data, Mapping) or ANALYSIS_MIMETYPE not in data:
+                continue
+            call = Call.from_bundle(data[ANALYSIS_MIMETYPE])
+            if call is not None:
+                found[(call.title, call.kind)] = ShownCall(
+                    call, i, join_text(data.get("text/html", "")) or
+                    f"<pre>{join_text(data.get('text/plain', ''))}</pre>")
+    return found
+
+
+@dataclass(frozen=True)
 class SealedCase:
     """One case as a record keeps it: its last display in the notebook (``envelope``,
     ``cell``), the case rebuilt from it, and every scenario's ledger computed once."""
@@ -64,6 +101,8 @@ class SealedCase:
     cell: int
     case: Any
     ledgers: Mapping[str, Any]
+    calls: Mapping[str, ShownCall] = field(default_factory=dict)
+    """Analysis kind -> the analyst's last call of it for this case (see calls.py)."""
 
     @property
     def ledger(self) -> Any:
@@ -82,15 +121,17 @@ class SealedCase:
                 "results": self.results}
 
 
-def collect_cases(cells: Sequence[Mapping[str, Any]]) -> list[SealedCase]:
-    """Collect, validate and compute every case the notebook shows; refuses none."""
+def collect_cases(cells: Sequence[Mapping[str, Any]], offset: int = 0) -> list[SealedCase]:
+    """Collect, validate and compute every case the notebook shows; refuses none.
+    ``offset``: the number of generated cells the record puts before these."""
     from ..casefile import from_envelope
     from ..engine import update_all
     from ..errors import CaseError
 
-    items = collect_envelopes(cells)
+    items = collect_envelopes(cells, offset)
     if not items:
         raise RecordError(NO_CASE_HELP)
+    shown = analysis_calls(cells, offset)
     out = []
     for item in items:
         try:
@@ -98,8 +139,9 @@ def collect_cases(cells: Sequence[Mapping[str, Any]]) -> list[SealedCase]:
                                                           f"cell {item['cell'] + 1}")
         except CaseError as exc:
             raise RecordError(str(exc)) from None
+        calls = {kind: sc for (title, kind), sc in shown.items() if title == item["title"]}
         out.append(SealedCase(item["title"], item["envelope"], item["cell"], case,
-                              update_all(case)))
+                              update_all(case), calls))
     return out
 
 
@@ -123,4 +165,4 @@ def register(case: Any) -> None:
     display(case)
 
 
-__all__ = ["SealedCase", "collect_cases", "collect_envelopes", "case_outputs", "register", "NO_CASE_HELP"]
+__all__ = ["SealedCase", "ShownCall", "analysis_calls", "collect_cases", "collect_envelopes", "case_outputs", "register", "NO_CASE_HELP"]

@@ -200,12 +200,26 @@ def render_output(out: dict[str, Any]) -> str:
     return f'<p class="bl-missing">[output of type {esc(kinds)} not shown in the static copy]</p>'
 
 
+_HEADING = re.compile(r"<h([1-6])>(.*?)</h\1>", re.DOTALL)
+_TAGS = re.compile(r"<[^>]+>")
+
+
+def _heading_ids(html_text: str) -> str:
+    """Give each heading the anchor JupyterLab gives it (its text, spaces as hyphens), so
+    a link such as ``[Ledger](#Ledger)`` works in the copy as in the notebook."""
+    def add(m: re.Match) -> str:
+        text = _html.unescape(_TAGS.sub("", m.group(2))).strip().replace(" ", "-")
+        return f'<h{m.group(1)} id="{_html.escape(text, quote=True)}">{m.group(2)}</h{m.group(1)}>'
+    return _HEADING.sub(add, html_text)
+
+
 def markdown_html(text: str) -> str:
-    """Markdown to HTML with raw HTML escaped and then sanitised (no external images)."""
+    """Markdown to HTML with raw HTML escaped and then sanitised (no external images);
+    headings carry Jupyter's anchors."""
     import mistune
 
     md = mistune.create_markdown(escape=True, plugins=["table", "strikethrough"])
-    return clean_html(md(text))
+    return _heading_ids(clean_html(md(text)))
 
 
 def _css() -> str:
@@ -234,26 +248,28 @@ def render_html(nb: dict[str, Any]) -> str:
     header = meta.get("header") or {}
     title = next((c["title"] for c in meta.get("cases", [])), "beliefledger record")
     parts = []
-    n_code = 0
     for i, cell in enumerate(nb.get("cells", [])):
         role = ((cell.get("metadata") or {}).get(META_KEY) or {}).get("role")
         cls = "bl-cell" + (" bl-generated" if role else "")
         src = join_text(cell.get("source", ""))
+        if role:  # generated cells: ids from their own (bl-<section>-...)
+            ident = re.sub(r"[^A-Za-z0-9_-]", "-", str(cell.get("id") or f"bl-{i + 1}"))
+        else:  # the analyst's cells: "cell N" is the position in the record, as verify says
+            ident = f"cell-{i + 1}"
         if cell.get("cell_type") == "markdown":
-            parts.append(f'<section class="{cls} bl-markdown" id="cell-{i + 1}">'
+            parts.append(f'<section class="{cls} bl-markdown" id="{ident}">'
                          f"{markdown_html(src)}</section>")
         elif cell.get("cell_type") == "code":
             body = ""
             if not role:
-                n_code += 1
                 count = cell.get("execution_count")
                 label = f"cell {i + 1}" + (f" · run {count}" if count is not None else "")
                 body += (f'<div class="bl-label">{esc(label)}</div>'
                          f'<pre class="bl-src"><code>{esc(src)}</code></pre>')
             body += "".join(render_output(o) for o in cell.get("outputs", []))
-            parts.append(f'<section class="{cls} bl-code" id="cell-{i + 1}">{body}</section>')
+            parts.append(f'<section class="{cls} bl-code" id="{ident}">{body}</section>')
         else:
-            parts.append(f'<section class="{cls} bl-raw" id="cell-{i + 1}"><pre>{esc(src)}</pre>'
+            parts.append(f'<section class="{cls} bl-raw" id="{ident}"><pre>{esc(src)}</pre>'
                          "</section>")
     banner = (f'<header class="bl-banner"><p><b>Sealed record</b> · fingerprint '
               f'<code>{esc(man.get("fingerprint", "?"))}</code> · sealed '

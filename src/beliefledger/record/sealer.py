@@ -209,11 +209,13 @@ def build_record(nb: dict[str, Any], *, notebook_name: str, sealed_at: str | Non
     """Turn an executed notebook (plain JSON) into a sealed record (plain JSON)."""
     from .._version import __version__
     from .collect import collect_cases
-    from .sections import environment, manifest_cell, record_cells
+    from .sections import FRONT_CELLS, environment, manifest_cell, record_cells
 
     nb = strip_volatile(copy.deepcopy(nb))
     cells = analyst_cells(nb)
-    cases = collect_cases(cells)  # every scenario of every case computed once, here
+    # every scenario of every case computed once, here; cell numbers are positions in the
+    # record, whose generated front cells come before the analyst's
+    cases = collect_cases(cells, offset=FRONT_CELLS)
     if sealed_at is None:
         sealed_at = datetime.now(UTC).strftime("%Y-%m-%dT%H:%M:%SZ")
     header = {"format": RECORD_FORMAT, "record_version": RECORD_VERSION,
@@ -222,7 +224,8 @@ def build_record(nb: dict[str, Any], *, notebook_name: str, sealed_at: str | Non
               "active_scenarios": {c.title: c.case.active_scenario for c in cases},
               "environment": environment()}
     title = _first_heading(cells) or cases[0].title
-    all_cells = cells + record_cells(header, cases, title)
+    front, back = record_cells(header, cases, title)
+    all_cells = front + cells + back
     case_entries = [c.entry() for c in cases]
     case_digests = [case_digest(e) for e in case_entries]
     covered = hashed_cells(all_cells)

@@ -9,9 +9,6 @@ through :func:`beliefledger.display.esc`.
 from __future__ import annotations
 
 import html as _html
-import importlib
-import importlib.util
-import inspect
 import json
 import platform
 import sys
@@ -19,8 +16,10 @@ from collections.abc import Mapping, Sequence
 from importlib import metadata as _md
 from typing import Any
 
-from ..display import esc, flags_html, ledger_html
+from ..display import esc, flags_html, fmt_input, fmt_probability, ledger_html, table_html
+from .analyses import CaseAnalyses, analyse
 from .canonical import META_KEY, RECORD_ROLE, ROLE_KEY
+from .summary import summary_html, summary_text
 
 ENV_PACKAGES = ("beliefledger", "numpy", "scipy", "pandas", "altair", "vl-convert-python",
                 "ipywidgets", "ipykernel", "nbclient", "nbformat", "cryptography")
@@ -79,69 +78,175 @@ def svg_output(svg: str, alt: str) -> dict[str, Any]:
             "data": {"image/svg+xml": svg, "text/plain": alt}}
 
 
-def table(header: Sequence[str], rows: Sequence[Sequence[Any]], cls: str = "bl-table") -> str:
-    head = "".join(f"<th>{esc(h)}</th>" for h in header)
-    body = "".join("<tr>" + "".join(f"<td>{esc(c)}</td>" for c in r) + "</tr>" for r in rows)
-    return f'<table class="{cls}"><thead><tr>{head}</tr></thead><tbody>{body}</tbody></table>'
-
-
-def _src_cells(src) -> list[str]:
-    return [src.where or "UNSOURCED", src.who, src.when, src.why]
+def table(header: Sequence[str], rows: Sequence[Sequence[Any]], cls: str = "bl-table",
+          what: str = "rows") -> str:
+    return table_html(list(header), [list(r) for r in rows], cls, what=what)
 
 
 # --------------------------------------------------------------------------- register
 
 
-def assumption_register_html(case) -> str:
-    """Every prior (per scenario) and likelihood entry with its Source, plus the
-    recorded assumptions (normalizations, rescales) and the extras sections."""
-    parts = [f"<h3>{esc(case.title)}</h3>"]
+def source_text(src) -> str:
+    """A source in one line: where; who; when; why (UNSOURCED when it says nothing)."""
+    if not src.is_sourced:
+        return "UNSOURCED"
+    return "; ".join(x for x in (src.where, src.who, src.when, src.why) if x)
+
+
+def _marked_table(header: Sequence[str], rows: Sequence[Sequence[str]], *,
+                  row_class: Sequence[str] = ()) -> str:
+    """A table of already-escaped cells (used where cells carry markers)."""
+    head = "".join(f"<th>{h}</th>" for h in header)
+    body = []
+    for i, r in enumerate(rows):
+        cls = f' class="{row_class[i]}"' if i < len(row_class) and row_class[i] else ""
+        body.append(f"<tr{cls}>" + "".join(f"<td>{c}</td>" for c in r) + "</tr>")
+    return (f'<div class="bl-scroll"><table class="bl-table bl-matrix"><thead><tr>{head}</tr>'
+            f'</thead><tbody>{"".join(body)}</tbody></table></div>')
+
+
+def _notes_list(notes: list[str]) -> str:
+    if not notes:
+        return ""
+    return '<ol class="bl-notes">' + "".join(f"<li>{n}</li>" for n in notes) + "</ol>"
+
+
+def priors_register_html(case) -> str:
+    """All priors in one table (hypotheses x scenarios), each scenario's source once; a
+    base prior whose source differs from the common one is numbered and listed."""
+    hyps = list(case.hypotheses.values())
+    sources = [source_text(h.source) for h in hyps]
+    common = max(set(sources), key=sources.count) if sources else ""
+    scen = list(case.scenarios.values())
+    active = case.active_scenario
+    header = ["hypothesis", "base" + (" (active)" if active == "base" else "")]
+    header += [esc(sc.name) + (" (active)" if sc.name == active else "") for sc in scen]
+    notes, rows = [], []
+    for h, src in zip(hyps, sources, strict=True):
+        cell = esc(fmt_input(h.prior))
+        if src != common:
+            notes.append(f"base prior of {esc(h.name)}: {esc(src)}")
+            cell += f"<sup>{len(notes)}</sup>"
+        rows.append([esc(h.name) + (" <i>(catch-all)</i>" if h.catch_all else ""), cell,
+                     *[esc(fmt_input(float(sc.priors[h.name]))) for sc in scen]])
+    lines = [f"<p>Source of the base priors: {esc(common)}"
+             + (" (except where numbered below)" if notes else "") + ".</p>"]
+    lines += [f"<p>Scenario {esc(sc.name)}: {esc(source_text(sc.source))}"
+              + (f" ({esc(sc.note)})" if getattr(sc, "note", "") else "") + ".</p>"
+              for sc in scen]
+    return (_marked_table(header, rows) + "".join(lines[:1]) + _notes_list(notes)
+            + "".join(lines[1:]))
+
+
+def _matrix(ev, values, states, *, marks=True) -> tuple[str, list[str]]:
+    hyps = list(ev.hypotheses)
+    item_src = source_text(ev.source)
+    notes, rows, classes = [], [], []
+    for i, state in enumerate(states):
+        cells = []
+        for j, h in enumerate(hyps):
+            cell = esc(fmt_input(float(values[i, j])))
+            if marks:
+                src = source_text(ev.source_of(state, h))
+                if src != item_src:
+                    notes.append(f"P({esc(state)} | {esc(h)}): {esc(src)}")
+                    cell += f"<sup>{len(notes)}</sup>"
+            cells.append(cell)
+        observed = state == ev.observed
+        rows.append([esc(state) + (" <b>(observed)</b>" if observed else ""), *cells])
+        classes.append("bl-observed" if observed else "")
+    return _marked_table(["state", *[esc(h) for h in hyps]], rows, row_class=classes), notes
+
+
+def evidence_register_html(ev) -> str:
+    """One evidence item: its matrix P(state | hypothesis), its source once, the cells
+    whose source differs listed under it."""
+    status = (f"observed: {ev.observed}" if ev.is_observed else "pending (not observed)")
+    kind = ("likelihood evidence: only the ratios across hypotheses matter"
+            if ev.likelihood_evidence else f"{len(ev.states)} states")
+    facts = [status, kind]
+    if ev.shared_source:
+        facts.append(f"shared-source tag '{ev.shared_source}'")
+    if ev.is_conditional:
+        facts.append(f"stated given the state of '{ev.given}'")
+    desc = f" {esc(ev.description)}" if ev.description else ""
+    head = (f'<div class="bl-item"><p class="bl-facts"><b class="bl-item-name">{esc(ev.name)}'
+            f"</b> · {esc('; '.join(facts))}.{desc} <i>Source:</i> "
+            f"{esc(source_text(ev.source))}.</p>")
+    if ev.is_conditional:
+        body = ""
+        for k, parent in enumerate(ev.parent_states):
+            mat, _ = _matrix(ev, ev.conditional[k], ev.states, marks=False)
+            body += f"<p>given {esc(ev.given)} = {esc(parent)}:</p>" + mat
+        return head + body + "</div>"
+    mat, notes = _matrix(ev, ev.table, ev.states)
+    return head + mat + _notes_list(notes) + "</div>"
+
+
+def _joint_groups_html(case) -> str:
+    groups = case.joint_groups
+    if not groups:
+        return ""
     rows = []
-    for h in case.hypotheses.values():
-        rows.append(["base (hypothesis table)", h.name, f"{h.prior:.6g}",
-                     "yes" if h.catch_all else "", *_src_cells(h.source)])
-    for sc in case.scenarios.values():
-        for hname in case.hypothesis_names:
-            rows.append([sc.name, hname, f"{float(sc.priors[hname]):.6g}", "",
-                         *_src_cells(sc.source)])
-    parts.append(f"<h4>Priors (active scenario: {esc(case.active_scenario)})</h4>")
-    parts.append(table(["scenario", "hypothesis", "prior", "catch-all", "where", "who",
-                        "when", "why"], rows))
-    erows = []
-    for ev in case.evidence.values():
-        for i, state in enumerate(ev.states):
-            for j, hname in enumerate(ev.hypotheses):
-                mark = "observed" if state == ev.observed else ""
-                erows.append([ev.name, state, mark, hname, f"{float(ev.table[i, j]):.6g}",
-                              *_src_cells(ev.source_of(state, hname))])
-    parts.append("<h4>Likelihoods P(state | hypothesis)</h4>")
-    parts.append(table(["evidence", "state", "", "hypothesis", "P", "where", "who", "when",
-                        "why"], erows) if erows else "<p>No evidence items.</p>")
-    irows = [[ev.name, ev.observed if ev.observed is not None else "pending",
-              "likelihood evidence" if ev.likelihood_evidence else f"{len(ev.states)} states",
-              ev.shared_source or "", ev.description] for ev in case.evidence.values()]
-    if irows:
-        parts.append("<h4>Evidence items</h4>")
-        parts.append(table(["evidence", "observed state", "kind", "shared-source tag",
-                            "description"], irows))
+    for g in groups.values():
+        how = g.kind
+        if g.covariance is not None:
+            how += ": " + ", ".join(f"{h} {fmt_input(float(v))}" for h, v in g.covariance.items())
+        rows.append([g.name, ", ".join(g.members), how, source_text(g.source), g.note])
+    return ("<h4>Dependent items (joint groups)</h4>"
+            + table(["group", "members", "dependence", "source", "note"], rows))
+
+
+def _extras_html(case) -> str:
+    from ..case.extras import LOSS_TABLE
+    from ..uncertainty import uncertainty_register
+    from .analyses import loss_table_html
+
+    parts = []
+    if LOSS_TABLE in case.extras:
+        parts.append("<h4>Loss table</h4>" + loss_table_html(case))
+    if "uncertainty" in case.extras:
+        frame = uncertainty_register(case)
+        cols = ["input", "kind", "parameters", "range", "tie", "method", "source"]
+        parts.append("<h4>Uncertainty on the inputs</h4>"
+                     + table(cols, frame[cols].astype(str).values.tolist(), what="inputs"))
+    for key in sorted(k for k in case.extras if k not in (LOSS_TABLE, "uncertainty")):
+        value = case.extras[key]
+        rows = ([[k, json.dumps(v, ensure_ascii=False, sort_keys=True)]
+                 for k, v in value.items()] if isinstance(value, Mapping)
+                else [["value", json.dumps(value, ensure_ascii=False)]])
+        parts.append(f"<h4>Inputs kept with the case: {esc(key)}</h4>"
+                     + table(["field", "value"], rows))
+    return "".join(parts)
+
+
+def assumption_register_html(case) -> str:
+    """Every prior and likelihood with its source, compactly: the priors in one table
+    (hypotheses x scenarios), one matrix per evidence item, each source stated once and
+    the numbers whose source differs listed by number; then dependent items, recorded
+    assumptions, the loss table, the uncertainty ranges and the notes."""
+    parts = [f'<div class="bl-register"><h3>{esc(case.title)}</h3>',
+             "<h4>Priors</h4>", priors_register_html(case), "<h4>Likelihoods P(state | "
+             "hypothesis)</h4>"]
+    if case.evidence:
+        parts.append('<div class="bl-items">' + "".join(
+            evidence_register_html(ev) for ev in case.evidence.values()) + "</div>")
+    else:
+        parts.append("<p>No evidence items.</p>")
+    parts.append(_joint_groups_html(case))
     parts.append("<h4>Recorded assumptions (normalizations, rescales, fitted values)</h4>")
     if case.assumptions:
         parts.append(table(["kind", "target", "detail"],
                            [[a.get("kind", ""), a.get("target", ""), a.get("detail", "")]
-                            for a in case.assumptions]))
+                            for a in case.assumptions], what="assumptions"))
     else:
         parts.append("<p>None recorded.</p>")
-    flags = [f"hypothesis set declared exhaustive: {'yes' if case.exhaustive else 'no'}",
-             f"safety related: {'yes' if case.safety_related else 'no'}"]
-    parts.append("<ul>" + "".join(f"<li>{esc(f)}</li>" for f in flags) + "</ul>")
-    for key in sorted(case.extras):
-        parts.append(f"<h4>Inputs kept with the case: {esc(key)}</h4>")
-        parts.append("<pre class=\"bl-json\">"
-                     + esc(json.dumps(case.extras[key], indent=1, ensure_ascii=False,
-                                      sort_keys=True)) + "</pre>")
+    parts.append(f"<p>Hypothesis set declared exhaustive: {'yes' if case.exhaustive else 'no'}"
+                 f"; safety related: {'yes' if case.safety_related else 'no'}.</p>")
+    parts.append(_extras_html(case))
     if case.notes:
         parts.append(f"<h4>Notes</h4><p>{esc(case.notes)}</p>")
-    return '<div class="bl-register">' + "".join(parts) + "</div>"
+    return "".join(parts) + "</div>"
 
 
 def scenario_table_html(case, results: Mapping[str, Mapping[str, Any]]) -> str:
@@ -149,111 +254,8 @@ def scenario_table_html(case, results: Mapping[str, Mapping[str, Any]]) -> str:
     rows = []
     for name, res in results.items():
         post = res["posterior"]
-        rows.append([name, res["map_hypothesis"], *[f"{post[h]:.4f}" for h in hyps]])
+        rows.append([name, res["map_hypothesis"], *[fmt_probability(post[h]) for h in hyps]])
     return table(["scenario", "MAP", *hyps], rows)
-
-
-# --------------------------------------------------------------------------- optional parts
-
-
-def _render_any(obj: Any) -> str:
-    """Static HTML of an analysis result of unknown type (no widget, no script)."""
-    if hasattr(obj, "_repr_html_"):
-        try:
-            out = obj._repr_html_()
-            if isinstance(out, str) and out:
-                return out
-        except Exception:  # fall back to the other forms
-            pass
-    try:
-        import pandas as pd
-
-        if isinstance(obj, pd.DataFrame | pd.Series):
-            return obj.to_frame().to_html() if isinstance(obj, pd.Series) else obj.to_html()
-    except ImportError:  # pragma: no cover
-        pass
-    if hasattr(obj, "to_dict"):
-        try:
-            obj = obj.to_dict()
-        except Exception:
-            pass
-    if isinstance(obj, Mapping | list | tuple):
-        try:
-            text = json.dumps(obj, indent=1, ensure_ascii=False, sort_keys=True, default=str)
-            return f'<pre class="bl-json">{esc(text)}</pre>'
-        except (TypeError, ValueError):
-            pass
-    return f"<pre>{esc(repr(obj))}</pre>"
-
-
-def _optional(modnames: tuple[str, ...], fname: str):
-    """The function ``fname`` from the first of ``modnames`` that has it, or None."""
-    for modname in modnames:
-        if importlib.util.find_spec(f"beliefledger.{modname}") is None:
-            continue
-        try:
-            mod = importlib.import_module(f"beliefledger.{modname}")
-        except ImportError:
-            continue
-        fn = getattr(mod, fname, None)
-        if callable(fn):
-            return fn
-    return None
-
-
-SIMULATION_DRAWS = 20_000
-SEED = 20261201
-"""Fixed seed of any Monte Carlo run in a record, so two seals agree."""
-
-
-def _call_seeded(fn, *args):
-    """Call an analysis with a fixed seed (and a modest draw count) where it takes them,
-    so two seals of the same inputs agree."""
-    try:
-        params = inspect.signature(fn).parameters
-    except (TypeError, ValueError):
-        params = {}
-    kwargs: dict[str, Any] = {}
-    for name in ("seed", "random_state", "rng"):
-        if name in params:
-            kwargs[name] = SEED
-            break
-    if "draws" in params:
-        kwargs["draws"] = SIMULATION_DRAWS
-    if "progress" in params:
-        kwargs["progress"] = False
-    return fn(*args, **kwargs)
-
-
-def analyses(case) -> list[tuple[str, str]]:
-    """(heading, html) for each robustness / uncertainty / value-of-information summary
-    available for this case; a part whose function is missing or whose inputs the
-    case lacks is left out, and a part that fails says so instead of stopping the seal."""
-    plans = []
-    if case.scenarios:
-        plans.append(("Robustness across prior scenarios", ("sensitivity",), "robustness"))
-    if "uncertainty" in case.extras:
-        plans.append(("Uncertainty register", ("uncertainty",), "uncertainty_register"))
-        plans.append((f"Monte Carlo over uncertain inputs ({SIMULATION_DRAWS:,} draws, "
-                      f"seed {SEED})", ("montecarlo",), "simulate"))
-    if any(not ev.is_observed for ev in case.evidence.values()):
-        plans.append(("Value of information: which evidence to examine next", ("value",),
-                      "rank_next_evidence"))
-    if "loss_table" in case.extras:
-        plans.append(("Decision summary (expected loss)", ("decision",), "decision_summary"))
-    out = []
-    for heading, mods, fname in plans:
-        fn = _optional(mods, fname)
-        if fn is None:
-            continue
-        try:
-            result = _call_seeded(fn, case)
-        except Exception as exc:  # recorded, not fatal: the rest of the record stands
-            out.append((heading, f'<p class="bl-error">Not computed: {esc(type(exc).__name__)}: '
-                                 f"{esc(exc)}</p>"))
-            continue
-        out.append((heading, _render_any(result)))
-    return out
 
 
 def chart_svgs(ledger, ledgers) -> tuple[list[tuple[str, str]], str | None]:
@@ -281,25 +283,24 @@ def chart_svgs(ledger, ledgers) -> tuple[list[tuple[str, str]], str | None]:
 
 # --------------------------------------------------------------------------- assembly
 
+SECTIONS = (("Summary", "summary"), ("Cautions", "cautions"),
+            ("The notebook as executed", "notebook"),
+            ("Assumption register", "assumption-register"), ("Review flags", "flags"),
+            ("Ledger", "ledger"), ("Charts", "charts"), ("Analyses", "analyses"),
+            ("Environment", "environment"), ("Manifest", "manifest"))
+"""The record's sections in order: (heading, section key). The headings are level-2
+markdown headings; links use the anchor Jupyter gives a heading (spaces as hyphens),
+which the offline HTML copy gives them too."""
 
-def front_matter_md(header: Mapping[str, Any], cases: Sequence[Any], title: str) -> str:
-    lines = [f"# Sealed record: {_md_esc(title)}", ""]
-    for c in cases:
-        lines.append(f"- **Case:** {_md_esc(c.title)}")
-        if c.question:
-            lines.append(f"  - **Question:** {_md_esc(c.question)}")
-        if c.analyst:
-            lines.append(f"  - **Analyst:** {_md_esc(c.analyst)}")
-    lines += [f"- **Sealed at:** {header['sealed_at']}",
-              f"- **Tool:** beliefledger {header['tool_version']}",
-              f"- **Source notebook:** {_md_esc(header['notebook'])} "
-              f"({header['analyst_cells']} cells, executed afresh in a clean kernel)",
-              "",
-              "Everything above this section is the analyst's notebook exactly as executed at "
-              "sealing; everything below was generated by the sealer. "
-              "`beliefledger verify` re-checks every digest in the manifest and recomputes "
-              "every case's results."]
-    return "\n".join(lines)
+
+FRONT_CELLS = 5
+"""Generated cells before the analyst's: front matter, summary (text and output),
+cautions, and the heading of the notebook section."""
+
+
+def anchor(heading: str) -> str:
+    """The anchor of a markdown heading, as JupyterLab and Notebook 7 make it."""
+    return heading.strip().replace(" ", "-")
 
 
 def _md_esc(text: str) -> str:
@@ -310,31 +311,76 @@ def _md_esc(text: str) -> str:
     return t.replace("\n", " ")
 
 
-def caution_md(cases: Sequence[Any]) -> str:
-    text = ["## Cautions", "", CAUTION]
+def cautions_text(cases: Sequence[Any]) -> str:
+    """The cautions as markdown (the safety caution in bold where a case touches health
+    or safety)."""
+    text = CAUTION
     if any(c.safety_related for c in cases):
-        text += ["", f"**{SAFETY_CAUTION}**"]
-    return "\n".join(text)
+        text += f"\n\n**{SAFETY_CAUTION}**"
+    return text
 
 
-def record_cells(header: Mapping[str, Any], cases: list[dict[str, Any]],
-                 title: str) -> list[dict[str, Any]]:
-    """All generated cells except the manifest, in order."""
+def front_matter_md(header: Mapping[str, Any], cases: Sequence[Any], title: str,
+                    present: Sequence[str]) -> str:
+    lines = [f"# Sealed record: {_md_esc(title)}", ""]
+    for c in cases:
+        lines.append(f"- **Case:** {_md_esc(c.title)}")
+        if c.analyst:
+            lines.append(f"  - **Analyst:** {_md_esc(c.analyst)}")
+    lines += [f"- **Sealed at:** {header['sealed_at']}",
+              f"- **Tool:** beliefledger {header['tool_version']}",
+              f"- **Source notebook:** {_md_esc(header['notebook'])} "
+              f"({header['analyst_cells']} cells, executed afresh in a clean kernel)",
+              "",
+              "**Contents:** " + " · ".join(f"[{h}](#{anchor(h)})" for h, key in SECTIONS
+                                             if key in present),
+              "",
+              "The summary and everything after the analyst's notebook were generated by the "
+              "sealer; the notebook section is the analyst's notebook exactly as executed at "
+              "sealing. `beliefledger verify` re-checks every digest in the manifest and "
+              "recomputes every case's results."]
+    return "\n".join(lines)
+
+
+def _heading(key: str) -> str:
+    return next(h for h, k in SECTIONS if k == key)
+
+
+def record_cells(header: Mapping[str, Any], cases: list[Any], title: str
+                 ) -> tuple[list[dict[str, Any]], list[dict[str, Any]]]:
+    """The generated cells: (the cells before the analyst's notebook, the cells after it,
+    except the manifest)."""
     objs = [c.case for c in cases]
-    cells = [_md_cell("front-matter", front_matter_md(header, objs, title)),
-             _md_cell("cautions", caution_md(objs))]
-    cells.append(_md_cell("assumption-register", "## Assumption register\n\nEvery prior and "
-                          "likelihood entry with its source (where from, who, when, why); "
-                          "entries marked UNSOURCED had none."))
-    cells.append(_out_cell("assumption-register",
-                           [html_output(assumption_register_html(c), f"assumption register of "
-                                        f"{c.title!r}") for c in objs]))
+    done: list[CaseAnalyses] = [analyse(item) for item in cases]
+    cautions = cautions_text(objs)
+    present = {"summary", "cautions", "notebook", "assumption-register", "flags", "ledger", "charts", "environment",
+               "manifest"}
+    if any(a.parts for a in done):
+        present.add("analyses")
+    front = [_md_cell("front-matter", front_matter_md(header, objs, title, sorted(present))),
+             _md_cell("summary", f"## {_heading('summary')}\n\nWhat the sealed cases conclude, "
+                      "how firmly, and what a reviewer should look at first. Every figure is "
+                      "computed at sealing from the cases below."),
+             _out_cell("summary", [html_output(summary_html(a), summary_text(a))
+                                   for a in done]),
+             _md_cell("cautions", f"## {_heading('cautions')}\n\n{cautions}"),
+             _md_cell("notebook", f"## {_heading('notebook')}\n\nThe analyst's cells and "
+                      "their outputs from a fresh run at sealing.")]
+    assert len(front) == FRONT_CELLS, "FRONT_CELLS must count the cells before the notebook"
+    back = [_md_cell("assumption-register", f"## {_heading('assumption-register')}\n\nEvery prior and likelihood "
+                     "with its source (where from, who, when, why); a number whose source "
+                     "differs from its table's is numbered and listed under the table; "
+                     "UNSOURCED marks a number with no source. Numbers are shown as entered "
+                     "up to six significant figures, longer ones to four; the case embedded "
+                     "in the record holds every number exactly."),
+            _out_cell("assumption-register", [html_output(assumption_register_html(c), f"assumption "
+                                               f"register of {c.title!r}") for c in objs])]
     find_out, ledger_out, chart_out, analysis_out = [], [], [], []
-    for item in cases:
+    for item, a in zip(cases, done, strict=True):
         case, ledger = item.case, item.ledger
         find_out.append(html_output(f"<h3>{esc(case.title)}</h3>" + flags_html(ledger.flags),
                                     f"{len(ledger.flags)} flags for {case.title!r}"))
-        body = ledger_html(ledger)
+        body = ledger_html(ledger, max_cols=None, with_flags=False)
         if len(item.ledgers) > 1:
             body += "<h4>Posterior under each prior scenario</h4>" + scenario_table_html(
                 case, item.results)
@@ -344,28 +390,35 @@ def record_cells(header: Mapping[str, Any], cases: list[dict[str, Any]],
                                      + (f"<p>{esc(note)}</p>" if note else ""),
                                      case.title))
         chart_out.extend(svg_output(svg, alt) for alt, svg in svgs)
-        for heading, body in analyses(case):
-            analysis_out.append(html_output(f"<h3>{esc(case.title)}: {esc(heading)}</h3>{body}",
-                                            heading))
-    cells.append(_md_cell("flags", "## Review flags\n\nWhat the checks flag for a "
-                          "reviewer (zero priors, eliminated hypotheses, shared sources...)."))
-    cells.append(_out_cell("flags", find_out))
-    cells.append(_md_cell("ledger", "## Ledger\n\nThe probability of each hypothesis after each "
-                          "evidence step, under the active prior scenario."))
-    cells.append(_out_cell("ledger", ledger_out))
-    cells.append(_md_cell("charts", "## Charts\n\nStatic images drawn at sealing."))
-    cells.append(_out_cell("charts", chart_out))
+        for part in a.parts:
+            origin = f'<p class="bl-origin">{esc(part.origin)}</p>' if part.origin else ""
+            analysis_out.append(html_output(f"<h3>{esc(case.title)}: {esc(part.heading)}</h3>"
+                                            f"{origin}{part.html}", part.heading))
+    back.append(_md_cell("flags", f"## {_heading('flags')}\n\nWhat the checks flag for a "
+                         "reviewer (zero priors, eliminated hypotheses, shared sources...)."))
+    back.append(_out_cell("flags", find_out))
+    back.append(_md_cell("ledger", f"## {_heading('ledger')}\n\nThe probability of each "
+                         "hypothesis after each evidence step, under the active prior "
+                         "scenario."))
+    back.append(_out_cell("ledger", ledger_out))
+    back.append(_md_cell("charts", f"## {_heading('charts')}\n\nStatic images drawn at "
+                         "sealing."))
+    back.append(_out_cell("charts", chart_out))
     if analysis_out:
-        cells.append(_md_cell("analyses", "## Robustness, uncertainty and value of information"))
-        cells.append(_out_cell("analyses", analysis_out))
+        back.append(_md_cell("analyses", f"## {_heading('analyses')}\n\nRobustness, "
+                             "uncertainty, value of information and decisions, each with "
+                             "the settings it ran with."))
+        back.append(_out_cell("analyses", analysis_out))
     env = header["environment"]
     rows = [["Python", f"{env['python']} ({env['implementation']})"],
             ["platform", env["platform"]],
             *[[k, v or "not installed"] for k, v in env["packages"].items()]]
-    cells.append(_md_cell("environment", "## Environment"))
-    cells.append(_out_cell("environment", [html_output(table(["component", "version"], rows),
-                                                       "environment")]))
-    return cells
+    back.append(_md_cell("environment", f"## {_heading('environment')}"))
+    back.append(_out_cell("environment", [html_output(table(["component", "version"], rows),
+                                                      "environment")]))
+    back.append(_md_cell("manifest", f"## {_heading('manifest')}\n\nThe SHA-256 digest of "
+                         "every cell and case, and the root digest over them all."))
+    return front, back
 
 
 def manifest_cell(manifest: Mapping[str, Any]) -> dict[str, Any]:
@@ -375,8 +428,7 @@ def manifest_cell(manifest: Mapping[str, Any]) -> dict[str, Any]:
 
     rows = [[f"cell {c['index'] + 1}", c["cell_type"], c["sha256"]] for c in manifest["cells"]]
     crow = [[c["title"], c["sha256"]] for c in manifest["cases"]]
-    body = ("<h2>Manifest</h2>"
-            f"<p>Root digest (SHA-256): <code>{esc(manifest['root'])}</code></p>"
+    body = (f"<p>Root digest (SHA-256): <code>{esc(manifest['root'])}</code></p>"
             f'<p class="bl-fingerprint">Fingerprint to quote in the hand-over: '
             f"<b>{esc(manifest['fingerprint'])}</b></p>"
             "<p>A digest shows that nothing changed since it was computed; anyone able to edit "
@@ -390,4 +442,5 @@ def manifest_cell(manifest: Mapping[str, Any]) -> dict[str, Any]:
 
 
 __all__ = ["environment", "record_cells", "manifest_cell", "assumption_register_html",
+           "priors_register_html", "evidence_register_html", "source_text", "anchor", "SECTIONS",
            "CAUTION", "SAFETY_CAUTION", "ENV_PACKAGES"]

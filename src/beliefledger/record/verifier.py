@@ -335,8 +335,7 @@ def verify_notebook(nb: dict[str, Any], meta: dict[str, Any], *, path: str = "re
                                 "is in the manifest but not embedded"))
     # the embedded cases must be the ones the cells show
     try:
-        shown = {e["title"]: (e["envelope"], e["cell"]) for e in collect_envelopes(
-            [c for c in cells if cell_role(c) is None])}
+        shown = {e["title"]: (e["envelope"], e["cell"]) for e in collect_envelopes(cells)}
     except RecordError:
         shown = {}
     for entry in entries:
