@@ -17,6 +17,7 @@ import nbformat
 import pytest
 
 from beliefledger.errors import RecordError
+from beliefledger.record.collect import analysis_calls
 from beliefledger.record.nbio import load_notebook
 from beliefledger.record.sealer import prepare, seal
 from beliefledger.record.verifier import verify
@@ -184,3 +185,16 @@ def test_every_shipped_notebook_seals_and_verifies(shipped_copy, notebook):
     v = verify(res.notebook, expect=res.fingerprint)
     assert v.ok, v.text()
     assert res.cases
+    # the record's analyses use the settings of the analyst's displayed calls
+    rec = json.loads(res.notebook.read_text(encoding="utf-8"))
+    ana = "".join(o["data"].get("text/html", "") for c in rec["cells"]
+                  if (c["metadata"].get("beliefledger") or {}).get("section") == "analyses"
+                  for o in c.get("outputs", []))
+    final = {e["title"]: e for e in rec["metadata"]["beliefledger"]["cases"]}
+    for (title, kind), shown in analysis_calls(rec["cells"]).items():
+        pending = any(ev.get("observed") is None
+                      for ev in final[title]["envelope"]["case"]["evidence"])
+        if kind == "simulate":
+            assert f"seed {shown.call.settings['seed']}" in ana, notebook.name
+        if kind == "simulate" or pending:
+            assert f"call in cell {shown.cell + 1}" in ana, (notebook.name, kind)
