@@ -76,7 +76,8 @@ def test_verify_expect_fingerprint(rec, base_record, capsys):
 def test_unsigned_signoff_covers_the_root_and_breaks_on_change(rec, capsys):
     html_copy = rec.with_name("case.sealed.html")
     html_copy.write_text("old copy", encoding="utf-8")
-    assert main(["sign", str(rec), "--reviewer", "P. Reviewer", "--comment", "checked"]) == 0
+    assert main(["sign", str(rec), "--reviewer", "P. Reviewer", "--decision", "accept",
+                 "--comment", "checked"]) == 0
     assert "unsigned" in capsys.readouterr().out
     assert "P. Reviewer" in html_copy.read_text(encoding="utf-8")  # the reading copy follows
     assert main(["verify", str(rec)]) == 0
@@ -86,7 +87,7 @@ def test_unsigned_signoff_covers_the_root_and_breaks_on_change(rec, capsys):
     assert main(["verify", str(rec)]) == 1
     assert "changed after this sign-off" in capsys.readouterr().out
     # a record that is not intact cannot be signed
-    assert main(["sign", str(rec), "--reviewer", "Q. Second"]) == 1
+    assert main(["sign", str(rec), "--reviewer", "Q. Second", "--decision", "accept"]) == 1
     assert "not intact" in capsys.readouterr().err
 
 
@@ -107,7 +108,7 @@ def test_keygen_writes_a_private_key_only_its_owner_can_read(tmp_path, capsys):
 def test_signature_defeats_a_forger_who_recomputes_the_digests(rec, tmp_path, capsys):
     prefix = tmp_path / "rev"
     main(["keygen", str(prefix)])
-    assert main(["sign", str(rec), "--reviewer", "P. Reviewer",
+    assert main(["sign", str(rec), "--reviewer", "P. Reviewer", "--decision", "accept",
                  "--key", str(tmp_path / "rev.key")]) == 0
     pub = str(tmp_path / "rev.pub")
     assert main(["verify", str(rec), "--public-key", pub]) == 0
@@ -122,9 +123,13 @@ def test_signature_defeats_a_forger_who_recomputes_the_digests(rec, tmp_path, ca
     assert [p["code"] for p in report["problems"]] == ["sign-off-broken", "key-not-trusted"]
     # re-signing with the forger's own key is caught by pinning the reviewer's public key
     rec.write_text(dumps_notebook(forged), encoding="utf-8")
-    edit_file(rec, lambda nb: meta_of(nb).update(signoffs=[]))
+    from beliefledger.record.review import refresh_review_cells
+
+    # the forger drops the sign-off and the reviews shown with it (else sign refuses)
+    edit_file(rec, lambda nb: (meta_of(nb).update(signoffs=[]), refresh_review_cells(nb)))
     main(["keygen", str(tmp_path / "forger")])
-    main(["sign", str(rec), "--reviewer", "P. Reviewer", "--key", str(tmp_path / "forger.key")])
+    main(["sign", str(rec), "--reviewer", "P. Reviewer", "--decision", "accept", "--key",
+          str(tmp_path / "forger.key")])
     capsys.readouterr()
     assert main(["verify", str(rec)]) == 0  # a valid signature, but by whom?
     assert main(["verify", str(rec), "--public-key", pub]) == 1
@@ -133,14 +138,29 @@ def test_signature_defeats_a_forger_who_recomputes_the_digests(rec, tmp_path, ca
 
 def test_tampered_signature_is_broken(rec, tmp_path, capsys):
     main(["keygen", str(tmp_path / "k")])
-    main(["sign", str(rec), "--reviewer", "A", "--key", str(tmp_path / "k.key")])
+    main(["sign", str(rec), "--reviewer", "A", "--decision", "reject", "--key",
+          str(tmp_path / "k.key"), "--comment", "the priors are from the wrong fleet"])
+    original = rec.read_text(encoding="utf-8")
 
     def flip(nb):
         s = meta_of(nb)["signoffs"][0]
-        s["comment"] = "approved without reservations"
+        s["decision"], s["comment"] = "accept", "approved without reservations"
 
     edit_file(rec, flip)
     capsys.readouterr()
+    assert main(["verify", str(rec)]) == 1
+    assert "was edited after signing" in capsys.readouterr().out
+    # a forger who also recomputes the entry's own digest still fails the signature
+    from beliefledger.record import signing
+
+    rec.write_text(original, encoding="utf-8")
+
+    def forge(nb):
+        flip(nb)
+        s = meta_of(nb)["signoffs"][0]
+        s["entry_sha256"] = signing._own_digest(s)
+
+    edit_file(rec, forge)
     assert main(["verify", str(rec)]) == 1
     assert "signature does not match" in capsys.readouterr().out
 

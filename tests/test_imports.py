@@ -68,9 +68,11 @@ LAYERS = {
     "widgets._base": 11.0, "widgets.evidence": 11.1, "widgets.hypotheses": 11.1,
     "widgets.scenarios": 11.1, "widgets.workbench": 11.2, "widgets": 11.3,
     "record.canonical": 11.0, "record.nbio": 11.1, "record.collect": 11.2,
-    "record.analyses": 11.25, "record.summary": 11.28,
+    "record.signing": 11.15, "record.comments": 11.16,
+    "record.analyses": 11.25, "record.summary": 11.28, "record.reviews": 11.29,
+    "record.checklist": 11.45,
     "record.sections": 11.3, "record.html": 11.3, "record.sealer": 11.4,
-    "record.signing": 11.4, "record.verifier": 11.5, "record.differ": 11.6,
+    "record.verifier": 11.5, "record.differ": 11.6,
     "record.review": 11.7, "record.commands": 11.9, "record": 11.95,
     "cli": 12, "": 13,
 }

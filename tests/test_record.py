@@ -170,7 +170,8 @@ def test_record_keeps_cells_and_adds_every_section(record):
     assert "Sealed at:** 2026-11-30T08:00:00Z" in front
     assert f"beliefledger {bl.__version__}" in front
     assert "R. Okafor" in front
-    assert sections[:5] == ["front-matter", "summary", "summary", "cautions", "notebook"]
+    assert sections[:F] == ["front-matter", "summary", "summary", "cautions", "reviews",
+                            "reviews", "notebook"]
     summary = record["cells"][2]["outputs"][0]["data"]["text/html"]
     assert "Which failure best explains" in summary
     text = json.dumps(record)

@@ -47,7 +47,7 @@ def test_the_record_opens_with_the_summary_before_the_analysts_cells(demo_record
     sections = [(c["metadata"].get("beliefledger") or {}).get("section")
                 for c in demo_record["cells"]]
     assert sections[:FRONT_CELLS] == ["front-matter", "summary", "summary", "cautions",
-                                      "notebook"]
+                                      "reviews", "reviews", "notebook"]
     assert sections[FRONT_CELLS] is None  # the analyst's first cell follows
     front = "".join(demo_record["cells"][0]["source"])
     for heading in ("Summary", "Cautions", "Assumption register", "Ledger", "Manifest"):

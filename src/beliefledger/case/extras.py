@@ -16,6 +16,7 @@ from __future__ import annotations
 
 import json
 import math
+import re
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any
@@ -392,7 +393,32 @@ def register_section(section: Section) -> None:
     SECTIONS[check_name("extras key", section.key)] = section
 
 
+REPLIES = "replies"
+_COMMENT_ID = re.compile(r"^C[0-9]{1,4}\.[0-9]{1,5}$")
+
+
+def validate_replies(value: Any, case: Any) -> dict[str, dict[str, str]]:
+    """The analyst's replies to review comments: comment id (``C<sign-off>.<k>``) ->
+    ``{"text", "who", "when"}``."""
+    if not isinstance(value, Mapping):
+        raise CaseError("extras section 'replies' must map a comment id to its reply")
+    out = {}
+    for cid, r in value.items():
+        if not isinstance(cid, str) or not _COMMENT_ID.match(cid):
+            raise CaseError(f"reply to {cid!r:.30}: a comment id looks like 'C1.3' (sign-off "
+                            "1, comment 3), as the record and its comments file print it")
+        if not isinstance(r, Mapping) or set(r) - {"text", "who", "when"}:
+            raise CaseError(f"reply to {cid}: must be an object with text, who, when")
+        out[cid] = {"text": _text(f"reply to {cid}", r.get("text", "")),
+                    "who": _text(f"author of the reply to {cid}", r.get("who", "")),
+                    "when": _text(f"time of the reply to {cid}", r.get("when", ""))}
+        if not out[cid]["text"].strip():
+            raise CaseError(f"reply to {cid} is empty; write the answer, or leave it out")
+    return out
+
+
 register_section(Section(UNCERTAINTY, validate_uncertainty))
+register_section(Section(REPLIES, validate_replies))
 register_section(Section(LOSS_TABLE, validate_loss_table, loss_table_hypotheses_changed))
 
 
@@ -430,7 +456,7 @@ def _check_json_value(value: Any, what: str, depth: int) -> None:
             _check_json_value(v, f"{what}[{k}]", depth + 1)
 
 
-__all__ = ["Section", "SECTIONS", "register_section", "validate_extra", "hypotheses_changed",
+__all__ = ["REPLIES", "validate_replies", "Section", "SECTIONS", "register_section", "validate_extra", "hypotheses_changed",
            "validate_uncertainty", "validate_loss_table", "loss_table_hypotheses_changed",
            "loss_rows", "check_loss_rows", "check_loss_kind", "UNCERTAINTY", "LOSS_TABLE",
            "UNCERTAINTY_KINDS", "LOSS_KINDS", "RESERVED_ACTIONS"]

@@ -366,6 +366,34 @@ class Case:
             else:
                 self.extras[k] = new
 
+    def reply(self, comment_id: str, text: str, *, who: str | None = None,
+              when: str | None = None) -> None:
+        """Answer a reviewer's comment (its id, e.g. ``"C1.3"``, as the record prints it).
+
+        The reply is kept with the case (``case.extras["replies"]``), so the next
+        sealed record carries it and ``beliefledger diff OLD NEW`` shows it beside the
+        comment and what changed in what the comment concerns. A second reply to the
+        same comment replaces the first. ``who`` defaults to ``case.analyst``;
+        ``when`` to now (UTC).
+        """
+        from datetime import UTC, datetime
+
+        from .extras import REPLIES
+
+        current = dict(self.extras.get(REPLIES) or {})
+        current[comment_id if isinstance(comment_id, str) else repr(comment_id)] = {
+            "text": text if isinstance(text, str) else repr(text),
+            "who": who if who is not None else (self.analyst or ""),
+            "when": when or datetime.now(UTC).strftime("%Y-%m-%dT%H:%M:%SZ")}
+        self.set_extra(REPLIES, current)
+
+    @property
+    def replies(self) -> dict[str, dict[str, str]]:
+        """The replies to review comments: comment id -> {text, who, when} (a copy)."""
+        from .extras import REPLIES
+
+        return {k: dict(v) for k, v in (self.extras.get(REPLIES) or {}).items()}
+
     # ------------------------------------------------------------------ priors
     def set_prior(self, hypothesis: str, prior: float, *, source: Any = None,
                   rescale: bool = False) -> None:

@@ -19,14 +19,22 @@ from collections.abc import Iterable, Mapping
 from typing import Any
 
 RECORD_FORMAT = "beliefledger-record"
-RECORD_VERSION = 2
-"""2: results carry "flags" (were "findings"); cases are schema-2 case files."""
+RECORD_VERSION = 3
+"""2: results carry "flags" (were "findings"); cases are schema-2 case files.
+3: the summary comes first; review cells (not hashed, re-derived from the sign-offs);
+sign-offs are chained and carry a decision, a checklist and comments."""
+READABLE_RECORD_VERSIONS = (2, 3)
+"""Record versions verify reads (a version-2 record has unchained sign-offs)."""
 META_KEY = "beliefledger"
 """Key of the record inside the notebook's top-level metadata."""
 
 ROLE_KEY = "role"
 MANIFEST_ROLE = "manifest"
 RECORD_ROLE = "record"
+REVIEW_ROLE = "review"
+"""Cells showing the reviews: derived from the sign-offs, so not hashed (verify re-derives
+them and reports any difference, as for the manifest cell)."""
+UNHASHED_ROLES = (MANIFEST_ROLE, REVIEW_ROLE)
 
 WIDGET_VIEW_MIME = "application/vnd.jupyter.widget-view+json"
 WIDGET_STATE_MIME = "application/vnd.jupyter.widget-state+json"
@@ -131,8 +139,9 @@ def cell_role(cell: Mapping[str, Any]) -> str | None:
 
 
 def hashed_cells(cells: Iterable[Mapping[str, Any]]) -> list[tuple[int, Mapping[str, Any]]]:
-    """(index, cell) of every cell the manifest covers: all but the manifest cell itself."""
-    return [(i, c) for i, c in enumerate(cells) if cell_role(c) != MANIFEST_ROLE]
+    """(index, cell) of every cell the manifest covers: all but the manifest cell and the
+    review cells (both derived from the metadata and checked against it)."""
+    return [(i, c) for i, c in enumerate(cells) if cell_role(c) not in UNHASHED_ROLES]
 
 
 def notebook_frame(nb: Mapping[str, Any]) -> dict[str, Any]:
@@ -163,4 +172,5 @@ def is_fingerprint(text: str) -> bool:
 
 __all__ = ["ALGORITHM", "CANONICAL_JSON", "case_digest", "canonical_bytes", "digest", "fingerprint", "normalize_fingerprint", "cell_content",
            "cell_digest", "normalize_output", "hashed_cells", "root_digest", "cell_role", "notebook_frame",
-           "RECORD_FORMAT", "RECORD_VERSION", "META_KEY", "MANIFEST_ROLE", "RECORD_ROLE"]
+           "RECORD_FORMAT", "RECORD_VERSION", "READABLE_RECORD_VERSIONS", "META_KEY",
+           "MANIFEST_ROLE", "RECORD_ROLE", "REVIEW_ROLE", "UNHASHED_ROLES"]

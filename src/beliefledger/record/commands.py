@@ -1,4 +1,4 @@
-"""Command-line commands of the record layer: demo, seal, verify, diff, sign, keygen.
+"""Command-line commands of the record layer: demo, seal, verify, diff, review, sign, keygen.
 
 Registered by :mod:`beliefledger.cli` through :func:`add_parsers`. Exit codes:
 0 success (verify: intact and reproducible; diff: no differences), 1 a check
@@ -66,17 +66,45 @@ def _cmd_diff(args: argparse.Namespace) -> int:
 
 def _cmd_sign(args: argparse.Namespace) -> int:
     from ..errors import RecordNotIntact
+    from .nbio import read_record
     from .review import sign
+    from .reviews import DECISION_WORDS
+    from .signing import chain_head
 
     try:
-        entry = sign(args.record, args.reviewer, args.comment or "", key=args.key)
+        entry = sign(args.record, args.reviewer, args.comment or "", decision=args.decision,
+                     comments=args.comments, checklist=args.checklist, key=args.key,
+                     site=args.site)
     except RecordNotIntact as exc:
         _err(str(exc))
         return EXIT_FAILED
     kind = f"signed with key {entry['key_id']}" if "signature" in entry else (
         "unsigned (no --key): it covers the digests but proves no identity")
-    print(f"sign-off by {entry['reviewer']} added to {args.record}: {kind}; "
-          f"covers fingerprint {entry['fingerprint']}")
+    _, meta = read_record(args.record)
+    print(f"sign-off by {entry['reviewer']} added to {args.record}: "
+          f"{DECISION_WORDS[entry['decision']]}, {len(entry['comments'])} comment(s); {kind}; "
+          f"covers fingerprint {entry['fingerprint']} and the "
+          f"{len(meta['signoffs']) - 1} sign-off(s) before it")
+    print(f"sign-off chain head: {chain_head(meta['signoffs'])} (quote it with the "
+          "fingerprint)")
+    return EXIT_OK
+
+
+def _cmd_review(args: argparse.Namespace) -> int:
+    from .comments import comments_csv
+    from .nbio import read_record, write_text
+    from .review import review
+
+    checks = review(args.record, site=args.site)
+    if args.comments_out:
+        _, meta = read_record(args.record)
+        write_text(Path(args.comments_out), comments_csv(meta.get("signoffs") or []))
+        _err(f"wrote the reviewers' comments to {args.comments_out}: fill its 'reply' column "
+             "and put the replies on the case with bl.record.apply_replies(case, FILE)")
+    if args.json:
+        print(json.dumps(checks.to_dict(), indent=1, ensure_ascii=False))
+    else:
+        print(checks.text())
     return EXIT_OK
 
 
@@ -180,10 +208,38 @@ def add_parsers(sub: argparse._SubParsersAction) -> None:
     f.add_argument("--out", help="write the report to this file instead of the terminal")
     f.set_defaults(handler=_cmd_diff)
 
-    g = sub.add_parser("sign", help="add a reviewer's sign-off covering the root digest")
+    r = sub.add_parser("review", help="the review checklist of a sealed record",
+                       description="Print the checklist: automatic checks with their outcome "
+                                   "and the items behind them, and the manual checks a "
+                                   "reviewer ticks when signing. Reads the record as JSON; "
+                                   "no notebook code runs.")
+    r.add_argument("record", help="a sealed .ipynb")
+    r.add_argument("--site", metavar="FILE", help="a site's own manual checks (JSON); also "
+                   "read from $BELIEFLEDGER_SITE_CHECKS")
+    r.add_argument("--json", action="store_true", help="machine-readable checklist")
+    r.add_argument("--comments-out", metavar="FILE",
+                   help="write the reviewers' comments as CSV with a 'reply' column for the "
+                        "analyst")
+    r.set_defaults(handler=_cmd_review)
+
+    g = sub.add_parser("sign", help="add a reviewer's decision and sign-off, chained to the "
+                                    "ones before it",
+                       description="Add a sign-off covering the record's root digest and "
+                                   "every sign-off before it, with the decision, the ticked "
+                                   "checklist and comments anchored to what they concern. "
+                                   "Refused on a record that is not intact.")
     g.add_argument("record", help="a sealed .ipynb (updated in place)")
     g.add_argument("--reviewer", required=True, help="the reviewer's name")
-    g.add_argument("--comment", help="the reviewer's comment")
+    g.add_argument("--decision", required=True, choices=["accept", "conditions", "reject"],
+                   help="accept; accept with conditions (say which in the comments); reject")
+    g.add_argument("--comments", metavar="FILE",
+                   help="CSV or JSON with columns target, comment (targets such as "
+                        "hypothesis:NAME, evidence:NAME, likelihood:ITEM|STATE|HYPOTHESIS, "
+                        "scenario:NAME, cell:N, case)")
+    g.add_argument("--checklist", metavar="FILE",
+                   help="ticks of the manual checks: JSON {id: yes|no|n/a} or CSV id,ticked,note")
+    g.add_argument("--comment", help="a general comment")
+    g.add_argument("--site", metavar="FILE", help="the site's own manual checks (JSON)")
     g.add_argument("--key", metavar="KEYFILE", help="Ed25519 private key (beliefledger keygen)")
     g.set_defaults(handler=_cmd_sign)
 

@@ -49,16 +49,61 @@ class Change:
 
 
 @dataclass
+class Response:
+    """One review comment of the old record and the new version's answer to it: the
+    analyst's reply (or none) and the changes in what the comment concerns."""
+
+    comment: dict[str, Any]
+    reviewer: str
+    decision: str
+    reply: dict[str, str] | None
+    changes: list[Change]
+    cell: str | None = None
+
+    def lines(self) -> list[str]:
+        from .comments import target_label
+
+        c = self.comment
+        out = [f"{c['id']} ({self.reviewer}, {self.decision}) on {target_label(c['target'])}: "
+               f"{c['text']}"]
+        out.append(f"    reply: {self.reply['text']} ({self.reply.get('who') or 'unknown'}, "
+                   f"{self.reply.get('when')})" if self.reply else "    reply: none")
+        if self.cell is not None:
+            out.append(f"    in response: {self.cell}")
+        elif self.changes:
+            out += [f"    changed: {c.text()}" for c in self.changes]
+        else:
+            out.append("    unchanged: nothing it concerns differs in the new version")
+        return out
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"comment": self.comment, "reviewer": self.reviewer, "decision": self.decision,
+                "reply": self.reply, "changes": [c.to_dict() for c in self.changes],
+                "cell": self.cell}
+
+
+@dataclass
 class CaseDiff:
-    """The differences between two sets of cases."""
+    """The differences between two sets of cases (and, between two records, the answer
+    to each review comment of the old one)."""
 
     old_label: str
     new_label: str
     changes: list[Change] = field(default_factory=list)
+    responses: list[Response] = field(default_factory=list)
 
     @property
     def empty(self) -> bool:
-        return not self.changes
+        return not self.changes and not self.responses
+
+    def _response_lines(self) -> list[str]:
+        if not self.responses:
+            return []
+        n = sum(1 for r in self.responses if r.reply)
+        lines = [f"review comments ({len(self.responses)}, {n} answered):"]
+        for r in self.responses:
+            lines += ["  " + ln for ln in r.lines()]
+        return lines
 
     def by_section(self) -> dict[str, list[Change]]:
         out: dict[str, list[Change]] = {}
@@ -73,6 +118,7 @@ class CaseDiff:
         for section, items in self.by_section().items():
             lines.append(f"{section}:")
             lines += [f"  {visible(c.text())}" for c in items]
+        lines += [visible(ln) for ln in self._response_lines()]
         return "\n".join(lines)
 
     def markdown(self) -> str:
@@ -86,6 +132,13 @@ class CaseDiff:
             lines += [f"## {section.capitalize()}", ""]
             lines += [f"- {md(c.text())}" for c in items]
             lines.append("")
+        if self.responses:
+            lines += ["## Review comments", ""]
+            for r in self.responses:
+                first, *rest = r.lines()
+                lines.append(f"- {md(first)}")
+                lines += [f"  - {md(x.strip())}" for x in rest]
+            lines.append("")
         return "\n".join(lines)
 
     def html(self) -> str:
@@ -95,6 +148,13 @@ class CaseDiff:
         for section, items in self.by_section().items():
             body.append(f"<h2>{esc(section.capitalize())}</h2><ul>")
             body += [f"<li>{esc(c.text())}</li>" for c in items]
+            body.append("</ul>")
+        if self.responses:
+            body.append("<h2>Review comments</h2><ul>")
+            for r in self.responses:
+                first, *rest = r.lines()
+                body.append(f"<li>{esc(first)}<ul>"
+                            + "".join(f"<li>{esc(x.strip())}</li>" for x in rest) + "</ul></li>")
             body.append("</ul>")
         return ("<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">"
                 "<title>beliefledger diff</title><style>body{font-family:system-ui,sans-serif;"
@@ -289,7 +349,7 @@ def diff_cases(old, new, *, label: str = "") -> list[Change]:
     for a in ao:
         if a not in an:
             add("assumptions", "removed", f"{a[0]} ({a[1]})", a[2])
-    for k in sorted(set(old.extras) | set(new.extras)):
+    for k in sorted((set(old.extras) | set(new.extras)) - {"replies"}):  # replies: below
         if old.extras.get(k) != new.extras.get(k):
             kind = ("added" if k not in old.extras else "removed" if k not in new.extras
                     else "changed")
@@ -317,12 +377,89 @@ def diff_cases(old, new, *, label: str = "") -> list[Change]:
     return ch
 
 
+def _concerns(change: Change, t: dict[str, Any]) -> bool:
+    """Whether ``change`` is a change in what a comment's target names (an input: results
+    and flags follow from inputs, so they are not a response)."""
+    if change.section in ("results", "flags"):
+        return False
+    kind = t.get("kind")
+    if kind == "case":
+        return True
+    if kind == "likelihood":
+        cell = f"P('{t['state']}' | '{t['hypothesis']}') of '{t['evidence']}'"
+        return change.where in (cell, f"source of {cell}") or \
+            change.where == f"evidence '{t['evidence']}'"
+    if kind == "scenario":
+        return f"scenario '{t['name']}'" in change.where
+    return f"'{t['name']}'" in change.where
+
+
+def _cell_response(old_nb: dict[str, Any] | None, new_nb: dict[str, Any] | None,
+                   n: int) -> str:
+    from .canonical import cell_content
+
+    if old_nb is None or new_nb is None:
+        return "cannot tell: compare two sealed records to follow a cell"
+    cells = old_nb.get("cells") or []
+    if not 1 <= n <= len(cells):
+        return f"cell {n} is not in the old record"
+    cid = cells[n - 1].get("id")
+    match = [i for i, c in enumerate(new_nb.get("cells") or []) if c.get("id") == cid]
+    if not match:
+        return f"cell {n} (id {cid!r}) is no longer in the notebook"
+    other = new_nb["cells"][match[0]]
+    if cell_content(other) == cell_content(cells[n - 1]):
+        return f"unchanged: cell {n} is the same in the new version (now cell {match[0] + 1})"
+    old_src = "".join(cells[n - 1].get("source") or "")
+    new_src = "".join(other.get("source") or "")
+    what = "its source" if old_src != new_src else "its outputs"
+    return f"changed: {what} (cell {n}, now cell {match[0] + 1})"
+
+
+def responses(old: str | Path, new: str | Path, changes: list[Change],
+              new_cases: list[Any]) -> list[Response]:
+    """Each review comment of the record ``old`` with the reply and changes in ``new``."""
+    from ..errors import RecordError as _RE
+    from .nbio import read_record
+
+    try:
+        old_nb, meta = read_record(old)
+    except _RE:
+        return []  # not a record (a case file or a plain notebook): no comments to follow
+    try:
+        new_nb, _ = read_record(new)
+    except _RE:
+        new_nb = None
+    replies: dict[str, Any] = {}
+    by_title = {c.title: c for c in new_cases}
+    out = []
+    for s in meta.get("signoffs") or []:
+        if not isinstance(s, dict):
+            continue
+        for c in s.get("comments") or []:
+            case = by_title.get(c["target"].get("case")) or (new_cases[0] if len(new_cases) == 1
+                                                              else None)
+            replies = case.replies if case is not None else {}
+            t = c["target"]
+            if t.get("kind") == "cell":
+                out.append(Response(c, str(s.get("reviewer")), str(s.get("decision")),
+                                    replies.get(c["id"]), [],
+                                    _cell_response(old_nb, new_nb, t["cell"])))
+            else:
+                out.append(Response(c, str(s.get("reviewer")), str(s.get("decision")),
+                                    replies.get(c["id"]),
+                                    [ch for ch in changes if _concerns(ch, t)]))
+    return out
+
+
 def diff(old: str | Path, new: str | Path) -> CaseDiff:
-    """Compare two records, notebooks or case files (see the module docstring)."""
+    """Compare two records, notebooks or case files (see the module docstring). Between
+    two records, each review comment of the old one is followed into the new one."""
     co, cn = load_cases(old), load_cases(new)
     result = CaseDiff(Path(old).name, Path(new).name)
     if len(co) == 1 and len(cn) == 1:
         result.changes = diff_cases(co[0], cn[0])
+        result.responses = responses(old, new, result.changes, cn)
         return result
     by_new = {c.title: c for c in cn}
     by_old = {c.title: c for c in co}
@@ -334,8 +471,10 @@ def diff(old: str | Path, new: str | Path) -> CaseDiff:
     for c in cn:
         if c.title not in by_old:
             result.changes.append(Change("case", "added", f"case '{c.title}'"))
+    result.responses = responses(old, new, result.changes, cn)
     return result
 
 
-__all__ = ["diff", "diff_cases", "load_cases", "load_record", "CaseDiff", "Change",
+__all__ = ["diff", "diff_cases", "load_cases", "load_record", "CaseDiff", "Change", "Response",
+           "responses",
            "POSTERIOR_TOL"]

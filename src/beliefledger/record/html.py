@@ -227,6 +227,8 @@ def _css() -> str:
 
 
 def _signoffs_html(signoffs: list[Any]) -> str:
+    from .reviews import DECISION_WORDS
+
     if not signoffs:
         return "<p>No reviewer sign-off yet.</p>"
     items = []
@@ -234,11 +236,33 @@ def _signoffs_html(signoffs: list[Any]) -> str:
         if not isinstance(s, dict):
             continue
         kind = (f"Ed25519-signed, key {s.get('key_id')}" if "signature" in s else "unsigned")
-        comment = f": &ldquo;{esc(s.get('comment'))}&rdquo;" if s.get("comment") else ""
-        items.append(f"<li>{esc(s.get('reviewer'))}, {esc(s.get('signed_at'))} ({esc(kind)}; "
-                     f"covers fingerprint {esc(s.get('fingerprint'))}){comment}</li>")
-    return ("<p>Sign-offs as written in the record (checked only by "
-            "<code>beliefledger verify</code>):</p><ul>" + "".join(items) + "</ul>")
+        decision = DECISION_WORDS.get(s.get("decision"), "no decision recorded")
+        n = len(s.get("comments") or [])
+        items.append(f"<li>{esc(s.get('reviewer'))}, {esc(s.get('signed_at'))}: "
+                     f"<b>{esc(decision)}</b>, {n} comment(s) ({esc(kind)}; covers fingerprint "
+                     f"{esc(s.get('fingerprint'))})</li>")
+    return ('<p>Sign-offs as written in the record (see <a href="#Reviews">Reviews</a>; '
+            "checked only by <code>beliefledger verify</code>):</p><ul>" + "".join(items)
+            + "</ul>")
+
+
+def _cell_comments(signoffs: list[Any]) -> dict[int, str]:
+    """Cell number -> the reviewers' comments on it, as an aside shown after the cell."""
+    from .reviews import DECISION_WORDS
+
+    found: dict[int, list[str]] = {}
+    for s in signoffs:
+        if not isinstance(s, dict):
+            continue
+        for c in s.get("comments") or []:
+            t = c.get("target") or {}
+            if t.get("kind") == "cell" and isinstance(t.get("cell"), int):
+                found.setdefault(t["cell"], []).append(
+                    f"<li><b>{esc(c.get('id'))}</b> {esc(c.get('text'))} <small>"
+                    f"({esc(s.get('reviewer'))}, "
+                    f"{esc(DECISION_WORDS.get(s.get('decision'), ''))})</small></li>")
+    return {n: ('<aside class="bl-review-aside"><p>Reviewer comments on this cell:</p><ul>'
+                + "".join(v) + "</ul></aside>") for n, v in found.items()}
 
 
 def render_html(nb: dict[str, Any]) -> str:
@@ -248,6 +272,7 @@ def render_html(nb: dict[str, Any]) -> str:
     header = meta.get("header") or {}
     title = next((c["title"] for c in meta.get("cases", [])), "beliefledger record")
     parts = []
+    asides = _cell_comments(meta.get("signoffs") or [])
     for i, cell in enumerate(nb.get("cells", [])):
         role = ((cell.get("metadata") or {}).get(META_KEY) or {}).get("role")
         cls = "bl-cell" + (" bl-generated" if role else "")
@@ -267,7 +292,8 @@ def render_html(nb: dict[str, Any]) -> str:
                 body += (f'<div class="bl-label">{esc(label)}</div>'
                          f'<pre class="bl-src"><code>{esc(src)}</code></pre>')
             body += "".join(render_output(o) for o in cell.get("outputs", []))
-            parts.append(f'<section class="{cls} bl-code" id="{ident}">{body}</section>')
+            parts.append(f'<section class="{cls} bl-code" id="{ident}">{body}'
+                         f"{asides.get(i + 1, '')}</section>")
         else:
             parts.append(f'<section class="{cls} bl-raw" id="{ident}"><pre>{esc(src)}</pre>'
                          "</section>")

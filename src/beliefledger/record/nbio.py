@@ -14,7 +14,7 @@ from typing import Any
 
 from ..casefile import atomic_write_text
 from ..errors import RecordError
-from .canonical import META_KEY, RECORD_FORMAT, RECORD_VERSION
+from .canonical import META_KEY, READABLE_RECORD_VERSIONS, RECORD_FORMAT, RECORD_VERSION
 
 MAX_NOTEBOOK_BYTES = 256 * 1024 * 1024
 """Largest notebook or record read (bytes)."""
@@ -185,10 +185,10 @@ def record_meta(nb: Mapping[str, Any], label: str) -> dict[str, Any]:
     ver = meta.get("record_version")
     if isinstance(ver, bool) or not isinstance(ver, int):
         raise RecordError(f"{label}: record_version {ver!r:.40} is not an integer")
-    if ver != RECORD_VERSION:
+    if ver not in READABLE_RECORD_VERSIONS:
         hint = "upgrade beliefledger" if ver > RECORD_VERSION else "no reader for it exists"
-        raise RecordError(f"{label} is record version {ver}; this tool reads version "
-                          f"{RECORD_VERSION} ({hint})")
+        raise RecordError(f"{label} is record version {ver}; this tool reads versions "
+                          f"{', '.join(map(str, READABLE_RECORD_VERSIONS))} ({hint})")
     man = meta.get("manifest")
     if not isinstance(man, dict):
         raise RecordError(f"{label}: the record has no manifest (malformed record)")

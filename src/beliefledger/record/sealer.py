@@ -25,11 +25,11 @@ from .canonical import (
     ALGORITHM,
     CANONICAL_JSON,
     KEPT_CELL_METADATA,
-    MANIFEST_ROLE,
     META_KEY,
     RECORD_FORMAT,
     RECORD_ROLE,
     RECORD_VERSION,
+    UNHASHED_ROLES,
     WIDGET_STATE_MIME,
     WIDGET_VIEW_MIME,
     canonical_bytes,
@@ -73,7 +73,7 @@ class SealResult:
 
 def analyst_cells(nb: dict[str, Any]) -> list[dict[str, Any]]:
     """The notebook's own cells: generated record cells from an earlier seal removed."""
-    return [c for c in nb["cells"] if cell_role(c) not in (RECORD_ROLE, MANIFEST_ROLE)]
+    return [c for c in nb["cells"] if cell_role(c) not in (RECORD_ROLE, *UNHASHED_ROLES)]
 
 
 def prepare(nb: dict[str, Any]) -> dict[str, Any]:

@@ -283,7 +283,7 @@ def chart_svgs(ledger, ledgers) -> tuple[list[tuple[str, str]], str | None]:
 
 # --------------------------------------------------------------------------- assembly
 
-SECTIONS = (("Summary", "summary"), ("Cautions", "cautions"),
+SECTIONS = (("Summary", "summary"), ("Cautions", "cautions"), ("Reviews", "reviews"),
             ("The notebook as executed", "notebook"),
             ("Assumption register", "assumption-register"), ("Review flags", "flags"),
             ("Ledger", "ledger"), ("Charts", "charts"), ("Analyses", "analyses"),
@@ -293,9 +293,10 @@ markdown headings; links use the anchor Jupyter gives a heading (spaces as hyphe
 which the offline HTML copy gives them too."""
 
 
-FRONT_CELLS = 5
+FRONT_CELLS = 7
 """Generated cells before the analyst's: front matter, summary (text and output),
-cautions, and the heading of the notebook section."""
+cautions, the reviews (heading and the review cell), and the heading of the notebook
+section."""
 
 
 def anchor(heading: str) -> str:
@@ -350,10 +351,13 @@ def record_cells(header: Mapping[str, Any], cases: list[Any], title: str
                  ) -> tuple[list[dict[str, Any]], list[dict[str, Any]]]:
     """The generated cells: (the cells before the analyst's notebook, the cells after it,
     except the manifest)."""
+    from .reviews import review_cells
+
     objs = [c.case for c in cases]
     done: list[CaseAnalyses] = [analyse(item) for item in cases]
+    review_front, review_register = review_cells({"signoffs": []}, {c.title: c for c in objs})
     cautions = cautions_text(objs)
-    present = {"summary", "cautions", "notebook", "assumption-register", "flags", "ledger", "charts", "environment",
+    present = {"summary", "cautions", "reviews", "notebook", "assumption-register", "flags", "ledger", "charts", "environment",
                "manifest"}
     if any(a.parts for a in done):
         present.add("analyses")
@@ -364,6 +368,10 @@ def record_cells(header: Mapping[str, Any], cases: list[Any], title: str
              _out_cell("summary", [html_output(summary_html(a), summary_text(a))
                                    for a in done]),
              _md_cell("cautions", f"## {_heading('cautions')}\n\n{cautions}"),
+             _md_cell("reviews", f"## {_heading('reviews')}\n\nEvery reviewer's sign-off: "
+                      "decision, checklist, comments, and whether the signature checked when "
+                      "it was written (`beliefledger verify` checks them again)."),
+             review_front,
              _md_cell("notebook", f"## {_heading('notebook')}\n\nThe analyst's cells and "
                       "their outputs from a fresh run at sealing.")]
     assert len(front) == FRONT_CELLS, "FRONT_CELLS must count the cells before the notebook"
@@ -374,7 +382,8 @@ def record_cells(header: Mapping[str, Any], cases: list[Any], title: str
                      "up to six significant figures, longer ones to four; the case embedded "
                      "in the record holds every number exactly."),
             _out_cell("assumption-register", [html_output(assumption_register_html(c), f"assumption "
-                                               f"register of {c.title!r}") for c in objs])]
+                                               f"register of {c.title!r}") for c in objs]),
+            review_register]
     find_out, ledger_out, chart_out, analysis_out = [], [], [], []
     for item, a in zip(cases, done, strict=True):
         case, ledger = item.case, item.ledger
@@ -395,7 +404,7 @@ def record_cells(header: Mapping[str, Any], cases: list[Any], title: str
             analysis_out.append(html_output(f"<h3>{esc(case.title)}: {esc(part.heading)}</h3>"
                                             f"{origin}{part.html}", part.heading))
     back.append(_md_cell("flags", f"## {_heading('flags')}\n\nWhat the checks flag for a "
-                         "reviewer (zero priors, eliminated hypotheses, shared sources...)."))
+                         "reviewer (zero priors, eliminated hypotheses, shared sources and more)."))
     back.append(_out_cell("flags", find_out))
     back.append(_md_cell("ledger", f"## {_heading('ledger')}\n\nThe probability of each "
                          "hypothesis after each evidence step, under the active prior "

@@ -1,4 +1,15 @@
-"""Reviewer sign-off: an entry covering the root digest, optionally Ed25519-signed.
+"""Reviewer sign-off: an entry covering the root digest and the sign-offs before it,
+optionally Ed25519-signed.
+
+A sign-off (version 2) names the record's root digest, the digest of the
+sign-off before it (``previous``; none for the first) and its own digest
+(``entry_sha256``), with the reviewer's decision, ticked checklist and
+comments. Removing, reordering or editing an earlier sign-off therefore
+breaks the chain at the next one; editing a signed one breaks its signature.
+Deleting the *last* sign-off leaves a shorter, valid chain: quote the chain
+head (``chain_head``) outside the file as you quote the fingerprint.
+Version-1 sign-offs (before chaining) are still checked, and said to be
+unchained.
 
 Levels of protection, plainly:
 
@@ -32,6 +43,15 @@ from ..errors import RecordError
 from .canonical import canonical_bytes, fingerprint
 
 SIGNED_FIELDS = ("reviewer", "comment", "signed_at", "root", "record_format")
+"""The fields a version-1 (unchained) sign-off signed."""
+SIGNOFF_VERSION = 2
+DECISIONS = ("accept", "conditions", "reject")
+"""accept; accept with conditions (stated in the comments); reject."""
+V2_FIELDS = frozenset({"signoff_version", "reviewer", "comment", "signed_at", "root",
+                       "record_format", "fingerprint", "previous", "decision", "checklist",
+                       "comments", "entry_sha256", "public_key", "key_id", "algorithm",
+                       "signature"})
+KEY_FIELDS = ("public_key", "key_id", "algorithm", "signature")
 
 
 def _crypto():
@@ -123,20 +143,54 @@ def load_public_key_raw(path: str | Path) -> bytes:
     return key.public_bytes(serialization.Encoding.Raw, serialization.PublicFormat.Raw)
 
 
+def entry_digest(entry: Any) -> str:
+    """SHA-256 of a whole sign-off entry (signature included): what the next one names."""
+    return hashlib.sha256(canonical_bytes(entry)).hexdigest()
+
+
+def chain_head(signoffs: list[Any]) -> str | None:
+    """A short form of the last sign-off's digest, to quote outside the file."""
+    if not signoffs:
+        return None
+    return fingerprint(entry_digest(signoffs[-1]))
+
+
+def _own_digest(entry: dict[str, Any]) -> str:
+    return hashlib.sha256(canonical_bytes({k: v for k, v in entry.items()
+                                           if k not in ("entry_sha256", *KEY_FIELDS)})).hexdigest()
+
+
 def make_signoff(root: str, reviewer: str, comment: str = "", *, key_path: str | Path | None = None,
-                 signed_at: str | None = None) -> dict[str, Any]:
-    """A sign-off entry covering ``root``; signed when ``key_path`` is given."""
+                 signed_at: str | None = None, decision: str | None = None,
+                 checklist: Any = None, comments: list[dict[str, Any]] | None = None,
+                 previous: list[Any] | None = None) -> dict[str, Any]:
+    """A sign-off entry covering ``root`` and the sign-offs ``previous`` (the list already
+    in the record); signed when ``key_path`` is given."""
     reviewer = (reviewer or "").strip()
     if not reviewer:
         raise RecordError("a sign-off needs the reviewer's name: --reviewer NAME")
     if len(reviewer) > 200 or len(comment or "") > 20_000:
         raise RecordError("reviewer name (200) or comment (20,000 characters) is too long")
+    if decision not in DECISIONS:
+        raise RecordError(f"decision {decision!r:.40} is not one of {', '.join(DECISIONS)}: "
+                          "--decision accept (the record stands), conditions (it stands if the "
+                          "comments are met) or reject")
+    comments = list(comments or [])
+    if decision != "accept" and not comments and not (comment or "").strip():
+        raise RecordError(f"a '{decision}' decision needs the reasons: give --comments FILE "
+                          "(comments on particular numbers) or --comment TEXT")
+    prev = list(previous or [])
     entry: dict[str, Any] = {
-        "reviewer": reviewer, "comment": comment or "",
+        "signoff_version": SIGNOFF_VERSION,
+        "reviewer": reviewer, "comment": comment or "", "decision": decision,
         "signed_at": signed_at or datetime.now(UTC).strftime("%Y-%m-%dT%H:%M:%SZ"),
         "root": root, "record_format": "beliefledger-record",
         "fingerprint": fingerprint(root),
+        "previous": entry_digest(prev[-1]) if prev else None,
+        "checklist": checklist if checklist is not None else {},
+        "comments": comments,
     }
+    entry["entry_sha256"] = _own_digest(entry)
     if key_path is not None:
         _, serialization, _ = _crypto()
         key = load_private_key(key_path)
@@ -144,12 +198,16 @@ def make_signoff(root: str, reviewer: str, comment: str = "", *, key_path: str |
                                             serialization.PublicFormat.Raw)
         entry["public_key"] = base64.b64encode(raw).decode("ascii")
         entry["key_id"] = key_id(raw)
-        entry["signature"] = base64.b64encode(key.sign(signed_bytes(entry))).decode("ascii")
         entry["algorithm"] = "ed25519"
+        entry["signature"] = base64.b64encode(key.sign(signed_bytes(entry))).decode("ascii")
     return entry
 
 
 def signed_bytes(entry: dict[str, Any]) -> bytes:
+    """What a signature covers: a version-2 entry without its signature (so the root, the
+    previous sign-off, the decision, checklist and comments); a version-1 entry's fields."""
+    if entry.get("signoff_version") == SIGNOFF_VERSION:
+        return canonical_bytes({k: v for k, v in entry.items() if k != "signature"})
     return canonical_bytes({k: entry.get(k) for k in SIGNED_FIELDS})
 
 
@@ -176,14 +234,18 @@ class SignoffStatus:
                 f"{self.status}: {self.detail}")
 
 
-def check_signoff(index: int, entry: Any, root: str) -> SignoffStatus:
-    """Check a sign-off against the recomputed root digest (and its signature)."""
+def check_signoff(index: int, entry: Any, root: str, previous: Any = None) -> SignoffStatus:
+    """Check a sign-off against the recomputed root digest, the sign-off before it in the
+    list (``previous``; None for the first) and its signature. ``status`` is ``valid``,
+    ``broken`` or ``missing-from-chain`` (the sign-off it names as its predecessor is not
+    the one before it: an earlier one was removed, reordered or replaced)."""
     if not isinstance(entry, dict):
         return SignoffStatus(index, "?", "?", False, None, "broken", "entry is not an object")
     reviewer = str(entry.get("reviewer", "?"))
     when = str(entry.get("signed_at", "?"))
     signed = "signature" in entry
     kid = entry.get("key_id") if signed else None
+    v2 = entry.get("signoff_version") == SIGNOFF_VERSION
 
     def st(status: str, detail: str) -> SignoffStatus:
         return SignoffStatus(index, reviewer, when, signed, kid, status, detail)
@@ -194,13 +256,29 @@ def check_signoff(index: int, entry: Any, root: str) -> SignoffStatus:
                             f"{root[:16]}...)")
     if entry.get("fingerprint") != fingerprint(root):
         return st("broken", "the fingerprint written in the sign-off is not the root's")
-    if set(entry) - {*SIGNED_FIELDS, "fingerprint", "public_key", "key_id", "signature",
-                     "algorithm"}:
+    allowed = V2_FIELDS if v2 else {*SIGNED_FIELDS, "fingerprint", *KEY_FIELDS}
+    if set(entry) - allowed:
         return st("broken", "the sign-off has fields no signer writes")
+    if v2:
+        if entry.get("decision") not in DECISIONS:
+            return st("broken", f"decision {entry.get('decision')!r:.30} is not one a signer "
+                                "writes")
+        if entry.get("entry_sha256") != _own_digest(entry):
+            return st("broken", "its content (decision, checklist, comments, names or times) "
+                                "was edited after signing")
+        want = entry_digest(previous) if previous is not None else None
+        if entry.get("previous") != want:
+            what = ("it names no predecessor, yet sign-offs come before it" if
+                    entry.get("previous") is None else
+                    "it names a predecessor that is not the sign-off before it" if previous
+                    is not None else "it names a predecessor, but it is first in the list")
+            return st("missing-from-chain", f"{what}: an earlier sign-off was removed, "
+                                            "reordered or edited")
     if not signed:
-        if {"public_key", "key_id", "algorithm"} & set(entry):
+        if set(KEY_FIELDS) & set(entry):
             return st("broken", "the sign-off carries key fields but no signature")
-        return st("valid", "covers the current root digest (unsigned: proves no identity)")
+        text = "covers the current root digest (unsigned: proves no identity)"
+        return st("valid", text + ("" if v2 else "; made before sign-offs were chained"))
     ed25519, _, invalid = _crypto()
     try:
         raw = base64.b64decode(entry.get("public_key", ""), validate=True)
@@ -216,8 +294,17 @@ def check_signoff(index: int, entry: Any, root: str) -> SignoffStatus:
         pub.verify(sig, signed_bytes(entry))
     except invalid:
         return st("broken", "the Ed25519 signature does not match the entry")
-    return st("valid", "Ed25519 signature over the current root digest checks")
+    return st("valid", "Ed25519 signature over the current root digest checks"
+              + (", covering the decision, checklist, comments and the sign-offs before it"
+                 if v2 else "; made before sign-offs were chained"))
 
 
-__all__ = ["keygen", "make_signoff", "check_signoff", "SignoffStatus", "key_id",
+def check_chain(signoffs: list[Any], root: str) -> list[SignoffStatus]:
+    """Every sign-off checked in order, each against the one before it."""
+    return [check_signoff(i, s, root, signoffs[i - 1] if i else None)
+            for i, s in enumerate(signoffs)]
+
+
+__all__ = ["keygen", "make_signoff", "check_signoff", "check_chain", "chain_head",
+           "entry_digest", "DECISIONS", "SignoffStatus", "key_id",
            "load_public_key_raw", "load_private_key", "signed_bytes"]

@@ -56,7 +56,8 @@ class Problem:
 INTEGRITY_CODES = frozenset({"cell-changed", "cell-added", "cell-removed", "cell-moved",
                              "case-changed", "case-added", "case-removed", "header-changed",
                              "root-mismatch", "manifest-cell", "case-not-as-shown",
-                             "fingerprint-mismatch", "sign-off-broken", "key-not-trusted"})
+                             "fingerprint-mismatch", "sign-off-broken", "sign-off-missing",
+                             "review-cell", "key-not-trusted"})
 REPRODUCTION_CODES = frozenset({"results-differ", "case-unreadable"})
 
 
@@ -74,6 +75,9 @@ class VerifyResult:
     problems: list[Problem] = field(default_factory=list)
     warnings: list[Problem] = field(default_factory=list)
     signoffs: list[Any] = field(default_factory=list)
+    chain_head: str | None = None
+    """Short digest of the last sign-off: quote it with the fingerprint, since deleting the
+    last sign-off leaves a valid, shorter chain."""
 
     @property
     def intact(self) -> bool:
@@ -95,7 +99,8 @@ class VerifyResult:
                 "tolerance": RESULT_TOL,
                 "problems": [p.to_dict() for p in self.problems],
                 "warnings": [w.to_dict() for w in self.warnings],
-                "signoffs": [s.to_dict() for s in self.signoffs]}
+                "signoffs": [s.to_dict() for s in self.signoffs],
+                "chain_head": self.chain_head}
 
     def text(self) -> str:
         head = ("INTACT and reproducible" if self.ok else
@@ -114,6 +119,8 @@ class VerifyResult:
         if self.signoffs:
             lines.append("Sign-offs:")
             lines += [f"  - {s}" for s in self.signoffs]
+            lines.append(f"  chain head {self.chain_head} (quote it with the fingerprint: "
+                         "removing the last sign-off leaves a shorter valid chain)")
         return "\n".join(lines)
 
     def __repr__(self) -> str:
@@ -305,7 +312,7 @@ def verify_notebook(nb: dict[str, Any], meta: dict[str, Any], *, path: str = "re
     from .canonical import ALGORITHM, CANONICAL_JSON, case_digest
     from .collect import collect_envelopes
     from .sections import manifest_cell
-    from .signing import check_signoff, key_id
+    from .signing import chain_head, check_chain, key_id
 
     man = meta["manifest"]
     header = meta["header"]
@@ -401,12 +408,20 @@ def verify_notebook(nb: dict[str, Any], meta: dict[str, Any], *, path: str = "re
         if not fp.startswith(want):
             problems.append(Problem("fingerprint-mismatch", "fingerprint",
                                     f"expected {want}, the record's content gives {fp}"))
-    # sign-offs
-    statuses = [check_signoff(i, s, root) for i, s in enumerate(meta.get("signoffs", []))]
+    # sign-offs: each checked against the root and the one before it (the chain)
+    signoffs = meta.get("signoffs", [])
+    if not isinstance(signoffs, list):
+        signoffs = [signoffs]
+    statuses = check_chain(signoffs, root)
     for s in statuses:
         if s.status != "valid":
-            problems.append(Problem("sign-off-broken", f"sign-off {s.index + 1} ({s.reviewer})",
-                                    s.detail))
+            kid = f", key {s.key_id}" if s.key_id else ""
+            problems.append(Problem("sign-off-missing" if s.status == "missing-from-chain"
+                                    else "sign-off-broken",
+                                    f"sign-off {s.index + 1} ({s.reviewer}{kid})", s.detail))
+    # the review cells show exactly the sign-offs (record version 3 on)
+    if meta.get("record_version", 2) >= 3:
+        problems += _check_review_cells(cells, meta)
     if public_keys:
         trusted = {key_id(k) for k in public_keys}
         if not any(s.status == "valid" and s.key_id in trusted for s in statuses):
@@ -420,7 +435,36 @@ def verify_notebook(nb: dict[str, Any], meta: dict[str, Any], *, path: str = "re
                         sealed_at=str(header.get("sealed_at", "?")),
                         cases=[str(e.get("title")) for e in entries if isinstance(e, dict)],
                         cells=len(cells), problems=problems, warnings=warnings,
-                        signoffs=statuses)
+                        signoffs=statuses, chain_head=chain_head(signoffs))
+
+
+def _check_review_cells(cells: list[dict[str, Any]], meta: dict[str, Any]) -> list[Problem]:
+    from .canonical import REVIEW_ROLE
+    from .reviews import FRONT_SECTION, REGISTER_SECTION, review_cells
+
+    found = {}
+    for i, c in enumerate(cells):
+        if cell_role(c) == REVIEW_ROLE:
+            sec = (c.get("metadata") or {}).get("beliefledger", {}).get("section")
+            if sec in found:
+                return [Problem("review-cell", _cell_label(cells, i),
+                                f"a second review cell of section {sec!r}")]
+            found[sec] = i
+    want = dict(zip((FRONT_SECTION, REGISTER_SECTION), review_cells(meta), strict=True))
+    problems = []
+    for sec, cell in want.items():
+        if sec not in found:
+            problems.append(Problem("review-cell", f"review cell {sec!r}",
+                                    "is missing from the record"))
+        elif cell_content(cells[found[sec]]) != cell_content(cell):
+            problems.append(Problem("review-cell", _cell_label(cells, found[sec]),
+                                    "the reviews shown differ from the sign-offs in the "
+                                    "record's metadata (a decision, comment or name was "
+                                    "edited, or a sign-off removed)"))
+    for sec in set(found) - set(want):
+        problems.append(Problem("review-cell", _cell_label(cells, found[sec]),
+                                f"unknown review section {sec!r}"))
+    return problems
 
 
 def verify(path: str | Path, *, expect: str | None = None,
