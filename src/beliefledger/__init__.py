@@ -19,7 +19,7 @@ _EXPORTS: dict[str, str] = {
     # model
     "Case": "case", "Hypothesis": "case", "Evidence": "case", "Source": "case",
     "Scenario": "case", "UNSOURCED": "case", "BASE_SCENARIO": "case",
-    "JointGroup": "case",
+    "JointGroup": "case", "Artefact": "case",
     "CaseError": "errors", "CaseTypeError": "errors", "CaseFileError": "errors",
     "RecordError": "errors",
     # engine and review flags

@@ -42,7 +42,8 @@ def _cmd_seal(args: argparse.Namespace) -> int:
 def _cmd_verify(args: argparse.Namespace) -> int:
     from .verifier import verify
 
-    res = verify(args.record, expect=args.expect, public_keys=args.public_key)
+    res = verify(args.record, expect=args.expect, public_keys=args.public_key,
+                 artefacts=args.artefacts)
     if args.json:
         print(json.dumps(res.to_dict(), indent=1, ensure_ascii=False))
     else:
@@ -168,6 +169,9 @@ def add_parsers(sub: argparse._SubParsersAction) -> None:
     v.add_argument("--public-key", action="append", metavar="PUBFILE",
                    help="a reviewer's public key; require a valid sign-off signed by it "
                         "(repeatable)")
+    v.add_argument("--artefacts", metavar="DIR",
+                   help="folder of the evidence files: check that each artefact the record "
+                        "lists is there with its recorded size and SHA-256")
     v.set_defaults(handler=_cmd_verify)
 
     f = sub.add_parser("diff", help="what changed between two records or case files",
