@@ -69,6 +69,7 @@ _INSTALL_HINT = {
     "ipywidgets": "notebook", "altair": "notebook", "vl_convert": "notebook",
     "nbformat": "notebook", "nbclient": "notebook", "nbconvert": "notebook",
     "cryptography": "notebook", "dask": "dask", "distributed": "dask",
+    "openpyxl": "excel", "playwright": "pdf",
 }
 
 __all__ = sorted(_EXPORTS) + ["__version__"]
