@@ -61,7 +61,7 @@ LAYERS = {
     "errors": 0, "_version": 0, "_checks": 0.1, "_logmath": 0.1, "_files": 0.1, "display": 0.2,
     "case.members": 1.0, "case.artefacts": 1.1, "case.parsing": 1.1, "case.extras": 1.1, "case.dependence": 1.1,
     "case.serial": 1.2, "case.model": 1.3, "case": 1.4,
-    "flags": 2, "casefile": 3, "engine": 3,
+    "flags": 2, "casefile": 3, "workbook": 3.1, "engine": 3,
     "measures": 4, "estimates": 5, "uncertainty": 6, "decision": 6,
     "elicit": 7, "montecarlo": 7, "sensitivity": 7, "value": 7, "batch": 7, "examples": 7,
     "chartdata": 8, "figures": 9, "charts": 10,
@@ -76,7 +76,7 @@ LAYERS = {
 }
 # the case's lazy convenience methods (update, save, reprs) may reach upward
 ALLOWED_UPWARD = {("case.model", "engine"), ("case.model", "casefile"),
-                  ("case.model", "display")}
+                  ("case.model", "display"), ("case.model", "workbook")}
 
 
 def _module_name(path: Path) -> str:

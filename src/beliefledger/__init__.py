@@ -21,7 +21,7 @@ _EXPORTS: dict[str, str] = {
     "Scenario": "case", "UNSOURCED": "case", "BASE_SCENARIO": "case",
     "JointGroup": "case", "Artefact": "case",
     "CaseError": "errors", "CaseTypeError": "errors", "CaseFileError": "errors",
-    "RecordError": "errors",
+    "RecordError": "errors", "WorkbookError": "errors",
     # engine and review flags
     "Ledger": "engine", "update": "engine", "update_all": "engine",
     "Flag": "flags", "diagnose": "flags",

@@ -1303,6 +1303,30 @@ class Case:
             raise CaseError(f"cannot read hypotheses CSV {str(path)!r}: {exc}") from exc
         return cls(title, frame, **kwargs)
 
+    @classmethod
+    def from_excel(cls, path: str | Path, *, strict: bool = True) -> Case:
+        """Read a case from an Excel workbook in the layout the README documents (a sheet
+        of hypotheses with priors and sources, one sheet per evidence item or one long
+        sheet of likelihoods; see :mod:`beliefledger.workbook`).
+
+        ``strict=True`` refuses priors or likelihood columns that do not sum to 1;
+        ``strict=False`` keeps them as typed (the ledger flags them). A bad cell raises
+        :class:`~beliefledger.errors.WorkbookError` naming the sheet, the cell (A1
+        notation) and the fix; nothing is made then.
+        """
+        from ..workbook import read_workbook
+
+        return read_workbook(path, strict=strict)
+
+    def to_excel(self, path: str | Path, *, layout: str = "sheets") -> Path:
+        """Write the case as an Excel workbook :meth:`from_excel` reads back unchanged,
+        atomically, with the assumption register as an extra sheet for a reviewer to
+        annotate (not read back). ``layout="long"``: one long sheet of likelihoods
+        instead of one sheet per item. Returns the path."""
+        from ..workbook import write_workbook
+
+        return write_workbook(self, path, layout=layout)
+
     def save(self, path: str | Path) -> Path:
         """Write the case to a JSON case file atomically; returns the path."""
         from ..casefile import save_case
