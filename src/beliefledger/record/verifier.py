@@ -302,19 +302,27 @@ def reproduce(entries: list[dict[str, Any]]) -> list[Problem]:
 
 
 def _case_artefacts(entries: list[dict[str, Any]]) -> list[tuple[str, str, Any]]:
-    """(case title, evidence item, Artefact) for every artefact the embedded cases list
-    (a case that cannot be rebuilt is skipped here: reproduce reports it)."""
-    from ..casefile import from_envelope
+    """(case title, evidence item, Artefact) for every artefact the embedded cases list,
+    read from their JSON without rebuilding the cases (an entry that does not parse is
+    skipped here: the digests and the reproduction check report it)."""
+    from ..case.artefacts import artefact_from_dict
     from ..errors import CaseError
 
     out = []
     for k, entry in enumerate(entries):
         title = str(entry.get("title", f"#{k + 1}"))
-        try:
-            case = from_envelope(entry.get("envelope"), origin=f"embedded case {title!r}")
-        except (CaseError, AttributeError):
-            continue
-        out += [(title, ev.name, a) for ev in case.evidence.values() for a in ev.artefacts]
+        env = entry.get("envelope")
+        body = env.get("case") if isinstance(env, dict) else None
+        items = body.get("evidence") if isinstance(body, dict) else None
+        for ev in items if isinstance(items, list) else []:
+            if not isinstance(ev, dict) or not isinstance(ev.get("artefacts"), list):
+                continue
+            for i, raw in enumerate(ev["artefacts"]):
+                try:
+                    art = artefact_from_dict(raw, f"artefact #{i + 1}")
+                except (CaseError, TypeError):
+                    continue
+                out.append((title, str(ev.get("name")), art))
     return out
 
 
