@@ -54,7 +54,7 @@ def test_failed_save_keeps_the_previous_file(tmp_path, small_case, monkeypatch):
     def boom(*a, **k):
         raise OSError("disk full")
 
-    monkeypatch.setattr(casefile.os, "replace", boom)
+    monkeypatch.setattr(os, "replace", boom)
     small_case.observe("E3", "yes")
     with pytest.raises(OSError, match="disk full"):
         small_case.save(path)

@@ -58,10 +58,10 @@ SRC = Path(__file__).resolve().parent.parent / "src" / "beliefledger"
 # Imports run downward only. A module may import modules of a lower or equal
 # level; a package's modules are ordered among themselves by the fraction.
 LAYERS = {
-    "errors": 0, "_version": 0, "_checks": 0.1, "_logmath": 0.1, "display": 0.2,
-    "case.members": 1.0, "case.parsing": 1.1, "case.extras": 1.1, "case.dependence": 1.1,
+    "errors": 0, "_version": 0, "_checks": 0.1, "_logmath": 0.1, "_files": 0.1, "display": 0.2,
+    "case.members": 1.0, "case.artefacts": 1.1, "case.parsing": 1.1, "case.extras": 1.1, "case.dependence": 1.1,
     "case.serial": 1.2, "case.model": 1.3, "case": 1.4,
-    "flags": 2, "casefile": 3, "engine": 3, "calls": 3.5,
+    "flags": 2, "casefile": 3, "workbook": 3.1, "engine": 3, "calls": 3.5,
     "measures": 4, "estimates": 5, "uncertainty": 6, "decision": 6,
     "elicit": 7, "montecarlo": 7, "sensitivity": 7, "value": 7, "batch": 7, "examples": 7,
     "chartdata": 8, "figures": 9, "charts": 10,
@@ -72,13 +72,13 @@ LAYERS = {
     "record.analyses": 11.25, "record.summary": 11.28, "record.reviews": 11.29,
     "record.checklist": 11.45,
     "record.sections": 11.3, "record.html": 11.3, "record.sealer": 11.4,
-    "record.verifier": 11.5, "record.differ": 11.6,
+    "record.verifier": 11.5, "record.pdf": 11.55, "record.differ": 11.6,
     "record.review": 11.7, "record.commands": 11.9, "record": 11.95,
     "cli": 12, "": 13,
 }
 # the case's lazy convenience methods (update, save, reprs) may reach upward
 ALLOWED_UPWARD = {("case.model", "engine"), ("case.model", "casefile"),
-                  ("case.model", "display")}
+                  ("case.model", "display"), ("case.model", "workbook")}
 
 
 def _module_name(path: Path) -> str:

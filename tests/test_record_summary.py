@@ -266,3 +266,15 @@ def test_no_float_noise_anywhere_in_the_record():
     html_parts = re.findall(r'"text/html": "(.*?)(?<!\\)"', rec)
     assert not any(re.search(r"\d\.\d*0000000\d", h) or re.search(r"\d\.\d*9999999\d", h)
                    for h in html_parts)
+
+
+def test_the_register_lists_each_artefact_beside_its_item(tmp_path):
+    photo = tmp_path / "IMG_0412.jpg"
+    photo.write_bytes(b"invented test bytes, not a photograph")
+    case = bl.example_case()
+    case.attach("relief valve tell-tale", photo, note="disc photographed on site", who="T. Ng")
+    reg = section_html(seal(case), "assumption-register")
+    import hashlib
+
+    assert "IMG_0412.jpg" in reg and hashlib.sha256(photo.read_bytes()).hexdigest() in reg
+    assert "relief valve tell-tale" in reg.split("IMG_0412.jpg")[0].rsplit("<tr>", 1)[-1]

@@ -19,9 +19,9 @@ _EXPORTS: dict[str, str] = {
     # model
     "Case": "case", "Hypothesis": "case", "Evidence": "case", "Source": "case",
     "Scenario": "case", "UNSOURCED": "case", "BASE_SCENARIO": "case",
-    "JointGroup": "case",
+    "JointGroup": "case", "Artefact": "case",
     "CaseError": "errors", "CaseTypeError": "errors", "CaseFileError": "errors",
-    "RecordError": "errors",
+    "RecordError": "errors", "WorkbookError": "errors",
     # engine and review flags
     "Ledger": "engine", "update": "engine", "update_all": "engine",
     "Flag": "flags", "diagnose": "flags",
@@ -69,6 +69,7 @@ _INSTALL_HINT = {
     "ipywidgets": "notebook", "altair": "notebook", "vl_convert": "notebook",
     "nbformat": "notebook", "nbclient": "notebook", "nbconvert": "notebook",
     "cryptography": "notebook", "dask": "dask", "distributed": "dask",
+    "openpyxl": "excel", "playwright": "pdf",
 }
 
 __all__ = sorted(_EXPORTS) + ["__version__"]

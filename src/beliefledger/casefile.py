@@ -12,12 +12,11 @@ constructors, so a file can hold nothing a user could not have typed.
 from __future__ import annotations
 
 import json
-import os
-import tempfile
 from collections.abc import Mapping
 from pathlib import Path
 from typing import Any
 
+from ._files import atomic_write_bytes
 from .case import Case
 from .case.serial import SCHEMA_VERSION, upgrade
 from .errors import CaseError, CaseFileError, CaseTypeError
@@ -39,43 +38,22 @@ def dumps(case: Case) -> str:
 
 
 def atomic_write_text(path: str | Path, text: str) -> Path:
-    """Write ``text`` to ``path`` atomically: a temporary file in the same folder,
-    flushed and fsynced, then renamed over the target. A crash at any moment
-    leaves either the old file or the new one, never a half-written file."""
+    """Write ``text`` to ``path`` atomically as UTF-8: a temporary file in the same folder,
+    flushed and fsynced, then renamed over the target. A crash at any moment leaves
+    either the old file or the new one, never a half-written file."""
+    return atomic_write_bytes(_existing_folder(path), text.encode("utf-8"))
+
+
+def atomic_save_bytes(path: str | Path, data: bytes) -> Path:
+    """:func:`atomic_write_text` for bytes (a workbook, a PDF)."""
+    return atomic_write_bytes(_existing_folder(path), data)
+
+
+def _existing_folder(path: str | Path) -> Path:
     target = Path(path)
     folder = target.parent if str(target.parent) else Path(".")
     if not folder.is_dir():
         raise CaseFileError(f"cannot save to {str(target)!r}: folder {str(folder)!r} does not exist")
-    fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=folder)
-    try:
-        # mkstemp makes the file owner-only; keep an existing file's mode, else the
-        # usual mode for a new file under the current umask
-        try:
-            mode = os.stat(target).st_mode & 0o777
-        except FileNotFoundError:
-            umask = os.umask(0)
-            os.umask(umask)
-            mode = 0o666 & ~umask
-        os.chmod(tmp, mode)
-        with os.fdopen(fd, "w", encoding="utf-8", newline="\n") as fh:
-            fh.write(text)
-            fh.flush()
-            os.fsync(fh.fileno())
-        os.replace(tmp, target)
-    except BaseException:
-        try:
-            os.unlink(tmp)
-        except FileNotFoundError:
-            pass
-        raise
-    try:  # make the rename itself durable
-        dfd = os.open(folder, os.O_RDONLY)
-        try:
-            os.fsync(dfd)
-        finally:
-            os.close(dfd)
-    except OSError:
-        pass
     return target
 
 
@@ -159,4 +137,4 @@ def load_case(path: str | Path) -> Case:
 
 
 __all__ = ["save_case", "load_case", "loads", "dumps", "envelope", "from_envelope",
-           "atomic_write_text", "FORMAT", "SCHEMA_VERSION"]
+           "atomic_write_text", "atomic_save_bytes", "FORMAT", "SCHEMA_VERSION"]

@@ -1,4 +1,4 @@
-"""Command line: ``beliefledger demo | show | seal | verify | diff | sign | keygen``.
+"""Command line: ``beliefledger demo | show | seal | verify | pdf | diff | sign | keygen``.
 
 Exit codes: 0 success (for ``verify``: intact and reproducible), 1 a check
 failed (``verify``: not intact), 2 unusable input (a file that cannot be

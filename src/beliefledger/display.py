@@ -158,6 +158,29 @@ def ledger_text(ledger: Ledger, max_cols: int = 12) -> str:
     return "\n".join(lines)
 
 
+def artefacts_html(case: Case) -> str:
+    """Every artefact of the case listed beside its evidence item (file, size, SHA-256,
+    who attached it, when, note, copy), and the items that rest on no file."""
+    rows, bare = [], []
+    for ev in case.evidence.values():
+        if not ev.artefacts:
+            bare.append(ev.name)
+        for a in ev.artefacts:
+            rows.append([ev.name, a.name, f"{a.size:,}", a.sha256, a.who, a.when, a.note,
+                         a.copy or "not copied"])
+    head = '<div class="bl-artefacts"><h4>Evidence artefacts</h4>'
+    if not rows:
+        return (head + "<p>No evidence artefacts attached (no file is tied to any evidence "
+                "item by its digest).</p></div>")
+    out = head + _table(["evidence", "file", "bytes", "SHA-256", "attached by",
+                         "attached (UTC)", "note", "copy kept at"], rows)
+    out += ("<p>Check the files against these digests with <code>beliefledger verify RECORD "
+            "--artefacts FOLDER</code>.</p>")
+    if bare:
+        out += f"<p>Evidence items with no artefact: {esc(', '.join(bare))}.</p>"
+    return out + "</div>"
+
+
 def robustness_html(result) -> str:
     """A robustness result (:func:`beliefledger.robustness`) as a table with its verdict."""
     frame = result.to_frame()
@@ -215,5 +238,6 @@ def fmt_probability(p: float) -> str:
     return f"{x:.4g}"
 
 
-__all__ = ["robustness_html", "simulation_html", "fmt_probability", "fmt_number", "fmt_input", "table_html", "esc", "visible", "case_html",
-           "ledger_html", "ledger_text", "flags_html"]
+__all__ = ["robustness_html", "simulation_html", "fmt_probability", "fmt_number", "fmt_input",
+           "table_html", "esc", "visible", "case_html", "ledger_html", "ledger_text",
+           "flags_html", "artefacts_html"]

@@ -16,6 +16,18 @@ class CaseFileError(CaseError):
     """A case file cannot be read: bad JSON, wrong schema version, bad field."""
 
 
+class WorkbookError(CaseFileError):
+    """A workbook cannot be read as a case; the message names the sheet, the cell (A1
+    notation) and the fix. ``sheet`` and ``cell`` hold them (``None`` when the problem
+    is the whole workbook)."""
+
+    def __init__(self, message: str, *, sheet: str | None = None,
+                 cell: str | None = None) -> None:
+        super().__init__(message)
+        self.sheet = sheet
+        self.cell = cell
+
+
 class RecordError(CaseError):
     """A notebook or record cannot be used: unreadable, malformed or not a record."""
 
@@ -24,4 +36,5 @@ class RecordNotIntact(Exception):
     """Signing was refused because the record fails its integrity check (exit code 1)."""
 
 
-__all__ = ["CaseError", "CaseTypeError", "CaseFileError", "RecordError", "RecordNotIntact"]
+__all__ = ["CaseError", "CaseTypeError", "CaseFileError", "WorkbookError", "RecordError",
+           "RecordNotIntact"]

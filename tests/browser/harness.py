@@ -1,4 +1,4 @@
-"""Drive the workbench template in a real JupyterLab and chromium; report what was shown.
+"""Drive the workbench template in a real Jupyter front end and chromium; report what was shown.
 
 Run by ``test_workbench_browser.py`` (and the widget benchmark) inside a
 network namespace whose only interface is loopback, so any request to the
@@ -6,10 +6,11 @@ internet (a CDN script, a font) fails and is reported instead of passing
 unnoticed. Usage::
 
     python tests/browser/harness.py --out RESULT.json [--screenshot PNG] [--repaints N]
-                                    [--case template|bench]
+                                    [--case template|bench] [--front lab|notebook]
 
 Steps: copy ``templates_nb/workbench.ipynb`` into a fresh folder, start
-JupyterLab from this Python on 127.0.0.1 at a free port, open the notebook
+JupyterLab 4 (``--front lab``, the default) or Jupyter Notebook 7
+(``--front notebook``) from this Python on 127.0.0.1 at a free port, open the notebook
 in Debian's chromium through Playwright, wait for the kernel, run all
 cells, wait for the workbench, read the posterior it shows, pick the
 "uniform" prior scenario, read again, set the relief-valve tell-tale to
@@ -51,7 +52,11 @@ def free_port() -> int:
         return s.getsockname()[1]
 
 
-def start_server(folder: Path, port: int, token: str, log) -> subprocess.Popen:
+FRONTS = {"lab": "JupyterLab 4", "notebook": "Jupyter Notebook 7"}
+
+
+def start_server(folder: Path, port: int, token: str, log, front: str = "lab"
+                 ) -> subprocess.Popen:
     env = dict(os.environ)
     for var, sub in (("JUPYTER_CONFIG_DIR", "config"), ("JUPYTER_RUNTIME_DIR", "runtime"),
                      ("IPYTHONDIR", "ipython")):
@@ -60,12 +65,18 @@ def start_server(folder: Path, port: int, token: str, log) -> subprocess.Popen:
     news = settings / "@jupyterlab" / "apputils-extension" / "notification.jupyterlab-settings"
     news.parent.mkdir(parents=True, exist_ok=True)
     news.write_text(json.dumps({"fetchNews": "false"}))  # no news prompt over the page
-    cmd = [sys.executable, "-m", "jupyterlab", "--ip=127.0.0.1", f"--port={port}",
-           "--no-browser", "--allow-root", f"--IdentityProvider.token={token}",
-           f"--ServerApp.root_dir={folder}", "--LabApp.expose_app_in_browser=True",
-           "--LabApp.news_url=", "--LabApp.extension_manager=readonly",
-           "--LabApp.check_for_updates_class=jupyterlab.NeverCheckForUpdate",
-           f"--LabApp.user_settings_dir={settings}", "--ServerApp.port_retries=0"]
+    common = ["--ip=127.0.0.1", f"--port={port}", "--no-browser", "--allow-root",
+              f"--IdentityProvider.token={token}", f"--ServerApp.root_dir={folder}",
+              "--ServerApp.port_retries=0"]
+    if front == "notebook":  # Notebook 7: the same server, its own application class
+        cmd = [sys.executable, "-m", "notebook", *common,
+               "--JupyterNotebookApp.expose_app_in_browser=True",
+               f"--JupyterNotebookApp.user_settings_dir={settings}"]
+    else:
+        cmd = [sys.executable, "-m", "jupyterlab", *common, "--LabApp.expose_app_in_browser=True",
+               "--LabApp.news_url=", "--LabApp.extension_manager=readonly",
+               "--LabApp.check_for_updates_class=jupyterlab.NeverCheckForUpdate",
+               f"--LabApp.user_settings_dir={settings}"]
     return subprocess.Popen(cmd, stdout=log, stderr=subprocess.STDOUT, env=env,
                             start_new_session=True)
 
@@ -146,7 +157,7 @@ def run(args) -> dict:
     from playwright.sync_api import sync_playwright
 
     result: dict = {"ok": False, "steps": [], "external_requests": [], "console_errors": [],
-                    "case": args.case}
+                    "case": args.case, "front": args.front}
     work = Path(tempfile.mkdtemp(prefix="bl-browser-"))
     folder = work / "nb"
     folder.mkdir()
@@ -156,7 +167,7 @@ def run(args) -> dict:
         shutil.copy(TEMPLATE, folder / "workbench.ipynb")
     port, token = free_port(), os.urandom(16).hex()
     log = open(work / "server.log", "w")  # noqa: SIM115 - closed in finally
-    proc = start_server(folder, port, token, log)
+    proc = start_server(folder, port, token, log, args.front)
     t_start = time.monotonic()
 
     def step(name: str) -> None:
@@ -180,7 +191,9 @@ def run(args) -> dict:
             page.on("console", lambda m: result["console_errors"].append(m.text)
                     if m.type == "error" else None)
             page.set_default_timeout(60_000)
-            page.goto(f"http://127.0.0.1:{port}/lab/tree/workbench.ipynb?reset&token={token}")
+            where = ("notebooks/workbench.ipynb?" if args.front == "notebook"
+                     else "lab/tree/workbench.ipynb?reset&")
+            page.goto(f"http://127.0.0.1:{port}/{where}token={token}")
             page.wait_for_selector(".jp-Notebook .jp-Cell")
             page.wait_for_function(KERNEL_IDLE, timeout=60_000)
             step("kernel idle")
@@ -328,6 +341,8 @@ def main(argv=None) -> int:
     ap.add_argument("--repaints", type=int, default=5, help="chart repaints to time")
     ap.add_argument("--saved", help="after the checks, add and run a cell, save the notebook "
                     "through the page and copy the saved file here")
+    ap.add_argument("--front", choices=sorted(FRONTS), default="lab",
+                    help="the front end: JupyterLab 4 (lab) or Jupyter Notebook 7 (notebook)")
     ap.add_argument("--case", choices=["template", "bench"], default="template",
                     help="the workbench template (and its checks) or the invented 20 x 30 "
                          "benchmark case (repaint timing only)")

@@ -119,6 +119,14 @@ _EXTRAS = st.dictionaries(names.filter(lambda s: s not in RESERVED_EXTRAS), json
                           max_size=2)
 
 
+_FILE_NAMES = names.filter(lambda s: "/" not in s and "\\" not in s and s not in (".", ".."))
+_ARTEFACT = st.fixed_dictionaries(
+    {"name": _FILE_NAMES, "size": st.integers(0, 2**40),
+     "sha256": st.text("0123456789abcdef", min_size=64, max_size=64), "who": texts,
+     "when": st.datetimes().map(lambda t: t.replace(microsecond=0).isoformat() + "Z")},
+    optional={"note": texts, "copy": texts})
+
+
 @st.composite
 def case_dicts(draw, max_hypotheses: int = 6, max_evidence: int = 5,
                max_scenarios: int = 2) -> dict[str, Any]:
@@ -169,6 +177,8 @@ def case_dicts(draw, max_hypotheses: int = 6, max_evidence: int = 5,
                       hyp[draw(st.integers(0, len(hyp) - 1))]) for _ in range(draw(_SMALL))}
             e["entry_sources"] = [{"state": s, "hypothesis": h, "source": draw(sources())}
                                   for s, h in sorted(pairs)]
+        if draw(st.integers(0, 3)) == 0:
+            e["artefacts"] = draw(st.lists(_ARTEFACT, min_size=1, max_size=2))
         evidence.append(e)
     if evidence or draw(st.booleans()):
         d["evidence"] = evidence

@@ -1,5 +1,6 @@
 """Run in a fresh interpreter by test_no_code_from_data: load, verify and diff
-files that hold code, with a Python audit hook watching for code execution.
+files that hold code, and take the case through a workbook and back, with a
+Python audit hook watching for code execution.
 
 Usage: python nocode_probe.py CASE_FILE RECORD OTHER_RECORD MARKER
 Prints one JSON object: the audit events that would mean data ran as code.
@@ -13,6 +14,11 @@ import sys
 
 def main() -> int:
     case_file, record, other, marker = sys.argv[1:5]
+    import tempfile
+    from pathlib import Path
+
+    import openpyxl  # noqa: F401  (imported before the hook: its own modules are code)
+
     import beliefledger as bl
     from beliefledger import casefile, display  # noqa: F401
     from beliefledger.record import diff, differ, html, verifier, verify  # noqa: F401
@@ -48,6 +54,8 @@ def main() -> int:
     d.text()
     diff(case_file, case_file).text()
     html.render_html(json.loads(open(record, encoding="utf-8").read()))
+    book = case.to_excel(Path(tempfile.mkdtemp()) / "case.xlsx")
+    assert bl.Case.from_excel(book).notes == case.notes  # code-like text stays text
     print(json.dumps({"events": seen, "verify_ok": result.ok, "verify_text": text[:200]}))
     return 0
 

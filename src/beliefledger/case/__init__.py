@@ -11,6 +11,7 @@ from .members import (
     BASE_SCENARIO,
     CASE_MIMETYPE,
     UNSOURCED,
+    Artefact,
     Evidence,
     Hypothesis,
     JointGroup,
@@ -20,5 +21,5 @@ from .members import (
 from .model import Case
 from .serial import SCHEMA_VERSION
 
-__all__ = ["Case", "Hypothesis", "Evidence", "JointGroup", "Source", "Scenario", "UNSOURCED",
+__all__ = ["Case", "Artefact", "Hypothesis", "Evidence", "JointGroup", "Source", "Scenario", "UNSOURCED",
            "SUM_TOL", "BASE_SCENARIO", "CASE_MIMETYPE", "SCHEMA_VERSION"]

@@ -1,4 +1,5 @@
-"""The members of a case: sources, hypotheses, prior scenarios, evidence items, joint groups.
+"""The members of a case: sources, hypotheses, prior scenarios, evidence items, joint groups,
+and the artefacts (files) an evidence item rests on.
 
 Every member is immutable: an edit of the case builds new members and swaps
 them in only when the whole new state is valid (see :mod:`.model`).
@@ -108,6 +109,31 @@ class Hypothesis:
 
 
 @dataclass(frozen=True)
+class Artefact:
+    """A file an evidence item rests on (a photograph, a log extract, a laboratory
+    report), known by its name, size and SHA-256 digest: who attached it, when (UTC,
+    ISO 8601) and why. The file itself is not kept in the case; ``copy`` is where a
+    copy was put when it was attached ("" when none was made)."""
+
+    name: str
+    size: int
+    sha256: str
+    who: str
+    when: str
+    note: str = ""
+    copy: str = ""
+
+    FIELDS = ("name", "size", "sha256", "who", "when", "note", "copy")
+
+    def to_dict(self) -> dict[str, Any]:
+        return {f: getattr(self, f) for f in self.FIELDS}
+
+    def __str__(self) -> str:
+        return (f"{self.name} ({self.size:,} bytes, SHA-256 {self.sha256[:16]}...; attached by "
+                f"{self.who} at {self.when})")
+
+
+@dataclass(frozen=True)
 class Scenario:
     """A named alternative set of priors (e.g. "industry base rates")."""
 
@@ -138,6 +164,7 @@ class Evidence:
         "name", "states", "hypotheses", "_table", "observed", "description",
         "source", "shared_source", "likelihood_evidence", "entry_sources", "given",
         "parent_states", "_conditional", "_log", "observed_index", "_sums", "_bad", "_shifted", "_obs_log",
+        "artefacts",
     )
 
     def __init__(
@@ -155,6 +182,7 @@ class Evidence:
         given: str | None = None,
         parent_states: tuple[str, ...] = (),
         conditional: np.ndarray | None = None,
+        artefacts: tuple[Artefact, ...] = (),
     ) -> None:
         self.name = name
         self.states = tuple(states)
@@ -177,6 +205,8 @@ class Evidence:
             conditional = np.array(conditional, dtype=float)
             conditional.setflags(write=False)
         self._conditional = conditional
+        #: the files the item rests on, in the order attached (see :meth:`Case.attach`)
+        self.artefacts = tuple(artefacts)
         self._log: np.ndarray | None = None
         self._sums: np.ndarray | None = None
         self._bad: tuple[int, ...] | None = None
@@ -338,6 +368,8 @@ class Evidence:
                      for j, h in enumerate(self.hypotheses)}
                 for i, ps in enumerate(self.parent_states)
             }
+        if self.artefacts:  # only items with artefacts carry the key: older files are unchanged
+            out["artefacts"] = [a.to_dict() for a in self.artefacts]
         return out
 
     def __repr__(self) -> str:

@@ -48,10 +48,12 @@ from .._checks import (
 from ..errors import CaseError, CaseTypeError
 from . import dependence as dep
 from . import serial
+from .artefacts import make_artefact
 from .extras import hypotheses_changed, validate_extra
 from .members import (
     BASE_SCENARIO,
     CASE_MIMETYPE,
+    Artefact,
     Evidence,
     Hypothesis,
     JointGroup,
@@ -774,6 +776,79 @@ class Case:
         with self._edit("evidence"):
             self._evidence[ev.name] = ev.replace(**changes)
 
+    # ------------------------------------------------------------------ artefacts
+    def attach(self, evidence: str, path: str | Path, *, note: str = "", who: str | None = None,
+               copy_to: str | Path | None = None) -> Artefact:
+        """Record a file the evidence item rests on: its name, size and SHA-256, who
+        attached it and when (UTC). The file is not copied unless ``copy_to`` names a
+        folder to copy it into; ``beliefledger verify SEALED --artefacts DIR`` later
+        checks the files in DIR against these digests.
+
+        Parameters
+        ----------
+        evidence : str
+            The evidence item the file supports.
+        path : path
+            The file (a photograph, a log extract, a laboratory report ...).
+        note : str
+            What the file is, where the original is kept.
+        who : str, optional
+            Who attaches it (default: the case's analyst; one of them is required).
+        copy_to : path, optional
+            A folder to copy the file into (made through a temporary file and a
+            rename; an identical file of that name already there is reused, a
+            different one refused).
+
+        A refused attach (unknown item, missing file, a different file of the same
+        name already attached) changes nothing. Returns the :class:`Artefact`.
+        """
+        ev = self.evidence_item(evidence)
+        by = self.analyst if who is None else who
+        if not isinstance(by, str) or not by.strip():
+            raise CaseError(f"say who attaches the file to evidence '{ev.name}': pass who='...' "
+                            "(or set the case's analyst with set_details(analyst=...))")
+        art, made = make_artefact(path, ev.name, who=by, note=note, copy_to=copy_to)
+        try:
+            for other in self._evidence.values():
+                for a in other.artefacts:
+                    if a.name != art.name:
+                        continue
+                    if a.sha256 != art.sha256:
+                        raise CaseError(
+                            f"a different file named {art.name!r} is already attached to "
+                            f"evidence '{other.name}' (SHA-256 {a.sha256[:16]}...); files are "
+                            "checked by name in one folder, so rename this one before attaching")
+                    if other.name == ev.name:
+                        raise CaseError(f"{art.name!r} is already attached to evidence "
+                                        f"'{ev.name}' (attached by {a.who} at {a.when})")
+            with self._edit("artefacts"):
+                self._evidence[ev.name] = ev.replace(artefacts=(*ev.artefacts, art))
+        except BaseException:
+            if made is not None:  # the refused attach leaves no copy behind either
+                made.unlink(missing_ok=True)
+            raise
+        return art
+
+    def detach(self, evidence: str, name: str) -> None:
+        """Remove the artefact called ``name`` (a file name) from an evidence item."""
+        ev = self.evidence_item(evidence)
+        kept = tuple(a for a in ev.artefacts if a.name != name)
+        if len(kept) == len(ev.artefacts):
+            raise CaseError(f"evidence '{ev.name}' has no artefact {name!r}; its artefacts are "
+                            f"{short_list(a.name for a in ev.artefacts)}")
+        with self._edit("artefacts"):
+            self._evidence[ev.name] = ev.replace(artefacts=kept)
+
+    @property
+    def artefacts(self) -> pd.DataFrame:
+        """Every artefact, one row each, in evidence order: evidence, file, bytes, sha256,
+        who, when (UTC), note, copy."""
+        rows = [{"evidence": ev.name, "file": a.name, "bytes": a.size, "sha256": a.sha256,
+                 "who": a.who, "when": a.when, "note": a.note, "copy": a.copy}
+                for ev in self._evidence.values() for a in ev.artefacts]
+        return pd.DataFrame(rows, columns=["evidence", "file", "bytes", "sha256", "who", "when",
+                                           "note", "copy"])
+
     def observe(self, evidence: str, state: str | None) -> None:
         """Record the observed state of an evidence item (``None``: pending, not observed yet)."""
         ev = self.evidence_item(evidence)
@@ -1257,6 +1332,30 @@ class Case:
         except (OSError, UnicodeDecodeError, pd.errors.ParserError) as exc:
             raise CaseError(f"cannot read hypotheses CSV {str(path)!r}: {exc}") from exc
         return cls(title, frame, **kwargs)
+
+    @classmethod
+    def from_excel(cls, path: str | Path, *, strict: bool = True) -> Case:
+        """Read a case from an Excel workbook in the layout the README documents (a sheet
+        of hypotheses with priors and sources, one sheet per evidence item or one long
+        sheet of likelihoods; see :mod:`beliefledger.workbook`).
+
+        ``strict=True`` refuses priors or likelihood columns that do not sum to 1;
+        ``strict=False`` keeps them as typed (the ledger flags them). A bad cell raises
+        :class:`~beliefledger.errors.WorkbookError` naming the sheet, the cell (A1
+        notation) and the fix; nothing is made then.
+        """
+        from ..workbook import read_workbook
+
+        return read_workbook(path, strict=strict)
+
+    def to_excel(self, path: str | Path, *, layout: str = "sheets") -> Path:
+        """Write the case as an Excel workbook :meth:`from_excel` reads back unchanged,
+        atomically, with the assumption register as an extra sheet for a reviewer to
+        annotate (not read back). ``layout="long"``: one long sheet of likelihoods
+        instead of one sheet per item. Returns the path."""
+        from ..workbook import write_workbook
+
+        return write_workbook(self, path, layout=layout)
 
     def save(self, path: str | Path) -> Path:
         """Write the case to a JSON case file atomically; returns the path."""

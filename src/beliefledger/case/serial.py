@@ -23,6 +23,7 @@ import numpy as np
 
 from .._checks import check_name, check_probability, check_text
 from ..errors import CaseFileError
+from .artefacts import artefact_from_dict
 from .members import BASE_SCENARIO, Evidence, Hypothesis, JointGroup, Scenario, Source
 from .parsing import is_catch_all_name
 
@@ -37,7 +38,7 @@ CASE_KEYS = {"title", "question", "analyst", "notes", "exhaustive", "safety_rela
 HYPOTHESIS_KEYS = {"name", "prior", "description", "source", "catch_all"}
 EVIDENCE_KEYS = {"name", "description", "states", "likelihoods", "observed",
                  "likelihood_evidence", "shared_source", "source", "entry_sources", "given",
-                 "conditional_likelihoods"}
+                 "conditional_likelihoods", "artefacts"}
 GROUP_KEYS = {"name", "members", "kind", "covariance", "joint", "source", "note"}
 SCENARIO_KEYS = {"name", "priors", "source", "note"}
 
@@ -251,11 +252,13 @@ def _evidence_from(e: Any, what: str, names: tuple[str, ...], name_set: set[str]
                                 f"hypothesis {h_!r:.40}, which the item does not have")
         entry_sources[(s_, h_)] = _source(es.get("source", {}), what)
     given, parent_states, cond = _conditional_from_dict(e, what, st, names)
+    arts = tuple(artefact_from_dict(a, f"artefact #{k + 1} of {what}")
+                 for k, a in enumerate(_arr(e.get("artefacts", []), f"artefacts of {what}")))
     return Evidence(name, st, names, table, observed=observed,
                     description=check_text(f"description of {what}", e.get("description", "")),
                     source=_source(e.get("source", {}), f"source of {what}"), shared_source=tag,
                     likelihood_evidence=lik_ev, entry_sources=entry_sources, given=given,
-                    parent_states=parent_states, conditional=cond)
+                    parent_states=parent_states, conditional=cond, artefacts=arts)
 
 
 def _scenario_from(s: Any, what: str, names: tuple[str, ...], name_set: set[str]) -> Scenario:

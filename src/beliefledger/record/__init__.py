@@ -1,4 +1,4 @@
-"""Sealed audit records: seal, verify, diff, sign-off, offline HTML.
+"""Sealed audit records: seal, verify, diff, sign-off, offline HTML and PDF.
 
 Loaded lazily: ``verify`` and ``diff`` read notebooks as plain JSON and
 never import nbformat, nbclient or altair; only ``seal`` starts a kernel.
@@ -16,7 +16,7 @@ _EXPORTS = {
     "register": "collect", "collect_cases": "collect",
     "keygen": "signing", "sign": "review", "make_signoff": "signing",
     "check_signoff": "signing",
-    "render_html": "html",
+    "render_html": "html", "write_pdf": "pdf", "pdf_from_sealed": "pdf",
     "read_record": "nbio",
     "fingerprint": "canonical", "digest": "canonical",
     "load_record": "differ",

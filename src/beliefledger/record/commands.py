@@ -1,4 +1,5 @@
-"""Command-line commands of the record layer: demo, seal, verify, diff, review, sign, keygen.
+"""Command-line commands of the record layer: demo, seal, verify, pdf, diff, review, sign,
+keygen.
 
 Registered by :mod:`beliefledger.cli` through :func:`add_parsers`. Exit codes:
 0 success (verify: intact and reproducible; diff: no differences), 1 a check
@@ -24,14 +25,32 @@ def _err(msg: str) -> None:
 
 def _cmd_seal(args: argparse.Namespace) -> int:
     require_sealing_packages("seal")
+    from .nbio import default_out
     from .sealer import seal
 
+    pdf_target = None
+    if args.pdf:  # refuse before the notebook runs: a missing browser writes nothing
+        from .pdf import pdf_path_for, require_pdf_tools
+
+        chromium = require_pdf_tools("seal --pdf")
+        pdf_target = pdf_path_for(Path(args.out) if args.out else default_out(Path(args.notebook)))
+        if pdf_target.exists() and not args.force:
+            from ..errors import RecordError
+
+            raise RecordError(f"{str(pdf_target)!r} already exists; pass --force to overwrite it")
     _err(f"sealing {Path(args.notebook).name}: executing in a clean kernel")
     res = seal(args.notebook, args.out, force=args.force, timeout=args.timeout,
                html=not args.no_html, progress=_err)
     print(f"sealed record: {res.notebook}")
     if res.html:
         print(f"offline HTML:  {res.html}")
+    if pdf_target is not None:
+        from .nbio import read_record
+        from .pdf import write_pdf
+
+        _err("printing the record to PDF with chromium")
+        write_pdf(read_record(res.notebook)[0], pdf_target, chromium=chromium)
+        print(f"PDF copy:      {pdf_target}")
     print(f"cases: {', '.join(res.cases)}")
     print(f"fingerprint:   {res.fingerprint}")
     print("Quote the fingerprint in the hand-over (e-mail, register); the reviewer checks it "
@@ -42,12 +61,21 @@ def _cmd_seal(args: argparse.Namespace) -> int:
 def _cmd_verify(args: argparse.Namespace) -> int:
     from .verifier import verify
 
-    res = verify(args.record, expect=args.expect, public_keys=args.public_key)
+    res = verify(args.record, expect=args.expect, public_keys=args.public_key,
+                 artefacts=args.artefacts)
     if args.json:
         print(json.dumps(res.to_dict(), indent=1, ensure_ascii=False))
     else:
         print(res.text())
     return EXIT_OK if res.ok else EXIT_FAILED
+
+
+def _cmd_pdf(args: argparse.Namespace) -> int:
+    from .pdf import pdf_from_sealed
+
+    out = pdf_from_sealed(args.record, args.out, force=args.force)
+    print(f"PDF copy of {Path(args.record).name}: {out}")
+    return EXIT_OK
 
 
 def _cmd_diff(args: argparse.Namespace) -> int:
@@ -182,7 +210,20 @@ def add_parsers(sub: argparse._SubParsersAction) -> None:
     s.add_argument("--force", action="store_true", help="overwrite an existing record")
     s.add_argument("--timeout", type=int, default=600, help="seconds per cell (default 600)")
     s.add_argument("--no-html", action="store_true", help="skip the offline HTML copy")
+    s.add_argument("--pdf", action="store_true",
+                   help="also print the record to NAME.sealed.pdf (needs chromium)")
     s.set_defaults(handler=_cmd_seal)
+
+    pr = sub.add_parser("pdf", help="print a sealed record to PDF (fingerprint and page "
+                                    "number on every page)",
+                        description="Print the offline HTML copy of a sealed record to PDF "
+                                    "with the system's chromium (no download, no network, "
+                                    "no script). The record's digests are checked first: a "
+                                    "record that is not intact is refused.")
+    pr.add_argument("record", help="a sealed .ipynb")
+    pr.add_argument("--out", help="PDF path (default NAME.sealed.pdf beside the record)")
+    pr.add_argument("--force", action="store_true", help="overwrite an existing PDF")
+    pr.set_defaults(handler=_cmd_pdf)
 
     v = sub.add_parser("verify", help="check a sealed record (exit 0 intact and reproducible, "
                                       "1 not, 2 unusable)",
@@ -196,6 +237,9 @@ def add_parsers(sub: argparse._SubParsersAction) -> None:
     v.add_argument("--public-key", action="append", metavar="PUBFILE",
                    help="a reviewer's public key; require a valid sign-off signed by it "
                         "(repeatable)")
+    v.add_argument("--artefacts", metavar="DIR",
+                   help="folder of the evidence files: check that each artefact the record "
+                        "lists is there with its recorded size and SHA-256")
     v.set_defaults(handler=_cmd_verify)
 
     f = sub.add_parser("diff", help="what changed between two records or case files",

@@ -340,6 +340,17 @@ def diff_cases(old, new, *, label: str = "") -> list[Change]:
                         str(sb))
         if eo.source != en.source:
             add("sources", "changed", f"source of evidence '{e}'", str(eo.source), str(en.source))
+        arts_o = {a.name: a for a in eo.artefacts}
+        arts_n = {a.name: a for a in en.artefacts}
+        for n, a in arts_o.items():
+            if n not in arts_n:
+                add("evidence", "removed", f"artefact '{n}' of '{e}'", str(a))
+            elif arts_n[n].sha256 != a.sha256:
+                add("evidence", "changed", f"SHA-256 of artefact '{n}' of '{e}'",
+                    a.sha256[:16] + "...", arts_n[n].sha256[:16] + "...")
+        for n, a in arts_n.items():
+            if n not in arts_o:
+                add("evidence", "added", f"artefact '{n}' of '{e}'", None, str(a))
     # assumptions and extras
     ao = [tuple(a.values()) for a in old.assumptions]
     an = [tuple(a.values()) for a in new.assumptions]

@@ -16,7 +16,15 @@ from collections.abc import Mapping, Sequence
 from importlib import metadata as _md
 from typing import Any
 
-from ..display import esc, flags_html, fmt_input, fmt_probability, ledger_html, table_html
+from ..display import (
+    artefacts_html,
+    esc,
+    flags_html,
+    fmt_input,
+    fmt_probability,
+    ledger_html,
+    table_html,
+)
 from .analyses import CaseAnalyses, analyse
 from .canonical import META_KEY, RECORD_ROLE, ROLE_KEY
 from .summary import summary_html, summary_text
@@ -210,7 +218,14 @@ def _extras_html(case) -> str:
         cols = ["input", "kind", "parameters", "range", "tie", "method", "source"]
         parts.append("<h4>Uncertainty on the inputs</h4>"
                      + table(cols, frame[cols].astype(str).values.tolist(), what="inputs"))
-    for key in sorted(k for k in case.extras if k not in (LOSS_TABLE, "uncertainty")):
+    replies = case.replies
+    if replies:
+        parts.append("<h4>Replies to review comments</h4>" + table(
+            ["comment", "reply", "who", "when"],
+            [[cid, r["text"], r["who"], r["when"]] for cid, r in replies.items()],
+            what="replies"))
+    for key in sorted(k for k in case.extras
+                      if k not in (LOSS_TABLE, "uncertainty", "replies")):
         value = case.extras[key]
         rows = ([[k, json.dumps(v, ensure_ascii=False, sort_keys=True)]
                  for k, v in value.items()] if isinstance(value, Mapping)
@@ -244,6 +259,7 @@ def assumption_register_html(case) -> str:
     parts.append(f"<p>Hypothesis set declared exhaustive: {'yes' if case.exhaustive else 'no'}"
                  f"; safety related: {'yes' if case.safety_related else 'no'}.</p>")
     parts.append(_extras_html(case))
+    parts.append(artefacts_html(case))
     if case.notes:
         parts.append(f"<h4>Notes</h4><p>{esc(case.notes)}</p>")
     return "".join(parts) + "</div>"

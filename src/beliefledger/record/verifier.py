@@ -7,6 +7,11 @@ case's results from its embedded JSON with the installed engine and
 compares them with the sealed results, checks sign-offs, and warns when the
 installed versions differ from the sealed environment.
 
+With a folder of artefacts (``--artefacts DIR``) it also checks that each
+file an evidence item rests on is in the folder and still has the size and
+SHA-256 digest recorded when it was attached (``artefact-missing``,
+``artefact-changed``).
+
 Tolerance of the reproduction check: every step probability must agree
 within ``RESULT_TOL`` (absolute); the MAP and maximum-likelihood hypotheses,
 the stop step and the set of flags (code, severity, where) must be equal.
@@ -59,6 +64,7 @@ INTEGRITY_CODES = frozenset({"cell-changed", "cell-added", "cell-removed", "cell
                              "fingerprint-mismatch", "sign-off-broken", "sign-off-missing",
                              "review-cell", "key-not-trusted"})
 REPRODUCTION_CODES = frozenset({"results-differ", "case-unreadable"})
+ARTEFACT_CODES = frozenset({"artefact-missing", "artefact-changed"})
 
 
 @dataclass
@@ -78,6 +84,8 @@ class VerifyResult:
     chain_head: str | None = None
     """Short digest of the last sign-off: quote it with the fingerprint, since deleting the
     last sign-off leaves a valid, shorter chain."""
+    artefacts_checked: int = 0
+    artefacts_folder: str | None = None
 
     @property
     def intact(self) -> bool:
@@ -86,6 +94,11 @@ class VerifyResult:
     @property
     def reproducible(self) -> bool:
         return not any(p.code in REPRODUCTION_CODES for p in self.problems)
+
+    @property
+    def artefacts_match(self) -> bool:
+        """True unless an artefact checked in the folder is missing or changed."""
+        return not any(p.code in ARTEFACT_CODES for p in self.problems)
 
     @property
     def ok(self) -> bool:
@@ -100,16 +113,25 @@ class VerifyResult:
                 "problems": [p.to_dict() for p in self.problems],
                 "warnings": [w.to_dict() for w in self.warnings],
                 "signoffs": [s.to_dict() for s in self.signoffs],
-                "chain_head": self.chain_head}
+                "chain_head": self.chain_head,
+                "artefacts_match": self.artefacts_match,
+                "artefacts_checked": self.artefacts_checked,
+                "artefacts_folder": self.artefacts_folder}
 
     def text(self) -> str:
         head = ("INTACT and reproducible" if self.ok else
-                "NOT INTACT" if not self.intact else "intact but NOT reproducible")
+                "NOT INTACT" if not self.intact else
+                "intact but NOT reproducible" if not self.reproducible else
+                "intact and reproducible, but ARTEFACTS DIFFER")
         lines = [f"{Path(self.path).name}: {head}",
                  f"  sealed {self.sealed_at}; {len(self.cases)} case(s), {self.cells} cells",
                  f"  fingerprint {self.fingerprint}" + (
                      "" if self.root == self.sealed_root else
                      f" (recomputed; the record claims {fingerprint(self.sealed_root)})")]
+        if self.artefacts_folder is not None:
+            bad = sum(p.code in ARTEFACT_CODES for p in self.problems)
+            lines.append(f"  artefacts: {self.artefacts_checked} checked in "
+                         f"{self.artefacts_folder}, {self.artefacts_checked - bad} match")
         if self.problems:
             lines.append(f"Problems ({len(self.problems)}):")
             lines += [f"  - {p}" for p in self.problems]
@@ -286,6 +308,69 @@ def reproduce(entries: list[dict[str, Any]]) -> list[Problem]:
     return problems
 
 
+def _case_artefacts(entries: list[dict[str, Any]]) -> list[tuple[str, str, Any]]:
+    """(case title, evidence item, Artefact) for every artefact the embedded cases list,
+    read from their JSON without rebuilding the cases (an entry that does not parse is
+    skipped here: the digests and the reproduction check report it)."""
+    from ..case.artefacts import artefact_from_dict
+    from ..errors import CaseError
+
+    out = []
+    for k, entry in enumerate(entries):
+        title = str(entry.get("title", f"#{k + 1}"))
+        env = entry.get("envelope")
+        body = env.get("case") if isinstance(env, dict) else None
+        items = body.get("evidence") if isinstance(body, dict) else None
+        for ev in items if isinstance(items, list) else []:
+            if not isinstance(ev, dict) or not isinstance(ev.get("artefacts"), list):
+                continue
+            for i, raw in enumerate(ev["artefacts"]):
+                try:
+                    art = artefact_from_dict(raw, f"artefact #{i + 1}")
+                except (CaseError, TypeError):
+                    continue
+                out.append((title, str(ev.get("name")), art))
+    return out
+
+
+def check_artefacts(entries: list[dict[str, Any]], folder: str | Path | None
+                    ) -> tuple[list[Problem], list[Problem], int]:
+    """Problems (a file missing from ``folder`` or changed since it was attached),
+    warnings, and how many artefacts were checked. Without a folder nothing is read:
+    a record that lists artefacts gets a warning saying how to check them."""
+    from ..case.artefacts import check_files
+
+    listed = _case_artefacts(entries)
+    if folder is None:
+        warn = [Problem("artefacts-unchecked", "artefacts",
+                        f"the record lists {len(listed)} artefact(s); pass --artefacts FOLDER "
+                        "to check the files against their digests")] if listed else []
+        return [], warn, 0
+    base = Path(folder)
+    if not base.is_dir():
+        raise RecordError(f"--artefacts: {str(base)!r} is not a folder; give the folder that "
+                          "holds the evidence files")
+    if not listed:
+        return [], [Problem("no-artefacts", "artefacts",
+                            f"the record lists no artefacts; nothing in {str(base)!r} was "
+                            "checked")], 0
+    problems = []
+    checks = check_files([(item, art) for _, item, art in listed], base)
+    for (title, item, art), chk in zip(listed, checks, strict=True):
+        where = f"case {title!r}, evidence {item!r}, artefact {art.name!r}"
+        if chk.status == "missing":
+            problems.append(Problem("artefact-missing", where,
+                                    f"no file of that name in {str(base)!r} (attached by "
+                                    f"{art.who} at {art.when}, {art.size:,} bytes)"))
+        elif chk.status == "changed":
+            problems.append(Problem("artefact-changed", where,
+                                    f"the file has {chk.size:,} bytes, SHA-256 "
+                                    f"{chk.sha256[:16]}...; it was attached by {art.who} at "
+                                    f"{art.when} with {art.size:,} bytes, SHA-256 "
+                                    f"{art.sha256[:16]}..."))
+    return problems, [], len(listed)
+
+
 def _environment_warnings(sealed_env: Any) -> list[Problem]:
     from .sections import environment
 
@@ -307,7 +392,8 @@ def _environment_warnings(sealed_env: Any) -> list[Problem]:
 
 def verify_notebook(nb: dict[str, Any], meta: dict[str, Any], *, path: str = "record",
                     expect: str | None = None, public_keys: list[bytes] | None = None,
-                    reproduce_results: bool = True) -> VerifyResult:
+                    reproduce_results: bool = True,
+                    artefacts: str | Path | None = None) -> VerifyResult:
     """Verify an already-read record (see :func:`verify`)."""
     from .canonical import ALGORITHM, CANONICAL_JSON, case_digest
     from .collect import collect_envelopes
@@ -431,11 +517,17 @@ def verify_notebook(nb: dict[str, Any], meta: dict[str, Any], *, path: str = "re
     if reproduce_results:
         problems += reproduce([e for e in entries if isinstance(e, dict)])
     warnings = _environment_warnings(header.get("environment"))
+    art_problems, art_warnings, n_art = check_artefacts(
+        [e for e in entries if isinstance(e, dict)], artefacts)
+    problems += art_problems
+    warnings += art_warnings
     return VerifyResult(path=path, sealed_root=sealed_root, root=root, fingerprint=fp,
                         sealed_at=str(header.get("sealed_at", "?")),
                         cases=[str(e.get("title")) for e in entries if isinstance(e, dict)],
                         cells=len(cells), problems=problems, warnings=warnings,
-                        signoffs=statuses, chain_head=chain_head(signoffs))
+                        signoffs=statuses, chain_head=chain_head(signoffs),
+                        artefacts_checked=n_art,
+                        artefacts_folder=None if artefacts is None else str(artefacts))
 
 
 def _check_review_cells(cells: list[dict[str, Any]], meta: dict[str, Any]) -> list[Problem]:
@@ -468,7 +560,8 @@ def _check_review_cells(cells: list[dict[str, Any]], meta: dict[str, Any]) -> li
 
 
 def verify(path: str | Path, *, expect: str | None = None,
-           public_keys: list[str | Path] | None = None) -> VerifyResult:
+           public_keys: list[str | Path] | None = None,
+           artefacts: str | Path | None = None) -> VerifyResult:
     """Verify a sealed record.
 
     Parameters
@@ -480,6 +573,9 @@ def verify(path: str | Path, *, expect: str | None = None,
     public_keys : list of paths, optional
         Reviewers' Ed25519 public keys (PEM); at least one valid sign-off
         must be signed by one of them.
+    artefacts : path, optional
+        A folder holding the evidence files; each artefact the cases list must be
+        there under its file name with the size and SHA-256 recorded at attach.
 
     Raises
     ------
@@ -491,11 +587,12 @@ def verify(path: str | Path, *, expect: str | None = None,
     nb, meta = read_record(path)
     keys = [load_public_key_raw(k) for k in (public_keys or [])]
     try:
-        return verify_notebook(nb, meta, path=str(path), expect=expect, public_keys=keys)
+        return verify_notebook(nb, meta, path=str(path), expect=expect, public_keys=keys,
+                               artefacts=artefacts)
     except (KeyError, TypeError, AttributeError) as exc:
         raise RecordError(f"record {Path(path).name!r} is malformed ({type(exc).__name__}: "
                           f"{exc}); it cannot be verified") from None
 
 
 __all__ = ["verify", "verify_notebook", "VerifyResult", "Problem", "compare_cells",
-           "reproduce", "RESULT_TOL"]
+           "reproduce", "check_artefacts", "RESULT_TOL", "ARTEFACT_CODES"]
