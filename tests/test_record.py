@@ -23,6 +23,7 @@ from beliefledger.record.html import clean_html, inline_svg, render_html
 from beliefledger.record.sealer import build_record, case_digest, dumps_notebook
 from beliefledger.record.sections import FRONT_CELLS as F
 from beliefledger.record.verifier import RESULT_TOL, verify, verify_notebook
+from helpers.records import leaves
 
 SEALED_AT = "2026-11-30T08:00:00Z"
 
@@ -540,17 +541,6 @@ def test_uncertainty_and_simulation_sections_are_seeded_and_stable(no_charts):
     assert verify_notebook(a, meta_of(a)).ok
 
 
-def _leaves(obj, path=()):
-    if isinstance(obj, dict):
-        for k, v in obj.items():
-            yield from _leaves(v, (*path, k))
-    elif isinstance(obj, list):
-        for i, v in enumerate(obj):
-            yield from _leaves(v, (*path, i))
-    else:
-        yield path, obj
-
-
 def _mutated(value, rng):
     if isinstance(value, bool):
         return not value
@@ -566,11 +556,11 @@ def _mutated(value, rng):
 def test_random_single_value_edits_never_pass_unnoticed(record, tmp_path, rng):
     """Change one value anywhere in the record: verify must report it (exit 1) or refuse
     the file (exit 2); it must never say intact, and never crash."""
-    leaves = list(_leaves(record))
-    picks = rng.choice(len(leaves), size=120, replace=False)
+    found = list(leaves(record))
+    picks = rng.choice(len(found), size=120, replace=False)
     path = tmp_path / "m.ipynb"
     for k in picks:
-        where, value = leaves[int(k)]
+        where, value = found[int(k)]
         nb = copy.deepcopy(record)
         target = nb
         for step in where[:-1]:

@@ -19,6 +19,7 @@ import pytest
 from beliefledger.errors import RecordError
 from beliefledger.record.collect import analysis_calls
 from beliefledger.record.nbio import load_notebook
+from beliefledger.record.review import review, sign
 from beliefledger.record.sealer import prepare, seal
 from beliefledger.record.verifier import verify
 
@@ -198,3 +199,20 @@ def test_every_shipped_notebook_seals_and_verifies(shipped_copy, notebook):
             assert f"seed {shown.call.settings['seed']}" in ana, notebook.name
         if kind == "simulate" or pending:
             assert f"call in cell {shown.cell + 1}" in ana, (notebook.name, kind)
+    # a review round on every shipped record: the checklist, a signed decision with comments
+    # on a hypothesis, a likelihood and a cell, then verify
+    checks = review(res.notebook)
+    assert {o.check.id for o in checks.outcomes} >= {"all-sourced", "exhaustive-set"}
+    entry = final[next(iter(final))]["envelope"]["case"]
+    ev = entry["evidence"][0] if entry["evidence"] else None
+    rows = [{"target": f"hypothesis:{entry['hypotheses'][0]['name']}", "comment": "Source?"},
+            {"target": "cell:1", "comment": "Say who ran this notebook."}]
+    if ev is not None:
+        rows.append({"target": f"likelihood:{ev['name']}|{ev['states'][0]}|"
+                               f"{entry['hypotheses'][0]['name']}", "comment": "Why this value?"})
+    cfile = res.notebook.with_suffix(".comments.json")
+    cfile.write_text(json.dumps(rows), encoding="utf-8")
+    signed = sign(res.notebook, "P. Reviewer (test)", decision="conditions", comments=cfile)
+    assert len(signed["comments"]) == len(rows)
+    v = verify(res.notebook, expect=res.fingerprint)
+    assert v.ok and [s.status for s in v.signoffs] == ["valid"], v.text()

@@ -65,7 +65,7 @@ def _dependent_case() -> bl.Case:
     case.use_scenario("flat")
     case.set_likelihood("dye test", "dry", [0.2, 0.8], source="maker's sheet (invented)")
     bl.set_loss_table(case, {"repair": {"weep": 1, "dry": 5, "other cause": 3},
-                             "wait": {"weep": 9, "dry": 0, "other cause": 4}}, kind="loss")
+                             "wait": {"weep": 9, "dry": 0, "other cause": 4}}, kind="loss", units="h")
     return case
 
 

@@ -112,3 +112,15 @@ def analyst_index(nb: dict[str, Any], k: int) -> int:
     from beliefledger.record.canonical import cell_role
 
     return [i for i, c in enumerate(nb["cells"]) if cell_role(c) is None][k]
+
+
+def leaves(obj: Any, path: tuple = ()):
+    """(path, value) of every leaf of a JSON-like object (the mutation tests' targets)."""
+    if isinstance(obj, dict):
+        for k, v in obj.items():
+            yield from leaves(v, (*path, k))
+    elif isinstance(obj, list):
+        for i, v in enumerate(obj):
+            yield from leaves(v, (*path, i))
+    else:
+        yield path, obj

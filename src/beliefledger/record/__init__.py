@@ -1,4 +1,5 @@
-"""Sealed audit records: seal, verify, diff, sign-off, offline HTML and PDF.
+"""Sealed audit records: seal, verify, diff, the review round (checklist, decisions,
+comments, chained sign-offs, replies), offline HTML and PDF.
 
 Loaded lazily: ``verify`` and ``diff`` read notebooks as plain JSON and
 never import nbformat, nbclient or altair; only ``seal`` starts a kernel.
@@ -15,7 +16,9 @@ _EXPORTS = {
     "diff": "differ", "diff_cases": "differ", "CaseDiff": "differ", "load_cases": "differ",
     "register": "collect", "collect_cases": "collect",
     "keygen": "signing", "sign": "review", "make_signoff": "signing",
-    "check_signoff": "signing",
+    "check_signoff": "signing", "check_chain": "signing", "chain_head": "signing",
+    "review": "review", "apply_replies": "review", "comments_of": "review",
+    "Checklist": "checklist", "load_checks": "checklist",
     "render_html": "html", "write_pdf": "pdf", "pdf_from_sealed": "pdf",
     "read_record": "nbio",
     "fingerprint": "canonical", "digest": "canonical",
