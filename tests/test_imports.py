@@ -70,13 +70,16 @@ LAYERS = {
     "record.canonical": 11.0, "record.nbio": 11.1, "record.collect": 11.2,
     "record.analyses": 11.25, "record.summary": 11.28,
     "record.sections": 11.3, "record.html": 11.3, "record.sealer": 11.4,
-    "record.signing": 11.4, "record.verifier": 11.5, "record.differ": 11.6,
+    "record.signing": 11.4, "record.verifier": 11.5, "record.htmlcheck": 11.55,
+    "record.differ": 11.6,
     "record.review": 11.7, "record.commands": 11.9, "record": 11.95,
     "cli": 12, "": 13,
 }
 # the case's lazy convenience methods (update, save, reprs) may reach upward
 ALLOWED_UPWARD = {("case.model", "engine"), ("case.model", "casefile"),
-                  ("case.model", "display")}
+                  ("case.model", "display"),
+                  # verify(path) hands an HTML copy to htmlcheck, which builds on verifier
+                  ("record.verifier", "record.htmlcheck")}
 
 
 def _module_name(path: Path) -> str:
