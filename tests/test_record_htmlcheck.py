@@ -164,6 +164,28 @@ def test_a_forger_who_edits_the_record_and_redraws_the_page(rec, tmp_path):
     assert codes(caught) == ["fingerprint-mismatch"], caught.text()
 
 
+def test_a_field_the_digests_leave_out_is_still_an_edit_of_the_copy(rec, page, tmp_path):
+    """Digests cover what a notebook means, not fields Jupyter adds on a re-save; nothing
+    re-saves the record inside a page, so there an unknown or missing field is an edit."""
+    from beliefledger.record.html import record_json
+
+    (_, _, start, _), = records.script_elements(page)
+    body, close = page.index(">", start) + 1, page.index("</script>", start)
+    payload = next(i for i, c in enumerate(rec["cells"]) if c.get("id") == "payload")
+    for edit, word in ((lambda c: c.update(outxuts=c.pop("outputs")), "'outxuts'"),
+                       (lambda c: c.update(trusted=True), "'trusted'"),
+                       (lambda c: c.pop("outputs"), "lacks 'outputs'")):
+        forged = copy.deepcopy(rec)
+        edit(forged["cells"][payload])
+        res = verify(write(tmp_path, page[:body] + record_json(forged) + page[close:]))
+        assert codes(res) == ["embedded-shape"], res.text()
+        assert res.problems[0].where == f"embedded record, cell {payload + 1}"
+        assert word in res.problems[0].detail and not res.intact
+        ipynb = tmp_path / "f.ipynb"  # the notebook itself tolerates it (Jupyter adds fields)
+        ipynb.write_text(records.dumps(forged), encoding="utf-8")
+        assert "embedded-shape" not in codes(verify(ipynb))
+
+
 def test_unusable_copies_are_refused_naming_the_file(page, tmp_path):
     scripts = records.script_elements(page)
     (_, _, start, end), = scripts

@@ -25,12 +25,13 @@ KINDS = (
     "attribute-removed", "section-removed", "sections-swapped", "section-duplicated",
     "element-injected", "script-injected", "comment-injected", "whitespace-between-tags",
     "entity-for-char", "style-sheet", "title", "banner", "json-digit", "json-char",
-    "json-whitespace", "json-redrawn-prior", "json-redrawn-source", "truncated",
+    "json-whitespace", "json-field-added", "json-field-renamed", "json-redrawn-prior", "json-redrawn-source", "truncated",
     "block-duplicated", "block-removed", "block-type", "block-moved", "line-endings",
     "renderer-and-digit", "byte-order-mark", "appended",
 )
 """Every kind of mutation :func:`mutate` draws."""
-EDITS_RECORD = frozenset({"json-digit", "json-char", "json-redrawn-prior", "json-redrawn-source"})
+EDITS_RECORD = frozenset({"json-digit", "json-char", "json-field-added", "json-field-renamed",
+                          "json-redrawn-prior", "json-redrawn-source"})
 """Kinds that change the embedded record itself: the page verify compares with is then
 drawn from the edited record, so the first difference is not where the edit was made."""
 
@@ -193,6 +194,18 @@ def mutate(clean: CleanPage, rnd: random.Random, kind: str | None = None) -> tup
     if kind == "json-whitespace":
         i = rnd.choice(clean.json_commas)
         return kind, t[:i] + rnd.choice([" ", "\n"]) + t[i:]
+    if kind in ("json-field-added", "json-field-renamed"):  # the page itself left alone
+        from beliefledger.record.html import record_json
+
+        rec = json.loads(json.dumps(clean.record))
+        cell = rnd.choice(rec["cells"])
+        target = rnd.choice([cell, *cell.get("outputs", [])])
+        if kind == "json-field-added":
+            target[rnd.choice(["reviewed", "note", "trusted"])] = rnd.choice([True, "ok", 1])
+        else:
+            key = rnd.choice(sorted(target))
+            target[key + "_"] = target.pop(key)
+        return kind, (t[:clean.block_body] + record_json(rec) + t[clean.block_close:])
     if kind == "json-redrawn-prior":  # the record edited, the page drawn again from it
         def edit(rec):
             from beliefledger.record.canonical import META_KEY

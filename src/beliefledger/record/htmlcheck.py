@@ -26,7 +26,14 @@ section, a script added, the record's JSON re-spaced) is a problem:
     label differs but the page is exactly what this version draws, a
     warning with the same code says so.
 
-Both codes count against ``intact``. What this proves: the visible page is
+``embedded-shape``
+    The embedded record holds a field a notebook, cell or output does not
+    have in nbformat 4 (or lacks one it requires). The notebook's digests
+    leave such fields out on purpose, since Jupyter adds its own when it
+    re-saves a notebook; nothing re-saves the record inside a page, so
+    there such a field can only be an edit.
+
+All three count against ``intact``. What this proves: the visible page is
 the page of the record it carries, and that record is intact and
 reproduces. It does not prove who made it: anyone who can edit the page can
 also edit the embedded record and recompute every digest, so the
@@ -52,6 +59,7 @@ from .verifier import Problem, VerifyResult, verify_loaded
 MAX_HTML_BYTES = 2 * MAX_NOTEBOOK_BYTES
 """Largest HTML copy read (bytes): the page and the record it carries."""
 PAGE_CODES = frozenset({"page-differs", "page-other-version"})
+"""Problems of the page itself (``embedded-shape`` is one of the record it carries)."""
 _CONTEXT = 24  # characters quoted on each side of a difference
 _QUOTED = 72   # characters of the changed text quoted at most
 _VOID = frozenset({"area", "base", "br", "col", "embed", "hr", "img", "input", "link", "meta",
@@ -163,6 +171,7 @@ class _Outline(HTMLParser):
     def __init__(self) -> None:
         super().__init__(convert_charrefs=False)
         self.stack: list[tuple[str, str | None, str | None]] = []
+        self.last_closed: str | None = None  # id of the last element with one that closed
 
     def handle_starttag(self, tag, attrs):
         if tag not in _VOID:
@@ -175,6 +184,8 @@ class _Outline(HTMLParser):
     def handle_endtag(self, tag):
         for k in range(len(self.stack) - 1, -1, -1):
             if self.stack[k][0] == tag:
+                if self.stack[k][1]:
+                    self.last_closed = self.stack[k][1]
                 del self.stack[k:]
                 return
 
@@ -186,9 +197,9 @@ def _where(page: str, at: int) -> str:
     if 0 <= block <= at < page.find("</script>", block) + len("</script>"):
         return "embedded record block"
     stop = at
-    lt, gt = page.rfind("<", 0, at), page.rfind(">", 0, at)
+    lt, gt = page.rfind("<", 0, at + 1), page.rfind(">", 0, at)
     if lt > gt and page[lt + 1:lt + 2] != "/" and page.find(">", at) != -1:
-        stop = page.find(">", at) + 1  # inside a start tag: the difference is that element's
+        stop = page.find(">", at) + 1  # at or inside a start tag: that element's difference
     outline = _Outline()
     outline.feed(page[:stop])
     elems = [e for e in outline.stack if e[0] not in ("html", "body", "main")]
@@ -200,7 +211,9 @@ def _where(page: str, at: int) -> str:
     if elems:
         return "page " + " > ".join(t + (f".{c.split()[0]}" if c and c.split() else "")
                                     for t, _, c in elems[:3])
-    return "page" if at < len(page) else "end of the page"
+    if at >= len(page):
+        return "end of the page"
+    return f"page, after {outline.last_closed!r}" if outline.last_closed else "page"
 
 
 def _first_difference(a: str, b: str) -> int:
@@ -240,6 +253,53 @@ def _quote(text: str, start: int, stop: int) -> str:
     tail = "..." if stop + _CONTEXT < len(text) else ""
     return lead + repr(before + changed + after)[1:-1] + tail if changed or before or after \
         else "(nothing)"
+
+
+# Fields of a notebook, its cells and outputs in the nbformat 4 schema (which allows no
+# others): (required, optional). A seal writes only these.
+_NOTEBOOK_FIELDS = ({"cells", "metadata", "nbformat", "nbformat_minor"}, set())
+_CELL_FIELDS = {
+    "code": ({"cell_type", "metadata", "source", "outputs", "execution_count"}, {"id"}),
+    "markdown": ({"cell_type", "metadata", "source"}, {"id", "attachments"}),
+    "raw": ({"cell_type", "metadata", "source"}, {"id", "attachments"}),
+}
+_OUTPUT_FIELDS = {
+    "stream": ({"output_type", "name", "text"}, set()),
+    "display_data": ({"output_type", "data", "metadata"}, set()),
+    "execute_result": ({"output_type", "data", "metadata", "execution_count"}, set()),
+    "error": ({"output_type", "ename", "evalue", "traceback"}, set()),
+}
+
+
+def _fields(obj: Any, rule: tuple[set[str], set[str]] | None, where: str) -> list[Problem]:
+    if not isinstance(obj, dict) or rule is None:
+        return []  # not an object, or of a kind verify itself reports on
+    required, optional = rule
+    extra, missing = sorted(set(obj) - required - optional), sorted(required - set(obj))
+    if not extra and not missing:
+        return []
+    what = "; ".join(([f"holds {', '.join(map(repr, extra))}"] if extra else [])
+                     + ([f"lacks {', '.join(map(repr, missing))}"] if missing else []))
+    return [Problem("embedded-shape", where,
+                    f"{what}, which a sealed record never does (nbformat 4 fields only): the "
+                    "embedded record was edited")]
+
+
+def shape_problems(nb: dict[str, Any]) -> list[Problem]:
+    """Fields of the embedded notebook, its cells and outputs that nbformat 4 does not
+    have (or that it requires and are missing). The digests of a record leave such fields
+    out on purpose (Jupyter adds its own when it re-saves a notebook), but no program
+    re-saves the record inside an HTML copy: there, a field the digests do not cover can
+    only be an edit."""
+    problems = _fields(nb, _NOTEBOOK_FIELDS, "embedded record")
+    for i, cell in enumerate(nb.get("cells") or []):
+        kind = cell.get("cell_type") if isinstance(cell, dict) else None
+        problems += _fields(cell, _CELL_FIELDS.get(kind), f"embedded record, cell {i + 1}")
+        outputs = cell.get("outputs") if isinstance(cell, dict) else None
+        for k, out in enumerate(outputs if isinstance(outputs, list) else []):
+            rule = _OUTPUT_FIELDS.get(out.get("output_type")) if isinstance(out, dict) else None
+            problems += _fields(out, rule, f"embedded record, cell {i + 1}, output {k + 1}")
+    return problems
 
 
 def compare_page(text: str, embedded: EmbeddedRecord, label: str
@@ -314,9 +374,10 @@ def verify_html(path: str | Path, *, expect: str | None = None,
     result = verify_loaded(embedded.nb, embedded.meta, path=str(path), expect=expect,
                            public_keys=public_keys)
     problems, warnings = compare_page(text, embedded, label)
+    problems += shape_problems(embedded.nb)
     return dataclasses.replace(result, problems=problems + result.problems,
                                warnings=warnings + result.warnings)
 
 
-__all__ = ["verify_html", "read_html", "extract_record", "compare_page", "EmbeddedRecord",
-           "PAGE_CODES", "MAX_HTML_BYTES"]
+__all__ = ["verify_html", "read_html", "extract_record", "compare_page", "shape_problems",
+           "EmbeddedRecord", "PAGE_CODES", "MAX_HTML_BYTES"]

@@ -57,7 +57,7 @@ INTEGRITY_CODES = frozenset({"cell-changed", "cell-added", "cell-removed", "cell
                              "case-changed", "case-added", "case-removed", "header-changed",
                              "root-mismatch", "manifest-cell", "case-not-as-shown",
                              "fingerprint-mismatch", "sign-off-broken", "key-not-trusted",
-                             "page-differs", "page-other-version"})
+                             "page-differs", "page-other-version", "embedded-shape"})
 REPRODUCTION_CODES = frozenset({"results-differ", "case-unreadable"})
 
 
