@@ -12,6 +12,7 @@ import beliefledger as bl
 from beliefledger.cli import main
 from beliefledger.record.sealer import build_record, dumps_notebook
 from beliefledger.record.sections import FRONT_CELLS as F
+from helpers import records
 from test_record import executed_notebook, meta_of, reseal_hashes
 
 
@@ -239,7 +240,9 @@ def test_demo_end_to_end(tmp_path, capsys):
     assert {e["name"]: e["observed"] for e in env["evidence"]}["suction pressure trend"] == \
         "slow decline"
     page = html.read_text(encoding="utf-8")
-    assert "<script" not in page and "Local codes, regulations" in page
+    visible = records.without_record_block(page)  # the one script: the record, as data
+    assert "<script" not in visible and "Local codes, regulations" in visible
+    assert main(["verify", str(html), "--expect", fp]) == 0  # the copy verifies on its own
 
 
 def test_demo_on_a_minimal_install_says_what_is_missing_before_starting(tmp_path, monkeypatch,

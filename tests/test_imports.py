@@ -72,13 +72,16 @@ LAYERS = {
     "record.analyses": 11.25, "record.summary": 11.28, "record.reviews": 11.29,
     "record.checklist": 11.45,
     "record.sections": 11.3, "record.html": 11.3, "record.sealer": 11.4,
-    "record.verifier": 11.5, "record.pdf": 11.55, "record.differ": 11.6,
+    "record.verifier": 11.5, "record.pdf": 11.55, "record.htmlcheck": 11.55,
+    "record.differ": 11.6,
     "record.review": 11.7, "record.commands": 11.9, "record": 11.95,
     "cli": 12, "": 13,
 }
 # the case's lazy convenience methods (update, save, reprs) may reach upward
 ALLOWED_UPWARD = {("case.model", "engine"), ("case.model", "casefile"),
-                  ("case.model", "display"), ("case.model", "workbook")}
+                  ("case.model", "display"), ("case.model", "workbook"),
+                  # verify(path) hands an HTML copy to htmlcheck, which builds on verifier
+                  ("record.verifier", "record.htmlcheck")}
 
 
 def _module_name(path: Path) -> str:

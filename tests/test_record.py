@@ -23,6 +23,7 @@ from beliefledger.record.html import clean_html, inline_svg, render_html
 from beliefledger.record.sealer import build_record, case_digest, dumps_notebook
 from beliefledger.record.sections import FRONT_CELLS as F
 from beliefledger.record.verifier import RESULT_TOL, verify, verify_notebook
+from helpers import records
 from helpers.records import leaves
 
 SEALED_AT = "2026-11-30T08:00:00Z"
@@ -454,8 +455,13 @@ class _Refs(HTMLParser):
 
 def test_html_copy_is_self_contained_and_script_free(record):
     page = render_html(record)
+    # the one script element is the inert JSON block that carries the record, whole
+    (attrs, body, _, _), = records.script_elements(page)
+    assert json.loads(body) == record
+    assert render_html(copy.deepcopy(record)) == page  # same record, same bytes
+    visible = records.without_record_block(page)
     refs = _Refs()
-    refs.feed(page)
+    refs.feed(visible)
     assert refs.external == [] and refs.styles == []
     assert refs.scripts == 0 and refs.handlers == []
     assert "Assumption register" in page and meta_of(record)["manifest"]["fingerprint"] in page

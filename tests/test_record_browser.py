@@ -39,8 +39,21 @@ def test_html_record_renders_with_no_request_and_no_script(tmp_path):
             page.goto(page_path.as_uri())
             text = page.inner_text("body")
             n_svg = page.locator("svg").count()
+            # with scripts on, the data block that carries the record runs nothing, shows
+            # nothing and fetches nothing; it is readable as data
+            live = browser.new_context(java_script_enabled=True).new_page()
+            errors = []
+            live.on("request", lambda r: requests.append(r.url))
+            live.on("pageerror", lambda e: errors.append(str(e)))
+            live.goto(page_path.as_uri())
+            live_text = live.inner_text("body")
+            carried = live.evaluate("JSON.parse(document.getElementById("
+                                    "'beliefledger-record').textContent).metadata"
+                                    ".beliefledger.manifest.fingerprint")
         finally:
             browser.close()
+    assert errors == [] and live_text == text and '"cells"' not in text
+    assert carried == rec["metadata"]["beliefledger"]["manifest"]["fingerprint"]
     assert [u for u in requests if not u.startswith("file://")] == []
     assert "Assumption register" in text and "Manifest" in text
     assert "Local codes, regulations" in text

@@ -143,6 +143,7 @@ def test_seal_a_jupyter_saved_notebook_and_verify_it(tmp_path):
     res = seal(path, sealed_at="2026-12-02T10:00:00Z")
     v = verify(res.notebook, expect=res.fingerprint)
     assert v.ok, v.text()
+    assert verify(res.html, expect=res.fingerprint).ok  # the HTML copy, on its own
     sealed = json.loads(res.notebook.read_text(encoding="utf-8"))
     analyst = [c for c in sealed["cells"] if "beliefledger" not in c["metadata"]]
     assert [c["cell_type"] for c in analyst] == ["markdown", "code", "raw", "code"]
@@ -186,6 +187,8 @@ def test_every_shipped_notebook_seals_and_verifies(shipped_copy, notebook):
     v = verify(res.notebook, expect=res.fingerprint)
     assert v.ok, v.text()
     assert res.cases
+    page = verify(res.html, expect=res.fingerprint)  # the HTML copy verifies on its own
+    assert page.ok, page.text()
     # the record's analyses use the settings of the analyst's displayed calls
     rec = json.loads(res.notebook.read_text(encoding="utf-8"))
     ana = "".join(o["data"].get("text/html", "") for c in rec["cells"]

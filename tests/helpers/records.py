@@ -124,3 +124,55 @@ def leaves(obj: Any, path: tuple = ()):
             yield from leaves(v, (*path, i))
     else:
         yield path, obj
+
+
+def script_elements(page: str) -> list[tuple[dict[str, Any], str, int, int]]:
+    """Every ``<script>`` element of an HTML page as a browser's tokenizer reads it:
+    (attributes, raw text, offset of ``<script``, offset after ``</script>``)."""
+    from html.parser import HTMLParser
+
+    starts = [0]
+    for line in page.splitlines(keepends=True):
+        starts.append(starts[-1] + len(line))
+
+    class Finder(HTMLParser):
+        def __init__(self):
+            super().__init__(convert_charrefs=False)
+            self.found: list[list[Any]] = []
+            self.open: list[Any] | None = None
+
+        def _at(self) -> int:
+            line, col = self.getpos()
+            return starts[line - 1] + col
+
+        def handle_starttag(self, tag, attrs):
+            if tag == "script":
+                self.open = [dict(attrs), "", self._at(), None]
+                self.found.append(self.open)
+
+        def handle_data(self, data):
+            if self.open is not None:
+                self.open[1] += data
+
+        def handle_endtag(self, tag):
+            if tag == "script" and self.open is not None:
+                at = self._at()
+                self.open[3] = page.index(">", at) + 1
+                self.open = None
+
+    f = Finder()
+    f.feed(page)
+    f.close()
+    return [tuple(x) for x in f.found]
+
+
+def without_record_block(page: str) -> str:
+    """``page`` with the one data block that carries the record cut out; asserts that it
+    is the page's only script element and an inert JSON block."""
+    scripts = script_elements(page)
+    assert len(scripts) == 1, f"{len(scripts)} script elements, want the one data block"
+    attrs, body, start, end = scripts[0]
+    assert attrs.get("type") == "application/json" and attrs.get("id") == "beliefledger-record"
+    assert set(attrs) == {"type", "id", "data-renderer"}, attrs  # no src, no handler
+    assert "<" not in body and ">" not in body and "&" not in body
+    return page[:start] + page[end:]

@@ -11,6 +11,7 @@ the case is invented test data.
 
 from __future__ import annotations
 
+import json
 import unicodedata
 import xml.etree.ElementTree as ET
 from collections import Counter
@@ -247,7 +248,11 @@ def test_record_html(tmp_path):
 
     hostile = records.sealed_record([build_case(hostile_texts())], heading=HOSTILE[0])
     plain = records.sealed_record([build_case(plain_texts())], heading="word")
-    h_html, p_html = render_html(hostile), render_html(plain)
+    h_page, p_page = render_html(hostile), render_html(plain)
+    # the record rides along as one inert JSON block that no hostile text can close
+    (_, body, _, _), = records.script_elements(h_page)
+    assert json.loads(body) == hostile
+    h_html, p_html = records.without_record_block(h_page), records.without_record_block(p_page)
     bad = inventory(h_html)
     assert not bad.bad, bad.bad[:5]
     assert "alert(1)" in "".join(bad.text)
@@ -268,4 +273,13 @@ def test_record_html(tmp_path):
     a.write_text(records.dumps(hostile), encoding="utf-8")
     b.write_text(records.dumps(plain), encoding="utf-8")
     assert_terminal_safe(verify(a).text(), "verify text")
+    # verify of the HTML copy, intact and with a hostile edit of the page, quotes it safely
+    page = tmp_path / "a.html"
+    page.write_text(h_page, encoding="utf-8")
+    assert verify(page).ok
+    at = h_page.index("</main>")
+    page.write_text(h_page[:at] + "<p>\u202e\x1b[2Jedited</p>" + h_page[at:], encoding="utf-8")
+    edited = verify(page)
+    assert [p.code for p in edited.problems] == ["page-differs"], edited.text()
+    assert_terminal_safe(edited.text(), "verify text of an edited HTML copy")
     assert_terminal_safe(diff(a, b).text(), "diff text")

@@ -13,6 +13,7 @@ from typing import Any
 _EXPORTS = {
     "seal": "sealer", "SealResult": "sealer", "build_record": "sealer",
     "verify": "verifier", "VerifyResult": "verifier", "Problem": "verifier", "RESULT_TOL": "verifier",
+    "verify_html": "htmlcheck",
     "diff": "differ", "diff_cases": "differ", "CaseDiff": "differ", "load_cases": "differ",
     "register": "collect", "collect_cases": "collect",
     "keygen": "signing", "sign": "review", "make_signoff": "signing",

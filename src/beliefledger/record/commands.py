@@ -225,12 +225,15 @@ def add_parsers(sub: argparse._SubParsersAction) -> None:
     pr.add_argument("--force", action="store_true", help="overwrite an existing PDF")
     pr.set_defaults(handler=_cmd_pdf)
 
-    v = sub.add_parser("verify", help="check a sealed record (exit 0 intact and reproducible, "
-                                      "1 not, 2 unusable)",
+    v = sub.add_parser("verify", help="check a sealed record or its HTML copy (exit 0 intact "
+                                      "and reproducible, 1 not, 2 unusable)",
                        description="Check a sealed record's digests and recompute its cases "
                                    "with the engine. Reads the notebook as plain JSON: no "
-                                   "notebook code is executed.")
-    v.add_argument("record", help="a sealed .ipynb")
+                                   "notebook code is executed. Given the HTML copy, checks "
+                                   "the record the page carries the same way, and that the "
+                                   "page is the page that record draws; nothing in the page is "
+                                   "executed.")
+    v.add_argument("record", help="a sealed .ipynb, or its .html copy")
     v.add_argument("--json", action="store_true", help="machine-readable report")
     v.add_argument("--expect", metavar="FINGERPRINT",
                    help="the fingerprint quoted in the hand-over")

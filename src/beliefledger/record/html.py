@@ -1,4 +1,4 @@
-"""A self-contained HTML copy of a sealed record.
+"""A self-contained HTML copy of a sealed record, carrying the record itself.
 
 No external script, stylesheet, font or image: the style sheet is inlined,
 charts are inline SVG (or data-URI images), widgets appear as the static
@@ -7,18 +7,42 @@ the page reads the same with scripts off and without a network. Output HTML
 from the analyst's cells is sanitised: scripts, frames, embedded objects,
 event handlers and references to anything outside the file are removed
 (plain hyperlinks stay, as links).
+
+The sealed record travels inside the page, so ``beliefledger verify
+page.html`` can check it (:mod:`.htmlcheck`): one element at the end of the
+body, ``<script type="application/json" id="beliefledger-record">``, holds
+the record's JSON (keys sorted, no spaces, ASCII only, with ``<``, ``>``,
+``&``, U+2028 and U+2029 written as ``\u003c`` and so on). Why a JSON data
+block rather than a hidden ``<template>`` or ``<pre>``: the HTML standard
+makes a script element whose type is not a JavaScript type a *data block*
+that no browser runs, and its content is raw text that is never rendered,
+printed, searched, copied with the page or read aloud; nothing but
+``</script`` ends it, and the escaping leaves no ``<`` in it, so no text of
+the record can close it or open markup. A ``<pre hidden>`` is shown by
+readers that ignore the attribute (text browsers, reader modes, e-mail
+clients, pages printed without styles) and its text joins the page's text;
+a ``<template>``'s content is parsed as HTML, so the JSON would have to be
+entity-escaped and would be re-parsed (and repaired) by every browser. The
+cost of the data block: a tool that strips every script element (some mail
+gateways) also strips the record, and verify then says the copy carries none.
+The block's ``data-renderer`` attribute names the versions that drew the page
+(beliefledger, mistune, Python), so verify can tell a page drawn by another
+version from an edited one.
 """
 
 from __future__ import annotations
 
 import base64
 import html as _html
+import json
+import platform
 import re
 from html.parser import HTMLParser
 from pathlib import Path
 from typing import Any
 from xml.etree import ElementTree as ET
 
+from .._version import __version__
 from ..display import esc
 from .canonical import META_KEY, join_text
 
@@ -265,8 +289,13 @@ def _cell_comments(signoffs: list[Any]) -> dict[int, str]:
                 + "".join(v) + "</ul></aside>") for n, v in found.items()}
 
 
-def render_html(nb: dict[str, Any]) -> str:
-    """The whole record as one self-contained HTML page."""
+def render_html(nb: dict[str, Any], *, renderer: str | None = None) -> str:
+    """The whole record as one self-contained HTML page, the record itself embedded.
+
+    ``renderer`` is the label the data block gives the versions that drew the
+    page (default :func:`renderer_label`, this installation's); verify passes
+    the label a page claims, so that only the drawing is compared.
+    """
     meta = (nb.get("metadata") or {}).get(META_KEY) or {}
     man = meta.get("manifest") or {}
     header = meta.get("header") or {}
@@ -307,7 +336,39 @@ def render_html(nb: dict[str, Any]) -> str:
     return ("<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">"
             f"<title>{esc(title)}: sealed record</title>"
             f"<style>{_css()}</style></head><body><main>"
-            + banner + "".join(parts) + "</main></body></html>\n")
+            + banner + "".join(parts) + "</main>" + record_block(nb, renderer=renderer) + "</body></html>\n")
 
 
-__all__ = ["render_html", "clean_html", "inline_svg", "markdown_html", "render_output"]
+RECORD_BLOCK_ID = "beliefledger-record"
+"""The id of the data block that carries the record in the HTML copy."""
+RECORD_BLOCK_TYPE = "application/json"
+_JSON_ESCAPES = str.maketrans({"<": "\\u003c", ">": "\\u003e", "&": "\\u0026",
+                               "\u2028": "\\u2028", "\u2029": "\\u2029"})
+
+
+def renderer_label() -> str:
+    """The versions that draw a page: beliefledger, mistune (markdown) and Python."""
+    import mistune
+
+    return (f"beliefledger {__version__}; mistune {getattr(mistune, '__version__', '?')}; "
+            f"python {platform.python_version()}")
+
+
+def record_json(nb: dict[str, Any]) -> str:
+    """The record as the data block holds it: sorted keys, no spaces, ASCII, and no
+    character that could end the block or open markup (they appear only in strings)."""
+    text = json.dumps(nb, sort_keys=True, ensure_ascii=True, separators=(",", ":"),
+                      allow_nan=False)
+    return text.translate(_JSON_ESCAPES)
+
+
+def record_block(nb: dict[str, Any], *, renderer: str | None = None) -> str:
+    """The inert element that carries the sealed record in the page (see the module
+    docstring); ``renderer`` defaults to :func:`renderer_label`."""
+    label = renderer_label() if renderer is None else renderer
+    return (f'<script type="{RECORD_BLOCK_TYPE}" id="{RECORD_BLOCK_ID}" '
+            f'data-renderer="{_html.escape(label, quote=True)}">{record_json(nb)}</script>')
+
+
+__all__ = ["render_html", "clean_html", "inline_svg", "markdown_html", "render_output",
+           "record_block", "record_json", "renderer_label", "RECORD_BLOCK_ID", "RECORD_BLOCK_TYPE"]

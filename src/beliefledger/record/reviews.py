@@ -44,8 +44,10 @@ def _status_text(s: Mapping[str, Any]) -> str:
 
 
 def _checklist_text(checklist: Mapping[str, Any]) -> str:
-    auto = checklist.get("automatic") or {}
-    manual = checklist.get("manual") or {}
+    # sorted: the same text whatever order the JSON keys come in (an HTML copy's embedded
+    # record has its keys sorted)
+    auto = dict(sorted((checklist.get("automatic") or {}).items()))
+    manual = dict(sorted((checklist.get("manual") or {}).items()))
     if not auto and not manual:
         return "no checklist"
     failed = [k for k, v in auto.items() if v == "fail"]

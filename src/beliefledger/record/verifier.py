@@ -62,7 +62,8 @@ INTEGRITY_CODES = frozenset({"cell-changed", "cell-added", "cell-removed", "cell
                              "case-changed", "case-added", "case-removed", "header-changed",
                              "root-mismatch", "manifest-cell", "case-not-as-shown",
                              "fingerprint-mismatch", "sign-off-broken", "sign-off-missing",
-                             "review-cell", "key-not-trusted"})
+                             "review-cell", "key-not-trusted",
+                             "page-differs", "page-other-version", "embedded-shape"})
 REPRODUCTION_CODES = frozenset({"results-differ", "case-unreadable"})
 ARTEFACT_CODES = frozenset({"artefact-missing", "artefact-changed"})
 
@@ -559,15 +560,21 @@ def _check_review_cells(cells: list[dict[str, Any]], meta: dict[str, Any]) -> li
     return problems
 
 
+HTML_SUFFIXES = (".html", ".htm")
+"""Names that :func:`verify` reads as an HTML copy of a record."""
+
+
 def verify(path: str | Path, *, expect: str | None = None,
            public_keys: list[str | Path] | None = None,
            artefacts: str | Path | None = None) -> VerifyResult:
-    """Verify a sealed record.
+    """Verify a sealed record, or an HTML copy of one.
 
     Parameters
     ----------
     path : path
-        The sealed notebook.
+        The sealed notebook, or its HTML copy (``.html``/``.htm``): then the
+        record the page carries is checked, and the page against it
+        (:func:`beliefledger.record.htmlcheck.verify_html`).
     expect : str, optional
         The fingerprint quoted in the hand-over; a mismatch is a problem.
     public_keys : list of paths, optional
@@ -582,9 +589,22 @@ def verify(path: str | Path, *, expect: str | None = None,
     RecordError
         The file is unusable: not a notebook, not a record, malformed manifest.
     """
+    if Path(path).suffix.lower() in HTML_SUFFIXES:
+        from .htmlcheck import verify_html
+
+        return verify_html(path, expect=expect, public_keys=public_keys, artefacts=artefacts)
+    nb, meta = read_record(path)
+    return verify_loaded(nb, meta, path=str(path), expect=expect, public_keys=public_keys,
+                         artefacts=artefacts)
+
+
+def verify_loaded(nb: dict[str, Any], meta: dict[str, Any], *, path: str,
+                  expect: str | None = None, public_keys: list[str | Path] | None = None,
+                  artefacts: str | Path | None = None) -> VerifyResult:
+    """:func:`verify` on a record already read (from a notebook or an HTML copy): loads the
+    public keys, and turns a malformed record into a :class:`RecordError`."""
     from .signing import load_public_key_raw
 
-    nb, meta = read_record(path)
     keys = [load_public_key_raw(k) for k in (public_keys or [])]
     try:
         return verify_notebook(nb, meta, path=str(path), expect=expect, public_keys=keys,
@@ -594,5 +614,6 @@ def verify(path: str | Path, *, expect: str | None = None,
                           f"{exc}); it cannot be verified") from None
 
 
-__all__ = ["verify", "verify_notebook", "VerifyResult", "Problem", "compare_cells",
-           "reproduce", "check_artefacts", "RESULT_TOL", "ARTEFACT_CODES"]
+__all__ = ["verify", "verify_notebook", "verify_loaded", "HTML_SUFFIXES", "VerifyResult",
+           "Problem", "compare_cells", "reproduce", "check_artefacts", "RESULT_TOL",
+           "ARTEFACT_CODES"]
