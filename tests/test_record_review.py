@@ -220,12 +220,23 @@ def test_removing_reordering_or_editing_an_earlier_sign_off_breaks_the_chain(
 
 
 def test_removing_the_last_sign_off_shows_in_the_reviews_and_the_chain_head(rec, tmp_path):
+    from beliefledger.record.review import refresh_review_cells
+
     nb = _three_signoffs(rec, tmp_path)
     head = verify(rec).chain_head
+    assert verify(rec, expect_chain=head).ok
     nb["metadata"]["beliefledger"]["signoffs"].pop()
     res = _check(nb, tmp_path)
     assert [p.code for p in res.problems] == ["review-cell"]
-    assert res.chain_head != head  # the quoted head no longer matches
+    # a forger who also redraws the review cells leaves a valid, shorter chain: only the
+    # quoted chain head catches it
+    refresh_review_cells(nb)
+    p = tmp_path / "forged.ipynb"
+    p.write_text(json.dumps(nb), encoding="utf-8")
+    assert verify(p).ok
+    res = verify(p, expect_chain=head)
+    assert [q.code for q in res.problems] == ["chain-head-mismatch"]
+    assert main(["verify", str(p), "--expect-chain", head]) == 1
 
 
 def test_a_broken_chain_cannot_be_signed_again(rec, tmp_path):

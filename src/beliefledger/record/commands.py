@@ -62,7 +62,7 @@ def _cmd_verify(args: argparse.Namespace) -> int:
     from .verifier import verify
 
     res = verify(args.record, expect=args.expect, public_keys=args.public_key,
-                 artefacts=args.artefacts)
+                 artefacts=args.artefacts, expect_chain=args.expect_chain)
     if args.json:
         print(json.dumps(res.to_dict(), indent=1, ensure_ascii=False))
     else:
@@ -237,6 +237,8 @@ def add_parsers(sub: argparse._SubParsersAction) -> None:
     v.add_argument("--json", action="store_true", help="machine-readable report")
     v.add_argument("--expect", metavar="FINGERPRINT",
                    help="the fingerprint quoted in the hand-over")
+    v.add_argument("--expect-chain", metavar="HEAD",
+                   help="the sign-off chain head quoted with it (beliefledger sign prints it)")
     v.add_argument("--public-key", action="append", metavar="PUBFILE",
                    help="a reviewer's public key; require a valid sign-off signed by it "
                         "(repeatable)")

@@ -62,7 +62,7 @@ INTEGRITY_CODES = frozenset({"cell-changed", "cell-added", "cell-removed", "cell
                              "case-changed", "case-added", "case-removed", "header-changed",
                              "root-mismatch", "manifest-cell", "case-not-as-shown",
                              "fingerprint-mismatch", "sign-off-broken", "sign-off-missing",
-                             "review-cell", "key-not-trusted",
+                             "review-cell", "key-not-trusted", "chain-head-mismatch",
                              "page-differs", "page-other-version", "embedded-shape"})
 REPRODUCTION_CODES = frozenset({"results-differ", "case-unreadable"})
 ARTEFACT_CODES = frozenset({"artefact-missing", "artefact-changed"})
@@ -566,7 +566,8 @@ HTML_SUFFIXES = (".html", ".htm")
 
 def verify(path: str | Path, *, expect: str | None = None,
            public_keys: list[str | Path] | None = None,
-           artefacts: str | Path | None = None) -> VerifyResult:
+           artefacts: str | Path | None = None,
+           expect_chain: str | None = None) -> VerifyResult:
     """Verify a sealed record, or an HTML copy of one.
 
     Parameters
@@ -583,6 +584,9 @@ def verify(path: str | Path, *, expect: str | None = None,
     artefacts : path, optional
         A folder holding the evidence files; each artefact the cases list must be
         there under its file name with the size and SHA-256 recorded at attach.
+    expect_chain : str, optional
+        The sign-off chain head quoted in the hand-over (``sign`` prints it): catches
+        the removal of the last sign-off(s) together with the reviews shown.
 
     Raises
     ------
@@ -592,10 +596,25 @@ def verify(path: str | Path, *, expect: str | None = None,
     if Path(path).suffix.lower() in HTML_SUFFIXES:
         from .htmlcheck import verify_html
 
-        return verify_html(path, expect=expect, public_keys=public_keys, artefacts=artefacts)
-    nb, meta = read_record(path)
-    return verify_loaded(nb, meta, path=str(path), expect=expect, public_keys=public_keys,
-                         artefacts=artefacts)
+        res = verify_html(path, expect=expect, public_keys=public_keys, artefacts=artefacts)
+    else:
+        nb, meta = read_record(path)
+        res = verify_loaded(nb, meta, path=str(path), expect=expect, public_keys=public_keys,
+                            artefacts=artefacts)
+    if expect_chain is not None:
+        import dataclasses
+
+        try:
+            want = normalize_fingerprint(expect_chain)
+        except ValueError as exc:
+            raise RecordError(f"--expect-chain: {exc}") from None
+        if not (res.chain_head or "").startswith(want):
+            res = dataclasses.replace(res, problems=[*res.problems, Problem(
+                "chain-head-mismatch", "sign-offs",
+                f"expected the chain head {want}, the record's sign-offs give "
+                f"{res.chain_head or 'none (no sign-off)'}: a sign-off was removed, replaced "
+                "or added since the head was quoted")])
+    return res
 
 
 def verify_loaded(nb: dict[str, Any], meta: dict[str, Any], *, path: str,
