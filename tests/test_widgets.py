@@ -541,3 +541,13 @@ def test_rescaled_priors_show_without_float_noise(demo_case):
     assert ed.row_for("maintenance venting").prior.value == 0.152  # shown without the noise
     assert ed.row_for("relief valve lifted").prior.value == 0.304
     assert demo_case.hypotheses["maintenance venting"].prior == exact  # showing changed nothing
+
+
+def test_widgets_show_probabilities_as_the_record_does():
+    """One formatter: four significant figures, no float noise, tiny values in exponent."""
+    from beliefledger.display import fmt_probability
+    from beliefledger.widgets._base import fmt_p
+
+    for p in (0.09200000000000001, 0.0006742, 0.98113, 1e-7, 0.0, 1.0):
+        assert fmt_p(p) == fmt_probability(p)
+    assert fmt_p(0.09200000000000001) == "0.092" and fmt_p(0.0006742) == "0.0006742"

@@ -316,10 +316,11 @@ def set_if_changed(widget: W.Widget, **values: Any) -> None:
 
 
 def fmt_p(p: float) -> str:
-    """A probability for display: four decimals, or scientific when tiny."""
-    if p != 0 and (p < 1e-4 or p > 1 - 1e-4) and p != 1:
-        return f"{p:.3e}"
-    return f"{p:.4f}"
+    """A probability for display: the same four significant figures as the record
+    (:func:`beliefledger.display.fmt_probability`)."""
+    from ..display import fmt_probability
+
+    return fmt_probability(p)
 
 
 __all__ = ["LedgerFeed", "StatusArea", "CaseView", "STYLE", "style_widget", "set_if_changed",

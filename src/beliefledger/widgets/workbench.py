@@ -9,7 +9,7 @@ import ipywidgets as W
 
 from ..case import CASE_MIMETYPE
 from ..display import esc
-from ._base import CaseView, LedgerFeed, StatusArea, check_case, style_widget
+from ._base import CaseView, LedgerFeed, StatusArea, check_case, fmt_p, style_widget
 from .evidence import EvidenceEditor
 from .hypotheses import HypothesisEditor
 from .scenarios import ChartPanel, FlagsPanel, LedgerTable, ScenarioPicker, posterior_html
@@ -120,7 +120,7 @@ class Workbench(CaseView):
         warnings = sum(f.severity == "warning" for f in t.flags)
         return (f"Workbench({self.case.title!r}: {len(t.hypotheses)} hypotheses, "
                 f"{len(t.evidence_steps)} of {len(self.case.evidence_names)} evidence items "
-                f"applied; scenario {t.scenario!r}; MAP {t.map_hypothesis!r} at {p:.4f}; "
+                f"applied; scenario {t.scenario!r}; MAP {t.map_hypothesis!r} at {fmt_p(p)}; "
                 f"{errors} errors, {warnings} warnings)")
 
     def _repr_html_(self) -> str:
