@@ -191,6 +191,10 @@ def test_every_shipped_notebook_seals_and_verifies(shipped_copy, notebook):
     assert page.ok, page.text()
     # the record's analyses use the settings of the analyst's displayed calls
     rec = json.loads(res.notebook.read_text(encoding="utf-8"))
+    for i, c in enumerate(rec["cells"]):  # nothing shown twice (a chart displayed and returned)
+        outs = [json.dumps(o.get("data"), sort_keys=True) for o in c.get("outputs", [])
+                if o.get("data")]
+        assert len(outs) == len(set(outs)), f"{notebook.name}: cell {i + 1} shows an output twice"
     ana = "".join(o["data"].get("text/html", "") for c in rec["cells"]
                   if (c["metadata"].get("beliefledger") or {}).get("section") == "analyses"
                   for o in c.get("outputs", []))
