@@ -59,7 +59,8 @@ SRC = Path(__file__).resolve().parent.parent / "src" / "beliefledger"
 # level; a package's modules are ordered among themselves by the fraction.
 LAYERS = {
     "errors": 0, "_version": 0, "_checks": 0.1, "_logmath": 0.1, "display": 0.2,
-    "case.members": 1.0, "case.parsing": 1.1, "case.extras": 1.1, "case.dependence": 1.1,
+    "case.members": 1.0, "case.uncertain": 1.05, "case.parsing": 1.1, "case.extras": 1.1,
+    "case.dependence": 1.1, "case.rollups": 1.15, "case.experts": 1.15, "case.revision": 1.2,
     "case.serial": 1.2, "case.model": 1.3, "case": 1.4,
     "flags": 2, "casefile": 3, "engine": 3,
     "measures": 4, "estimates": 5, "uncertainty": 6, "decision": 6,
