@@ -199,8 +199,9 @@ def draw_edit(data, case: Case) -> tuple[str, Callable[[], Any], set[str]]:
                          "take_prior_from"} | set(evs) | set(case.scenarios)
                 | _words(how.get("take_prior_from")))
     if method == "split_hypothesis":
-        into: Any = {h: d(st.floats(0, 1))}
-        into[d(names)] = 1 - into[h] if isinstance(h, str) else 0.5
+        key = h if isinstance(h, str) else str(h)
+        into: Any = {key: d(st.floats(0, 1))}
+        into[d(names)] = 1 - into[key]
         if d(st.integers(0, 4)) == 0:
             into = d(st.sampled_from([{}, None, [0.5], {"x": 0.3, "y": 0.3}, {"x": math.nan}]))
         return (f"split_hypothesis({h!r:.40}, {into!r:.60})",
