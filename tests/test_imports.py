@@ -64,7 +64,7 @@ LAYERS = {
     "case.serial": 1.2, "case.model": 1.3, "case": 1.4,
     "flags": 2, "casefile": 3, "engine": 3,
     "measures": 4, "estimates": 5, "uncertainty": 6, "decision": 6,
-    "elicit": 7, "montecarlo": 7, "sensitivity": 7, "value": 7, "batch": 7, "examples": 7,
+    "calibration": 6, "elicit": 7, "experts": 7.5, "montecarlo": 7, "sensitivity": 7, "value": 7, "batch": 7, "examples": 7,
     "chartdata": 8, "figures": 9, "charts": 10,
     "widgets._base": 11.0, "widgets.evidence": 11.1, "widgets.hypotheses": 11.1,
     "widgets.scenarios": 11.1, "widgets.workbench": 11.2, "widgets": 11.3,

@@ -437,3 +437,37 @@ def test_jeffrey_matches_its_definition_with_pgmpy(tmp_path):
     ref = _pgmpy(net, tmp_path)
     mix = np.array(q) @ np.array(ref["given"]["1"])
     np.testing.assert_allclose(case.update().posterior_values, mix, rtol=1e-10)
+
+
+def test_a_sealed_record_with_both_forms_verifies_and_catches_a_changed_weight(tmp_path):
+    import copy as _copy
+
+    from beliefledger.record import canonical
+    from beliefledger.record.verifier import verify, verify_notebook
+    from helpers.records import dumps, sealed_record
+
+    case = kiln()
+    case.add_scenario("fleet rates", {"burner fault": 0.2, "thermocouple drift": 0.5,
+                                      "other cause": 0.3}, source="fleet data (invented)")
+    case.add_evidence("fuel pressure", states=["low", "normal", "high"],
+                      likelihoods={"burner fault": [0.3, 0.6, 0.1],
+                                   "thermocouple drift": [0.1, 0.8, 0.1],
+                                   "other cause": [0.2, 0.5, 0.3]}, source="invented")
+    case.observe_report("flame colour", "yellow", 0.8, source=OPERATOR)
+    case.observe("fuel pressure", probability={"low": 0.6, "normal": 0.3, "high": 0.1},
+                 source={"where": "gauge read by torchlight (invented)", "who": "fitter"})
+    nb = sealed_record([case])
+    path = tmp_path / "review.sealed.ipynb"
+    path.write_text(dumps(nb), encoding="utf-8")
+    res = verify(path)
+    assert res.ok, [p.to_dict() for p in res.problems]
+    sealed = nb["metadata"][canonical.META_KEY]["cases"][0]
+    assert set(sealed["results"]) == {"base", "fleet rates"}
+    assert sealed["results"]["base"]["uncertain"]["fuel pressure"]["form"] == "probability"
+    # a changed weight in the embedded case is caught (digest and reproduction)
+    forged = _copy.deepcopy(nb)
+    env = forged["metadata"][canonical.META_KEY]["cases"][0]["envelope"]
+    item = next(e for e in env["case"]["evidence"] if e["name"] == "fuel pressure")
+    item["uncertain"]["weights"] = {"low": 0.1, "normal": 0.3, "high": 0.6}
+    bad = verify_notebook(forged, forged["metadata"][canonical.META_KEY])
+    assert not bad.ok

@@ -178,6 +178,56 @@ def groups_html(ledger: Ledger) -> str:
               "item.</p></div>")
 
 
+def experts_html(review) -> str:
+    """The experts' part of the register (:func:`beliefledger.expert_review`): who each
+    expert is and why they were asked, the conclusion under each expert's numbers alone
+    with the verdict ("MAP 'X' unchanged under 3 of 4 experts"), the spread of every
+    judged number (each expert's best, the lowest, the highest, the case's own), and any
+    judgement entered for an earlier hypothesis set."""
+    who = {e["name"]: e for e in review.experts}
+    rows = []
+    for ex, r in review.frame.iterrows():
+        src = who.get(ex, {}).get("source", {})
+        rows.append([ex, src.get("where") or "unsourced", src.get("who", ""),
+                     src.get("why", ""), int(r["inputs"]), r["map"],
+                     fmt_probability(r["p_map"]), "yes" if r["changed"] else ""])
+    experts = [c for c in review.spread.columns
+               if c not in ("input", "key", "lowest", "highest", "case")]
+    srows = [[r["input"], r["key"],
+              *[fmt_probability(r[e]) if r[e] == r[e] else "" for e in experts],
+              fmt_probability(r["lowest"]), fmt_probability(r["highest"]),
+              fmt_probability(r["case"])] for _, r in review.spread.iterrows()]
+    parts = [f'<div class="bl-experts"><h4>Experts</h4><p>{esc(review.verdict)}</p>']
+    if rows:
+        parts.append(_table(["expert", "where", "who", "why", "judgements", "MAP alone",
+                             "its posterior", "MAP changes"], rows))
+    if srows:
+        parts.append("<p>Spread of each judged number (best values):</p>")
+        parts.append(_table(["input", "hypothesis or state", *experts, "lowest", "highest",
+                             "in the case"], srows))
+    if review.stale:
+        parts.append("<p>Entered for an earlier hypothesis set (kept, not used): "
+                     f"{esc('; '.join(review.stale))}</p>")
+    parts.append("</div>")
+    return "".join(parts)
+
+
+def pool_html(pooled) -> str:
+    """A pooled judgement (:func:`beliefledger.pool`): each expert's numbers, the weights,
+    and the pooled value and range of each hypothesis or state."""
+    frame = pooled.to_frame()
+    experts = list(pooled.by_expert.index)
+    rows = [[k, *[fmt_probability(r[e]) for e in experts],
+             *[fmt_probability(r[f"pooled {c}"]) for c in ("low", "best", "high")]]
+            for k, r in frame.iterrows()]
+    weights = ", ".join(f"{e} {fmt_probability(w)}" for e, w in pooled.weights.items())
+    return (f'<div class="bl-pool"><p>{esc(pooled.label)}: {esc(pooled.method)} opinion pool, '
+            f"{esc(pooled.weighting)} weights ({esc(weights)}); ranges at "
+            f"{pooled.level:.0%}.</p>"
+            + _table(["", *experts, "pooled low", "pooled best", "pooled high"], rows)
+            + "".join(f"<p>{esc(n)}</p>" for n in pooled.notes) + "</div>")
+
+
 def flags_html(flags) -> str:
     if not flags:
         return '<p class="bl-flags-none">No review flags.</p>'
@@ -274,4 +324,4 @@ def fmt_probability(p: float) -> str:
 
 __all__ = ["robustness_html", "simulation_html", "fmt_probability", "esc", "visible", "case_html",
            "ledger_html", "ledger_text", "flags_html", "observation_note_html", "groups_html",
-           "observed_text"]
+           "observed_text", "experts_html", "pool_html"]

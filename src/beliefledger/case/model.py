@@ -363,6 +363,14 @@ class Case:
     def _record(self, kind: str, target: str, detail: str) -> None:
         self.assumptions.append({"kind": kind, "target": target, "detail": detail})
 
+    def record_assumption(self, kind: str, target: str, detail: str) -> None:
+        """Add an entry to :attr:`assumptions` (used by analyses that change numbers on
+        the analyst's behalf, e.g. putting pooled expert judgements into the case)."""
+        entry = [check_name("assumption kind", kind), check_text("assumption target", target),
+                 check_text("assumption detail", detail)]
+        with self._edit("assumptions"):
+            self._record(*entry)
+
     # ------------------------------------------------------------------ text fields
     def set_details(self, *, title: str | None = None, question: str | None = None,
                     analyst: str | None = None, notes: str | None = None,
