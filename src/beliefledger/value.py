@@ -16,6 +16,11 @@ Losses come from a loss (or payoff) table (:mod:`beliefledger.decision`).
 Values of information are the same in both conventions (a fall in expected
 loss is a rise in expected payoff).
 
+An item is valued as if observed last. When a Jeffrey (probability-form)
+observation sits after it in the case's order, observing the item for real
+re-derives that update's weights, so the posterior then differs slightly
+from the one predicted here.
+
 The numbers support a decision; they do not make it. Where the case touches
 health or safety, local codes, regulations and licensed practice prevail
 over any expected-loss ranking.

@@ -213,7 +213,8 @@ class Case:
 
     @property
     def observed_evidence(self) -> list[Evidence]:
-        return [e for e in self._evidence.values() if e.observed is not None]
+        """The items that enter the update (a state seen, or an uncertain observation)."""
+        return [e for e in self._evidence.values() if e.is_observed]
 
     @property
     def version(self) -> int:
@@ -1594,7 +1595,7 @@ class Case:
     def __repr__(self) -> str:
         total = sum(h.prior for h in self._hyps.values())
         sums = "priors sum to 1" if abs(total - 1) <= SUM_TOL else f"priors sum to {fmt_g(total)}"
-        n_obs = sum(1 for e in self._evidence.values() if e.observed is not None)
+        n_obs = sum(1 for e in self._evidence.values() if e.is_observed)
         return (f"Case({self.title!r}: {len(self._hyps)} hypotheses, {sums}; "
                 f"{len(self._evidence)} evidence items, {n_obs} observed; "
                 f"scenario {self._active!r})")
