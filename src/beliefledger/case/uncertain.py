@@ -176,13 +176,14 @@ def jeffrey_weights(table: np.ndarray, q: Any, before: np.ndarray
     if not total > 0:
         return np.zeros(len(q)), np.full(len(q), np.nan), []
     pred = table @ (b / total)
-    lam = np.zeros(len(q))
     ok = pred > 0
-    lam[ok] = q[ok] / pred[ok]
     unreachable = [int(i) for i in np.flatnonzero((q > 0) & ~ok)]
-    top = lam.max()
-    if top > 0:
-        lam = lam / top
+    # the ratio in log space: a predictive near the smallest float would overflow q / P
+    ll = np.full(len(q), -np.inf)
+    with np.errstate(divide="ignore"):
+        ll[ok] = np.log(q[ok]) - np.log(pred[ok])
+    top = ll.max() if ll.size else -np.inf
+    lam = np.exp(ll - top) if np.isfinite(top) else np.zeros(len(q))
     return lam, pred, unreachable
 
 
