@@ -471,3 +471,9 @@ def test_a_sealed_record_with_both_forms_verifies_and_catches_a_changed_weight(t
     item["uncertain"]["weights"] = {"low": 0.1, "normal": 0.3, "high": 0.6}
     bad = verify_notebook(forged, forged["metadata"][canonical.META_KEY])
     assert not bad.ok
+
+
+def test_an_integer_too_long_for_a_float_is_refused_not_a_crash():
+    case = kiln()
+    with pytest.raises(CaseError, match="finite"):
+        case.observe("flame colour", likelihood={"blue": 10**400, "yellow": 1, "orange": 1})

@@ -333,9 +333,9 @@ def _weights_matrix(model: _Model, k: int, column: pd.Series, on_unknown: str
                                 f"state {list(states)} of evidence '{model.items[k]}'")
             try:
                 w = np.array([float(v[x]) for x in states])
-            except (TypeError, ValueError):
-                raise CaseError(f"{where}: the likelihood weights {v!r:.80} must be numbers") \
-                    from None
+            except (TypeError, ValueError, OverflowError):
+                raise CaseError(f"{where}: the likelihood weights {v!r:.80} must be finite "
+                                "numbers") from None
             _check_weight_row(model, k, w, where)
             out[r] = w / w.max()
         elif v is None or (isinstance(v, float) and np.isnan(v)) or v is pd.NA:

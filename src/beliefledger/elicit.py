@@ -535,8 +535,13 @@ def _pool_weights(experts: list[str], weights: Any) -> dict[str, float]:
     vals = {}
     for e in experts:
         w = weights[e]
-        if isinstance(w, bool) or not isinstance(w, int | float | np.floating | np.integer) \
-                or not math.isfinite(float(w)):
+        try:
+            finite = (not isinstance(w, bool) and isinstance(w, int | float | np.floating
+                                                             | np.integer)
+                      and math.isfinite(float(w)))
+        except OverflowError:
+            finite = False
+        if not finite:
             raise CaseError(f"weight of expert '{e}' is {w!r:.40}; give a finite number of 0 "
                             "or more")
         if w < 0:

@@ -42,6 +42,16 @@ SCALES = ("uniform", "log")
 _JUDGEMENT_KEYS = {"expert", "target", "evidence", "hypothesis", "values", "source", "note"}
 
 
+def _finite(v: Any) -> bool:
+    """A finite real number (no bool; an integer too long for a float is not finite)."""
+    if isinstance(v, bool) or not isinstance(v, int | float):
+        return False
+    try:
+        return math.isfinite(v)
+    except OverflowError:
+        return False
+
+
 def _err(fn, *args: Any) -> Any:
     try:
         return fn(*args)
@@ -71,8 +81,7 @@ def check_value(what: str, value: Any) -> dict[str, float]:
         parts = {"best": value}
     out: dict[str, float] = {}
     for k, v in parts.items():
-        if isinstance(v, bool) or not isinstance(v, int | float) or not math.isfinite(v) \
-                or not 0 <= v <= 1:
+        if not _finite(v) or not 0 <= v <= 1:
             raise CaseError(f"{what}: {k} is {v!r:.40}; give a probability between 0 and 1")
         out[k] = float(v)
     if ("low" in out) != ("high" in out):
@@ -221,7 +230,7 @@ def _calibration(c: Any, names: list[str]) -> dict[str, Any]:
         if nm in q_names:
             raise CaseError(f"calibration question '{nm}' is given twice")
         x = q.get("realization")
-        if isinstance(x, bool) or not isinstance(x, int | float) or not math.isfinite(x):
+        if not _finite(x):
             raise CaseError(f"calibration question '{nm}': realization {x!r:.40} must be a "
                             "finite number (the true value, known to the analyst)")
         scale = q.get("scale", "uniform")
@@ -251,9 +260,9 @@ def _calibration(c: Any, names: list[str]) -> dict[str, Any]:
         for qn in q_names:
             vals = rows[qn]
             scale = next(q["scale"] for q in q_out if q["name"] == qn)
-            if (not isinstance(vals, list | tuple) or len(vals) != len(qs) or any(
-                    isinstance(v, bool) or not isinstance(v, int | float) or not math.isfinite(v)
-                    for v in vals) or any(b <= a for a, b in zip(vals, vals[1:], strict=False))):
+            if (not isinstance(vals, list | tuple) or len(vals) != len(qs)
+                    or not all(_finite(v) for v in vals)
+                    or any(b <= a for a, b in zip(vals, vals[1:], strict=False))):
                 raise CaseError(f"expert '{ex}' on calibration question '{qn}': {vals!r:.60} "
                                 f"must be {len(qs)} increasing numbers (the "
                                 f"{', '.join(fmt_g(q) for q in qs)} quantiles)")

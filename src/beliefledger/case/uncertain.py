@@ -75,7 +75,10 @@ def parse_weights(item: str, states: tuple[str, ...], spec: Any, form: str) -> t
         if form == PROBABILITY_FORM:
             out.append(check_probability(f"{what}: probability of state '{s}'", v))
             continue
-        x = float(v)
+        try:
+            x = float(v)
+        except OverflowError:  # an integer longer than a float holds
+            x = math.inf
         if not math.isfinite(x) or x < 0:
             raise CaseError(f"{what}: the weight of state '{s}' is {x:g}; weights are finite "
                             "numbers of 0 or more (only their ratios matter, e.g. 0.8 and 0.2, "
