@@ -167,3 +167,22 @@ def test_a_schema_1_file_loads_with_its_renamed_keys(tmp_path):
     assert loaded.evidence["witness note"].likelihood_evidence
     loaded.save(path)
     assert json.loads(path.read_text())["schema_version"] == 3
+
+
+def test_a_schema_2_file_reads_as_it_is(tmp_path):
+    """Schema 3 only added optional fields: a file written before them loads unchanged."""
+    import json
+
+    case = bl.example_case()
+    case.use_scenario(None)
+    old = case.to_dict()
+    for sc in old["scenarios"]:  # what a schema-2 writer wrote: no meaning, no basis
+        sc.pop("meaning", None)
+        sc.pop("basis", None)
+    path = tmp_path / "v2.json"
+    path.write_text(json.dumps({"format": "beliefledger-case", "schema_version": 2,
+                                "case": old}), encoding="utf-8")
+    loaded = bl.load_case(path)
+    assert loaded.to_dict() == old
+    assert loaded.scenarios["uniform"].meaning == ""
+    assert loaded.update().posterior.to_dict() == case.update().posterior.to_dict()
