@@ -175,7 +175,8 @@ def test_rename_keeps_and_detach_removes_an_artefact(case, evidence_files):
     art = case.attach("thermal tag", evidence_files / "tag-photo.jpg", who="K. Osei")
     case.rename_evidence("thermal tag", "relay thermal tag")
     case.add_hypothesis("conveyor jam", 0.1, likelihoods={"relay thermal tag": [0.5, 0.5],
-                                                          "belt marks": [0.5, 0.5]})
+                                                          "belt marks": [0.5, 0.5]},
+                        rescale=True)
     assert case.evidence["relay thermal tag"].artefacts == (art,)
     before = case.to_dict()
     with pytest.raises(bl.CaseError, match="has no artefact 'photo.jpg'"):

@@ -792,3 +792,97 @@ def test_pandas_scoring_loads_no_dask_and_no_notebook_packages():
                          timeout=120)
     assert out.returncode == 0, out.stderr
     assert out.stdout.strip() == "[]"
+
+
+# --------------------------------------------------------------------------- uncertain observations
+
+
+def _report_model() -> bl.Case:
+    model = bl.Case("Gauge checks (invented)", hypotheses={"sensor fault": 0.3,
+                                                          "leak": 0.5, "other cause": 0.2})
+    model.add_evidence("reading", states=["high", "normal", "low"],
+                       likelihoods={"sensor fault": [0.5, 0.2, 0.3], "leak": [0.1, 0.3, 0.6],
+                                    "other cause": [0.3, 0.4, 0.3]}, source="invented")
+    model.add_evidence("hiss", states=["heard", "not heard"],
+                       likelihoods={"sensor fault": [0.1, 0.9], "leak": [0.7, 0.3],
+                                    "other cause": [0.2, 0.8]}, source="invented")
+    return model
+
+
+def test_a_column_of_weights_scores_each_row_as_virtual_evidence():
+    model = _report_model()
+    w1 = {"high": 0.1, "normal": 0.2, "low": 0.7}
+    rows = pd.DataFrame({"reading": [w1, "low", None, pd.Series({"high": 3, "normal": 1,
+                                                                   "low": 0}),
+                                     {"high": 0, "normal": 0, "low": 1}],
+                         "hiss": ["heard", None, "not heard", "heard", None]},
+                        index=[f"check-{i}" for i in range(5)])
+    got = score_rows(model, rows)
+    for i, (r, h) in enumerate(zip(rows["reading"], rows["hiss"], strict=True)):
+        case = model.copy()
+        if isinstance(r, str):
+            case.observe("reading", r)
+        elif r is not None:
+            case.observe("reading", likelihood=dict(r))
+        if isinstance(h, str):
+            case.observe("hiss", h)
+        led = case.update()
+        np.testing.assert_allclose(got.iloc[i, :3].to_numpy(dtype=float), led.posterior_values,
+                                   rtol=1e-12)
+        assert got.iloc[i]["log_evidence"] == pytest.approx(led.log_evidence, rel=1e-12)
+    assert got["n_observed"].tolist() == [2, 1, 1, 2, 1]
+    # weights {low: 1, others: 0} equal the label 'low'
+    np.testing.assert_allclose(got.iloc[4, :3].to_numpy(dtype=float),
+                               got.iloc[1, :3].to_numpy(dtype=float), rtol=1e-15)
+
+
+def test_weights_frames_in_wide_form_equal_the_dict_column():
+    model = _report_model()
+    wide = pd.DataFrame({"high": [0.1, np.nan, 3.0], "normal": [0.2, np.nan, 1.0],
+                         "low": [0.7, np.nan, 0.0]}, index=["a", "b", "c"])
+    rows = pd.DataFrame({"hiss": ["heard", "not heard", None]}, index=wide.index)
+    got = score_rows(model, rows, weights={"reading": wide})
+    as_dicts = rows.assign(reading=[{"high": 0.1, "normal": 0.2, "low": 0.7}, None,
+                                    {"high": 3.0, "normal": 1.0, "low": 0.0}])
+    pd.testing.assert_frame_equal(got, score_rows(model, as_dicts), rtol=1e-13)
+
+
+def test_bad_weights_are_refused_naming_the_row():
+    model = _report_model()
+    for cell, match in (({"high": -1, "normal": 1, "low": 1}, "0 or more"),
+                        ({"high": 0, "normal": 0, "low": 0}, "not all 0"),
+                        ({"high": 1, "normal": 1}, r"miss state\(s\) \['low'\]"),
+                        ({"high": 1, "normal": 1, "low": 1, "odd": 1}, "unknown state"),
+                        ("sideways", "nor a dict of likelihood weights")):
+        rows = pd.DataFrame({"reading": [{"high": 1, "normal": 1, "low": 1}, cell]},
+                            index=["ok", "bad"])
+        with pytest.raises(bl.CaseError, match=match) as exc:
+            score_rows(model, rows)
+        assert "row 'bad'" in str(exc.value)
+    rows = pd.DataFrame({"reading": [{"high": 1, "normal": 1, "low": 1}, "sideways"]})
+    assert score_rows(model, rows, on_unknown="skip")[UNKNOWN_COLUMN].tolist() == [0, 1]
+    wide = pd.DataFrame({"high": [1.0], "normal": [1.0]})
+    with pytest.raises(bl.CaseError, match="one column per state"):
+        score_rows(model, pd.DataFrame({"hiss": ["heard"]}), weights={"reading": wide})
+    with pytest.raises(bl.CaseError, match="both a column"):
+        score_rows(model, pd.DataFrame({"reading": ["low"]}),
+                   weights={"reading": pd.DataFrame({"high": [1.0], "normal": [1.0],
+                                                     "low": [1.0]})})
+
+
+def test_weights_that_make_a_row_impossible_stop_it_like_the_engine():
+    model = bl.Case("Stops (invented)", hypotheses={"A": 0.5, "B": 0.5}, exhaustive=True)
+    model.add_evidence("first", states=["x", "y"], likelihoods={"A": [1.0, 0.0], "B": [0.0, 1.0]})
+    model.add_evidence("second", states=["u", "v"], likelihoods={"A": [0.3, 0.7],
+                                                                "B": [0.6, 0.4]})
+    rows = pd.DataFrame({"first": ["x"], "second": [{"u": 1.0, "v": 0.0}]})
+    model.add_evidence("third", states=["p", "q"], likelihoods={"A": [0.0, 1.0], "B": [1.0, 0.0]})
+    rows["third"] = [{"p": 1.0, "q": 0.0}]
+    got = score_rows(model, rows).iloc[0]
+    case = model.copy()
+    case.observe("first", "x")
+    case.observe("second", likelihood={"u": 1.0, "v": 0.0})
+    case.observe("third", likelihood={"p": 1.0, "q": 0.0})
+    led = case.update()
+    assert bool(got["impossible"]) and got["stopped_at"] == led.stopped_at == "third"
+    np.testing.assert_allclose([got["A"], got["B"]], led.posterior_values)

@@ -219,7 +219,8 @@ def test_whole_column_edit_and_table_import(small_case):
 def test_add_remove_rename_hypotheses_keep_everything_in_step(small_case):
     small_case.add_scenario("flat", {"H1": 1 / 3, "H2": 1 / 3, "Other": 1 / 3}, source="check")
     small_case.add_hypothesis("H3", 0.1, likelihoods={"E1": [0.5, 0.5], "E2": [0.2, 0.8],
-                                                      "E3": [0.4, 0.6]}, source="new lead")
+                                                      "E3": [0.4, 0.6]}, source="new lead",
+                              rescale=True)
     assert small_case.base_priors.to_dict() == pytest.approx(
         {"H1": 0.45, "H2": 0.27, "Other": 0.18, "H3": 0.1})
     assert small_case.scenario_priors("flat").sum() == pytest.approx(1)

@@ -74,9 +74,9 @@ def envelope_text(case, mutate):
 
 
 @pytest.mark.parametrize("mutate, match", [
-    (lambda d: d.update(schema_version=3), "schema_version 3.*newer beliefledger"),
+    (lambda d: d.update(schema_version=4), "schema_version 4.*newer beliefledger"),
     (lambda d: d.update(schema_version=0), "schema_version 0.*no reader"),
-    (lambda d: d.update(schema_version="2"), "expected the integer 2"),
+    (lambda d: d.update(schema_version="3"), "expected the integer 3"),
     (lambda d: d.update(format="other"), "expected 'beliefledger-case'"),
     (lambda d: d.update(extra=1), r"unknown top-level key\(s\) \['extra'\]"),
     (lambda d: d.pop("case"), "no 'case' object"),
@@ -148,7 +148,7 @@ def test_saved_files_get_the_usual_mode_and_keep_an_existing_one(tmp_path, small
 
 def test_a_schema_1_file_loads_with_its_renamed_keys(tmp_path):
     """Files written before the keys were renamed (schema 1: 'groups', 'observed_only',
-    extras 'decision') load unchanged in meaning; saving writes schema 2."""
+    extras 'decision') load unchanged in meaning; saving writes the current schema."""
     import json
 
     case = bl.example_case()
@@ -166,4 +166,23 @@ def test_a_schema_1_file_loads_with_its_renamed_keys(tmp_path):
     assert loaded.to_dict() == new
     assert loaded.evidence["witness note"].likelihood_evidence
     loaded.save(path)
-    assert json.loads(path.read_text())["schema_version"] == 2
+    assert json.loads(path.read_text())["schema_version"] == 3
+
+
+def test_a_schema_2_file_reads_as_it_is(tmp_path):
+    """Schema 3 only added optional fields: a file written before them loads unchanged."""
+    import json
+
+    case = bl.example_case()
+    case.use_scenario(None)
+    old = case.to_dict()
+    for sc in old["scenarios"]:  # what a schema-2 writer wrote: no meaning, no basis
+        sc.pop("meaning", None)
+        sc.pop("basis", None)
+    path = tmp_path / "v2.json"
+    path.write_text(json.dumps({"format": "beliefledger-case", "schema_version": 2,
+                                "case": old}), encoding="utf-8")
+    loaded = bl.load_case(path)
+    assert loaded.to_dict() == old
+    assert loaded.scenarios["uniform"].meaning == ""
+    assert loaded.update().posterior.to_dict() == case.update().posterior.to_dict()

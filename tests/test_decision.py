@@ -60,12 +60,12 @@ def test_loss_table_round_trip_and_hypothesis_edits():
     assert decision.loss_table(case).columns.tolist() == ["good", "dry hole"]
     before = dumps(case)
     with pytest.raises(CaseError, match="needs a value for new hypothesis 'gas'"):
-        case.add_hypothesis("gas", 0.1, likelihoods={"seismic test": [0.5, 0.5]})
+        case.add_hypothesis("gas", 0.1, rescale=True, likelihoods={"seismic test": [0.5, 0.5]})
     with pytest.raises(CaseError, match="no payoff given for action 'do not drill'"):
-        case.add_hypothesis("gas", 0.1, likelihoods={"seismic test": [0.5, 0.5]},
+        case.add_hypothesis("gas", 0.1, rescale=True, likelihoods={"seismic test": [0.5, 0.5]},
                             extra_values={"loss_table": {"drill": 100}})
     assert dumps(case) == before
-    case.add_hypothesis("gas", 0.1, likelihoods={"seismic test": [0.5, 0.5]},
+    case.add_hypothesis("gas", 0.1, rescale=True, likelihoods={"seismic test": [0.5, 0.5]},
                         extra_values={"loss_table": {"drill": 100, "do not drill": 0}})
     assert decision.loss_table(case).loc["drill", "gas"] == -100
     case.remove_hypothesis("gas")

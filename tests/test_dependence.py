@@ -488,7 +488,7 @@ def test_hypothesis_edits_carry_groups_and_conditionals():
     case.add_joint_group("same sample", ["dye test", "sniffer"], covariance=0.01)
     case.rename_hypothesis("wiring", "electrical")
     assert list(case.joint_groups["same sample"].covariance.index) == ["kitchen", "electrical"]
-    case.add_hypothesis("arson", 0.1, likelihoods={
+    case.add_hypothesis("arson", 0.1, rescale=True, likelihoods={
         "first witness": [0.5, 0.5],
         "second witness": {"kitchen": [0.5, 0.5], "hall": [0.5, 0.5]},
         "dye test": [0.5, 0.5], "sniffer": [0.5, 0.5]})

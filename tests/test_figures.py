@@ -151,3 +151,24 @@ def test_figures_need_neither_altair_nor_ipywidgets():
 ])
 def test_nice_ticks(lo, hi, n, expected):
     assert figures.nice_ticks(lo, hi, n) == expected
+
+
+def test_waterfall_marks_an_uncertain_observation():
+    case = bl.example_case()
+    name = next(n for n, e in case.evidence.items() if e.observed is not None
+                and not e.likelihood_evidence and not case.dependence_links().get(n))
+    ev = case.evidence[name]
+    case.observe(name, likelihood={s: (0.7 if s == ev.observed else 0.3) for s in ev.states},
+                 source="a witness (invented)")
+    led = case.update()
+    data = chartdata.waterfall_data(led)
+    assert data.loc[data["step"] == name, "uncertain"].tolist() == ["likelihood"]
+    assert set(data["uncertain"]) == {"", "likelihood"}
+    root = _parse_svg(figures.waterfall_figure(led).svg)
+    marked = _by_class(root, "path", "bl-uncertain") + _by_class(root, "rect", "bl-uncertain")
+    assert len(marked) == 1
+    assert "uncertain observation, likelihood weights" in marked[0].find(f"{SVG_NS}title").text
+    assert marked[0].get("stroke-dasharray") in ("3,2", None)
+    texts = [t.text or "" for t in root.iter(f"{SVG_NS}text")]
+    assert any("dashed: uncertain observation" in t for t in texts)
+    assert any(t.endswith("(uncertain)") for t in texts)

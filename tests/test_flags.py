@@ -132,3 +132,48 @@ def test_an_uncertainty_range_without_a_source_is_flagged(small_case):
     bl.set_likelihood_uncertainty(small_case, "E1", "H1", low=0.8, high=0.95,
                                   source="vendor spread, invented")
     assert not any(f.where == "likelihood uncertainty" for f in small_case.update().flags)
+
+
+# --------------------------------------------------------------------------- issue-16 flags
+
+
+def test_order_sensitive_fires_and_stays_quiet():
+    from test_uncertain import flip_case, kiln
+
+    flags = {f.code: f for f in flip_case().update().flags}
+    f = flags["order-sensitive"]
+    assert f.severity == "warning" and f.where == "evidence 'report'"
+    assert "do not commute" in f.message and "likelihood weights" in f.message
+    quiet = kiln()
+    quiet.observe("flame colour", probability={"blue": 0.1, "yellow": 0.8, "orange": 0.1})
+    assert "order-sensitive" not in {f.code for f in quiet.update().flags}
+
+
+def test_scenario_stale_fires_and_stays_quiet():
+    from test_revision import NEW_COLS, depot
+
+    case = depot()
+    case.add_scenario("history", {"belt slip": 0.5, "motor overload": 0.3, "other cause": 0.2},
+                      meaning="data", source="depot incidents (invented)")
+    assert "scenario-stale" not in {f.code for f in case.update().flags}
+    case.add_hypothesis("jammed parcel", 0.05, likelihoods=NEW_COLS,
+                        take_prior_from="other cause")
+    (f,) = [f for f in case.update().flags if f.code == "scenario-stale"]
+    assert f.severity == "warning" and f.where == "scenario 'history'"
+    assert "depot incidents (invented)" in f.message and "Refit it" in f.message
+    case.use_scenario("history")
+    assert [f.where for f in case.update().flags if f.code == "scenario-stale"] == \
+        ["scenario 'history'"]
+
+
+def test_an_unsourced_uncertain_observation_is_flagged():
+    from test_uncertain import kiln
+
+    case = kiln()
+    case.observe("flame colour", likelihood={"blue": 0.2, "yellow": 0.7, "orange": 0.1})
+    f = next(f for f in case.update().flags if f.code == "unsourced"
+             and "uncertain observation" in f.message)
+    assert f.where == "evidence 'flame colour'" and "who gave the report" in f.message
+    case.observe("flame colour", likelihood={"blue": 0.2, "yellow": 0.7, "orange": 0.1},
+                 source="the operator (invented)")
+    assert not any("uncertain observation" in f.message for f in case.update().flags)

@@ -59,11 +59,13 @@ SRC = Path(__file__).resolve().parent.parent / "src" / "beliefledger"
 # level; a package's modules are ordered among themselves by the fraction.
 LAYERS = {
     "errors": 0, "_version": 0, "_checks": 0.1, "_logmath": 0.1, "_files": 0.1, "display": 0.2,
-    "case.members": 1.0, "case.artefacts": 1.1, "case.parsing": 1.1, "case.extras": 1.1, "case.dependence": 1.1,
+    "case.members": 1.0, "case.uncertain": 1.05, "case.artefacts": 1.1, "case.parsing": 1.1,
+    "case.extras": 1.1, "case.dependence": 1.1, "case.rollups": 1.15, "case.experts": 1.15,
+    "case.revision": 1.2,
     "case.serial": 1.2, "case.model": 1.3, "case": 1.4,
     "flags": 2, "casefile": 3, "workbook": 3.1, "engine": 3, "calls": 3.5,
     "measures": 4, "estimates": 5, "uncertainty": 6, "decision": 6,
-    "elicit": 7, "montecarlo": 7, "sensitivity": 7, "value": 7, "batch": 7, "examples": 7,
+    "calibration": 6, "elicit": 7, "experts": 7.5, "montecarlo": 7, "sensitivity": 7, "value": 7, "batch": 7, "examples": 7,
     "chartdata": 8, "figures": 9, "charts": 10,
     "widgets._base": 11.0, "widgets.evidence": 11.1, "widgets.hypotheses": 11.1,
     "widgets.scenarios": 11.1, "widgets.workbench": 11.2, "widgets": 11.3,

@@ -236,3 +236,15 @@ def test_simulate_sum_and_direct_agree():
     assert np.all(np.abs(ma - md) < 2 * dkw(30_000))
     with pytest.raises(CaseError, match="method 'fast' is not known"):
         bl.simulate(case, draws=10, method="fast")
+
+
+def test_uncertain_steps_are_held_at_their_weights_and_said_so():
+    from test_uncertain import flip_case
+
+    case = flip_case()
+    bl.set_prior_uncertainty(case, concentration=50, source="invented")
+    res = bl.simulate(case, draws=4000, seed=5)
+    assert any("held at its likelihood weights" in n and "Jeffrey" in n for n in res.notes)
+    bl.set_likelihood_uncertainty(case, "report", "A", concentration=20, source="invented")
+    with pytest.raises(bl.CaseError, match="uncertain observation"):
+        bl.simulate(case, draws=100, seed=5)

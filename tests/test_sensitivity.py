@@ -248,3 +248,30 @@ def test_break_even_prior_with_no_evidence_observed_is_the_rivals_prior():
     c = r / (1 - p)
     assert be.against == "b"
     assert be.prior == pytest.approx(c / (1 + c), rel=1e-12)
+
+
+def test_a_prior_sweep_re_derives_jeffrey_weights_at_every_point():
+    from test_uncertain import flip_case
+
+    case = flip_case()
+    sweep = bl.sweep_prior(case, "A", [0.2, 0.5, 0.8])
+    for x, row in sweep.iterrows():
+        c = case.copy()
+        c.set_priors({"A": x, "B": 1 - x})
+        np.testing.assert_allclose(row.to_numpy(), c.update().posterior_values, rtol=1e-12)
+    with pytest.raises(bl.CaseError, match="Jeffrey"):
+        bl.break_even_prior(case, "A")
+    with pytest.raises(bl.CaseError, match="Jeffrey"):
+        bl.tornado(case)
+
+
+def test_tornado_holds_a_likelihood_form_observation_at_its_weights():
+    from test_uncertain import kiln
+
+    case = kiln()
+    case.observe("flame colour", likelihood={"blue": 0.2, "yellow": 0.7, "orange": 0.1})
+    table = bl.tornado(case)
+    assert "flame colour" not in set(table["evidence"])
+    assert {"alarm log"} <= set(table["evidence"])
+    with pytest.raises(bl.CaseError, match="uncertain observation"):
+        bl.sweep_likelihood(case, "flame colour", "burner fault")

@@ -229,3 +229,58 @@ def test_value_of_a_pending_group_member_is_conditioned_on_the_observed_one():
     assert value.predictive(case, "sniffer")["pos"] == pytest.approx(0.343 / 0.41)
     lik = case.predictive_likelihoods("sniffer")
     assert lik.loc["pos"].tolist() == pytest.approx([0.77 / 0.9, 0.8])
+
+
+def _two_cause_case() -> bl.Case:
+    case = bl.Case("Report value (invented)", hypotheses={"A": 0.6, "B": 0.4}, exhaustive=True)
+    case.add_evidence("witness", states=["saw A", "saw B"],
+                      likelihoods={"A": [1.0, 0.0], "B": [0.0, 1.0]}, source="invented")
+    return case
+
+
+def test_the_value_of_a_report_of_reliability_r_by_hand():
+    # The item reveals the cause; a report right with probability r is a binary channel:
+    # P(report A) = 0.6 r + 0.4 (1 - r). For r = 0.8: 0.56; the posterior after "A" is
+    # 0.48 / 0.56, after "B" 0.12 / 0.44. The information is H(H) - E[H(H | report)].
+    case = _two_cause_case()
+    pred = bl.predictive(case, "witness", reliability=0.8)
+    np.testing.assert_allclose(pred.to_numpy(), [0.56, 0.44], rtol=1e-12)
+    pre = bl.preposterior(case, "witness", reliability=0.8)
+    np.testing.assert_allclose(pre.loc["saw A", "A"], 0.48 / 0.56, rtol=1e-12)
+    np.testing.assert_allclose(pre.loc["saw B", "A"], 0.12 / 0.44, rtol=1e-12)
+
+    def h2(p):
+        return -(p * np.log2(p) + (1 - p) * np.log2(1 - p))
+    info = h2(0.6) - 0.56 * h2(0.48 / 0.56) - 0.44 * h2(0.12 / 0.44)
+    ranked = bl.rank_next_evidence(case, reliability=0.8)
+    assert ranked.loc["witness", "reliability"] == 0.8
+    np.testing.assert_allclose(ranked.loc["witness", "expected_entropy_reduction"], info,
+                               rtol=1e-12)
+    certain = bl.rank_next_evidence(case)
+    assert certain.loc["witness", "expected_entropy_reduction"] == pytest.approx(h2(0.6))
+    assert "reliability" not in certain.columns
+    # r = 1 is the certain observation; a report is never worth more
+    one = bl.rank_next_evidence(case, reliability={"witness": 1.0})
+    assert one.loc["witness", "expected_entropy_reduction"] == pytest.approx(h2(0.6))
+    loss = pd.DataFrame({"A": [0, 10], "B": [10, 0]}, index=["act on A", "act on B"])
+    assert bl.evsi(case, "witness", loss, reliability=0.8) <= bl.evsi(case, "witness", loss)
+    # the report's value equals that of observing it in its likelihood form
+    for report in ("saw A", "saw B"):
+        c = case.copy()
+        c.observe_report("witness", report, 0.8)
+        np.testing.assert_allclose(c.update().posterior_values,
+                                   pre.loc[report, ["A", "B"]].to_numpy(dtype=float),
+                                   rtol=1e-12)
+
+
+def test_bad_reliabilities_are_refused():
+    case = _two_cause_case()
+    with pytest.raises(bl.CaseError, match="outside"):
+        bl.rank_next_evidence(case, reliability=1.5)
+    with pytest.raises(bl.CaseError, match="above 0"):
+        bl.rank_next_evidence(case, reliability=0.0)
+    with pytest.raises(bl.CaseError, match="not among the pending items"):
+        bl.rank_next_evidence(case, reliability={"ghost": 0.8})
+    case.observe("witness", likelihood={"saw A": 0.8, "saw B": 0.2})
+    with pytest.raises(bl.CaseError, match="uncertain observation"):
+        bl.evsi(case, "witness", pd.DataFrame({"A": [0, 1], "B": [1, 0]}, index=["x", "y"]))

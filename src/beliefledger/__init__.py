@@ -19,7 +19,8 @@ _EXPORTS: dict[str, str] = {
     # model
     "Case": "case", "Hypothesis": "case", "Evidence": "case", "Source": "case",
     "Scenario": "case", "UNSOURCED": "case", "BASE_SCENARIO": "case",
-    "JointGroup": "case", "Artefact": "case",
+    "JointGroup": "case", "Artefact": "case", "UncertainObservation": "case",
+    "report_weights": "case",
     "CaseError": "errors", "CaseTypeError": "errors", "CaseFileError": "errors",
     "RecordError": "errors", "WorkbookError": "errors",
     # engine and review flags
@@ -40,6 +41,12 @@ _EXPORTS: dict[str, str] = {
     "prior_from_counts": "elicit", "probability_from_demands": "elicit",
     "rate_from_events": "elicit", "likelihood_from_test": "elicit",
     "likelihood_from_counts": "elicit",
+    # several experts
+    "pool": "elicit", "pool_distributions": "elicit", "PooledJudgement": "elicit",
+    "classical_model": "calibration", "calibration_scores": "calibration",
+    "add_expert": "experts", "remove_expert": "experts", "set_expert_prior": "experts",
+    "set_expert_likelihood": "experts", "set_calibration": "experts",
+    "expert_judgements": "experts", "apply_pool": "experts", "expert_review": "experts",
     "DirichletEstimate": "estimates", "BetaEstimate": "estimates",
     "GammaEstimate": "estimates",
     # sensitivity and uncertainty
@@ -63,7 +70,8 @@ _EXPORTS: dict[str, str] = {
 
 _SUBMODULES = {"charts", "chartdata", "figures", "widgets", "record", "engine", "case", "flags",
                "measures", "casefile", "elicit", "estimates", "sensitivity", "uncertainty",
-               "montecarlo", "value", "decision", "batch", "display", "examples"}
+               "montecarlo", "value", "decision", "batch", "display", "examples", "experts",
+               "calibration"}
 
 _INSTALL_HINT = {
     "ipywidgets": "notebook", "altair": "notebook", "vl_convert": "notebook",

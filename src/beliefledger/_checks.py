@@ -187,6 +187,13 @@ def lookup(kind: str, plural: str, mapping: Mapping[str, Any], name: Any,
                         f"{short_list(choices)}") from None
 
 
+def key_gaps(given: Iterable[Any], expected: Iterable[Any]) -> tuple[list[Any], list[Any]]:
+    """(expected keys missing from ``given``, keys of ``given`` not expected), in order."""
+    given, expected = list(given), list(expected)
+    want, have = set(expected), set(given)
+    return [k for k in expected if k not in have], [k for k in given if k not in want]
+
+
 def check_keys(what: str, mapping: Mapping, expected: tuple[str, ...],
                kind: str = "likelihoods") -> None:
     """A mapping keyed by exactly the ``expected`` hypothesis names."""
@@ -209,5 +216,5 @@ def check_keys(what: str, mapping: Mapping, expected: tuple[str, ...],
 __all__ = [
     "SUM_TOL", "MAX_NAME_LENGTH", "MAX_TEXT_LENGTH", "check_text", "check_name", "check_flag",
     "check_probability", "check_number", "check_count", "check_positive", "check_level",
-    "check_draws", "rng_from", "fmt_g", "short_list", "lookup", "check_keys",
+    "check_draws", "rng_from", "fmt_g", "short_list", "lookup", "check_keys", "key_gaps",
 ]

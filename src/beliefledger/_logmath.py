@@ -44,6 +44,21 @@ def posterior_from_logs(log_prior: np.ndarray, total_loglik: np.ndarray) -> np.n
     return normalize_log(np.asarray(log_prior) + np.asarray(total_loglik), axis=-1)
 
 
+def log_odds_of_set(log_steps: np.ndarray, cols: list[int]) -> np.ndarray:
+    """Natural-log odds of the hypotheses ``cols`` together (a hypothesis group) against
+    all the others at each step; for one column the same as :func:`log_odds_path`."""
+    if len(cols) == 1:
+        return log_odds_path(log_steps, cols[0])
+    log_steps = np.atleast_2d(log_steps)
+    mask = np.zeros(log_steps.shape[1], dtype=bool)
+    mask[cols] = True
+    if mask.all():
+        return np.full(log_steps.shape[0], np.inf)
+    with np.errstate(invalid="ignore"):
+        return (log_normalizer(log_steps[:, mask], axis=1)
+                - log_normalizer(log_steps[:, ~mask], axis=1))
+
+
 def log_odds_path(log_steps: np.ndarray, j: int) -> np.ndarray:
     """Natural-log odds of hypothesis ``j`` against all the others at each step.
 

@@ -45,6 +45,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 import pandas as pd
 
+from ._checks import key_gaps
 from ._logmath import log_normalizer, log_of
 from .case import SUM_TOL
 from .errors import CaseError, CaseTypeError
@@ -137,7 +138,7 @@ def _check_count(name: str, value: Any, kind: str, fix: str) -> None:
 
 def score_rows(case: Case, rows: Any, *, chunk_size: int | None = None,
                on_unknown: str = "raise", prefix: str = "", threads: int | None = None,
-               weak_below: float = 0.5) -> Any:
+               weak_below: float = 0.5, weights: Any = None) -> Any:
     """Posterior of every observation row of a table, under one model case.
 
     Parameters
@@ -164,6 +165,22 @@ def score_rows(case: Case, rows: Any, *, chunk_size: int | None = None,
         or a number two states spell (``"1"`` and ``"01"``), raises a
         ``CaseError`` whatever ``on_unknown`` says; a number no state spells
         is an unknown label.
+
+        Uncertain observations (likelihood weights, virtual evidence): a
+        column may hold, in some or all of its cells, a dict (or Series) of
+        weights state -> relative chance of the row's report given that
+        state; every state is named, weights are finite, 0 or more and not
+        all 0, and only their ratios matter (``{"high": 1, "normal": 0}`` is
+        the label ``"high"``). Such a cell enters the row's update as
+        ``case.observe(item, likelihood=...)`` does; labels in the same
+        column are read as usual, missing cells as not observed.
+    weights : mapping, optional
+        The same in wide form: item name -> a DataFrame with the same index
+        as ``rows`` and one column per state of the item holding the row's
+        weights (a row of NaN: not observed). The item must not also be a
+        column of ``rows``. (The probability form, Jeffrey's rule, needs the
+        sequential engine: use ``case.observe(item, probability=...)`` and
+        ``case.update()``.)
     chunk_size : int, optional
         Rows scored at a time (default: about 4 MB of float64 per chunk).
         Results do not depend on it.
@@ -257,7 +274,8 @@ def score_rows(case: Case, rows: Any, *, chunk_size: int | None = None,
             f"{type(rows).__name__}; build one with pandas.DataFrame(...)")
     model = compile_model(case)
     columns = _check_columns(model, rows.columns)
-    _refuse_dependent(case, [c for _, c in columns])
+    wide = _wide_weights(model, rows, weights, {c for _, c in columns}, is_dask)
+    _refuse_dependent(case, [c for _, c in columns] + [model.items[k] for k in wide])
     names = _output_names(model, prefix, on_unknown)
     if is_dask:
         meta = _score_frame(model, rows._meta, columns, names, chunk_size, on_unknown,
@@ -272,7 +290,112 @@ def score_rows(case: Case, rows: Any, *, chunk_size: int | None = None,
     chunk = chunk_size or _default_chunk(len(model.hypotheses))
     threads = threads or default_threads(len(rows), len(model.hypotheses), chunk)
     return _score_frame(model, rows, columns, names, chunk, on_unknown, threads,
-                        weak_below=weak_below)
+                        weak_below=weak_below, wide=wide)
+
+
+# --------------------------------------------------------------------------- weights
+
+
+def _is_weights_column(column: pd.Series) -> bool:
+    """An object column holding dicts or Series of weights in some cells (read fast:
+    pandas' type inference runs in C, and a column of text stops there)."""
+    if column.dtype != object or len(column) == 0:
+        return False
+    if pd.api.types.infer_dtype(column, skipna=True) in ("string", "empty", "bytes"):
+        return False
+    return any(isinstance(v, dict | pd.Series) or hasattr(v, "keys") for v in column.array)
+
+
+def _check_weight_row(model: _Model, k: int, w: np.ndarray, where: str) -> None:
+    if not np.all(np.isfinite(w)) or (w < 0).any() or not (w > 0).any():
+        raise CaseError(f"{where}: the likelihood weights {dict(zip(model.states[k], w.tolist(), strict=True))} "
+                        "must be finite, 0 or more and not all 0 (only their ratios matter); "
+                        "fix the row, or leave it empty for not observed")
+
+
+def _weights_matrix(model: _Model, k: int, column: pd.Series, on_unknown: str
+                    ) -> tuple[np.ndarray, np.ndarray]:
+    """(rows x states weights scaled to a largest of 1, NaN rows not observed; count of
+    unknown labels skipped per row) from a column of dicts, labels and missing cells."""
+    states = model.states[k]
+    pos = {st: i for i, st in enumerate(states)}
+    out = np.full((len(column), len(states)), np.nan)
+    skipped = np.zeros(len(column), dtype=np.int32)
+    for r, v in enumerate(column.array):
+        where = f"row {_plain(column.index[r])!r}, column {column.name!r}"
+        if isinstance(v, pd.Series):
+            v = v.to_dict()
+        if hasattr(v, "keys"):
+            missing, unknown = key_gaps(v, states)
+            if unknown or missing:
+                raise CaseError(f"{where}: the likelihood weights name unknown state(s) "
+                                f"{unknown} and miss state(s) {missing}; give one weight for each "
+                                f"state {list(states)} of evidence '{model.items[k]}'")
+            try:
+                w = np.array([float(v[x]) for x in states])
+            except (TypeError, ValueError, OverflowError):
+                raise CaseError(f"{where}: the likelihood weights {v!r:.80} must be finite "
+                                "numbers") from None
+            _check_weight_row(model, k, w, where)
+            out[r] = w / w.max()
+        elif v is None or (isinstance(v, float) and np.isnan(v)) or v is pd.NA:
+            continue
+        elif isinstance(v, str) and v in pos:
+            out[r] = 0.0
+            out[r, pos[v]] = 1.0
+        elif on_unknown == "skip":
+            skipped[r] = 1
+        else:
+            raise CaseError(f"{where}: {v!r:.60} is not a state of evidence '{model.items[k]}' "
+                            f"nor a dict of likelihood weights; its states are {list(states)}; "
+                            "fix the cell, leave it empty for not observed, or pass "
+                            "on_unknown='skip'")
+    return out, skipped
+
+
+def _wide_weights(model: _Model, rows: Any, weights: Any, in_rows: set[Any], is_dask: bool
+                  ) -> dict[int, np.ndarray]:
+    """Item position -> rows x states weights from ``weights=`` (one frame per item)."""
+    if weights is None:
+        return {}
+    if is_dask:
+        raise CaseError("weights= takes pandas frames; with a Dask DataFrame put the weights in "
+                        "a column of dicts instead")
+    if not isinstance(weights, dict):
+        raise CaseTypeError(f"weights must map evidence name -> a DataFrame of weights (one "
+                            f"column per state), got {type(weights).__name__}")
+    pos = {name: i for i, name in enumerate(model.items)}
+    out = {}
+    for item, frame in weights.items():
+        if item not in pos:
+            raise CaseError(f"weights names {item!r:.60}, which is not an evidence item of the "
+                            f"model; the items are {_short(model.items)}")
+        if item in in_rows:
+            raise CaseError(f"evidence '{item}' is both a column of the rows and a frame of "
+                            "weights=; give it one way")
+        if not isinstance(frame, pd.DataFrame):
+            raise CaseTypeError(f"weights of evidence '{item}' must be a DataFrame with one column "
+                                f"per state, got {type(frame).__name__}")
+        k = pos[item]
+        states = list(model.states[k])
+        if set(map(str, frame.columns)) != set(states) or len(frame.columns) != len(states):
+            raise CaseError(f"weights of evidence '{item}' have columns {list(frame.columns)}; "
+                            f"give one column per state {states}")
+        if not frame.index.equals(rows.index):
+            raise CaseError(f"weights of evidence '{item}' are not indexed like the rows; give "
+                            "the frame the rows' index (one weights row per observation row)")
+        frame = frame.rename(columns=str)[states]
+        try:
+            w = frame.to_numpy(dtype=float)
+        except (TypeError, ValueError):
+            raise CaseError(f"weights of evidence '{item}' must be numbers") from None
+        seen = ~np.isnan(w).all(axis=1)
+        for r in np.flatnonzero(seen):
+            _check_weight_row(model, k, w[r], f"weights of evidence '{item}', row "
+                                              f"{_plain(frame.index[r])!r}")
+        out[k] = np.where(seen[:, None], w / np.where(seen, np.nanmax(
+            np.where(seen[:, None], w, 1.0), axis=1), 1.0)[:, None], np.nan)
+    return out
 
 
 # --------------------------------------------------------------------------- checks
@@ -645,7 +768,8 @@ def _groups(model: _Model, present: list[int]) -> list[tuple[list[int], list[int
 
 def _score_frame(model: _Model, frame: pd.DataFrame, columns: tuple[tuple[int, Any], ...],
                  names: tuple[str, ...], chunk_size: int | None, on_unknown: str,
-                 threads: int = 1, *, weak_below: float = 0.5) -> pd.DataFrame:
+                 threads: int = 1, *, weak_below: float = 0.5,
+                 wide: dict[int, np.ndarray] | None = None) -> pd.DataFrame:
     """Score one pandas frame (a whole input or one Dask partition; may be empty)."""
     n, h = len(frame), len(model.hypotheses)
     chunk = chunk_size or _default_chunk(h)
@@ -660,9 +784,19 @@ def _score_frame(model: _Model, frame: pd.DataFrame, columns: tuple[tuple[int, A
          "elim": np.zeros(n, dtype=np.int32),
          "log_ev": np.empty(n)}
     series = [(k, col, frame[col]) for k, col in columns]
+    # columns of likelihood weights (dict cells) and weights= frames: rows x states
+    weighted = dict(wide or {})
+    unk_w = np.zeros(n, dtype=np.int32)
+    for k, _, s_ in series:
+        if _is_weights_column(s_):
+            weighted[k], skipped = _weights_matrix(model, k, s_, on_unknown)
+            unk_w += skipped
+    series = [t for t in series if t[0] not in weighted]
+    w_tables = {k: np.exp(model.log_tables[k][:len(model.states[k]), :h]) for k in weighted}
     coders = [_Coder(model.items[k], model.states[k], s) for k, _, s in series]
-    groups = _groups(model, [k for k, _ in columns])
-    count_eliminated = not _SKIP_ZERO_FREE_COUNT or _any_zero_likelihood(model, columns)
+    groups = _groups(model, [k for k, _, _ in series])
+    count_eliminated = (not _SKIP_ZERO_FREE_COUNT or bool(weighted)
+                        or _any_zero_likelihood(model, columns))
     width = min(chunk, n)
     scratch = threading.local()
 
@@ -685,9 +819,14 @@ def _score_frame(model: _Model, frame: pd.DataFrame, columns: tuple[tuple[int, A
                 jm += codes[i]
             np.take(table, jm, axis=0, out=tm, mode="clip")  # codes are in range
             wm += tm  # -inf (a zero likelihood) stays -inf; no +inf occurs, so no NaN
+        for k, wmat in weighted.items():
+            seen = ~np.isnan(wmat[a:b, 0])
+            if seen.any():
+                wm[seen, :h] += _log_rows(wmat[a:b][seen], w_tables[k])
+                wm[seen, h] += 1
         o["n_obs"][a:b] = wm[:, h]
         if on_unknown == "skip":
-            o["n_unk"][a:b] = wm[:, h + 1]
+            o["n_unk"][a:b] = wm[:, h + 1] + unk_w[a:b]
         elif wm[:, h + 1].any():
             r = int(np.flatnonzero(wm[:, h + 1])[0])
             i = next(i for i, (k, _, _) in enumerate(series)
@@ -699,7 +838,15 @@ def _score_frame(model: _Model, frame: pd.DataFrame, columns: tuple[tuple[int, A
         bad = np.isneginf(top)
         if bad.any():
             rows = np.flatnonzero(bad)
-            lw[rows], o["stop"][a + rows] = _stop_early(model, series, codes, rows)
+            steps = [(k, (lambda r, k=k, c=c: model.log_tables[k][c[r], :h]))
+                     for (k, _, _), c in zip(series, codes, strict=True)]
+            # a row not observing a weighted item: all-ones weights (its table's columns
+            # sum to 1, so the step changes nothing)
+            steps += [(k, (lambda r, k=k: _log_rows(np.where(np.isnan(weighted[k][a + r]), 1.0,
+                                                             weighted[k][a + r]), w_tables[k])))
+                      for k in weighted]
+            lw[rows], o["stop"][a + rows] = _stop_early(model, sorted(steps,
+                                                                      key=lambda t: t[0]), rows)
             top[rows] = lw[rows].max(axis=1)
         out = o["post"][a:b]
         np.subtract(lw, top[:, None], out=out)
@@ -766,19 +913,26 @@ def _score_partition(frame: pd.DataFrame, model: _Model, *, columns, names, chun
                         weak_below=weak_below)
 
 
-def _stop_early(model: _Model, series: list, codes: list[np.ndarray],
-                rows: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+def _log_rows(w: np.ndarray, table: np.ndarray) -> np.ndarray:
+    """ln of (weights rows x states) @ (states x hypotheses): each row's likelihood of its
+    report under every hypothesis (virtual evidence)."""
+    with np.errstate(divide="ignore"):
+        return np.log(w @ table)
+
+
+def _stop_early(model: _Model, steps: list, rows: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Replay the rows whose evidence is impossible as a whole, item by item in the
     model's order, and stop each before its first impossible item (as the engine does).
 
-    Returns the log weights at the stop and the index of the impossible item.
-    Vectorised over the rows; the loop runs over evidence items.
+    ``steps`` is (item position, rows -> their log-likelihood rows) in model
+    order. Returns the log weights at the stop and the index of the impossible
+    item. Vectorised over the rows; the loop runs over evidence items.
     """
     w = np.broadcast_to(model.log_prior, (len(rows), len(model.log_prior))).copy()
     stop = np.full(len(rows), -1, dtype=np.int32)
     live = np.ones(len(rows), dtype=bool)
-    for (k, _, _), c in zip(series, codes, strict=True):
-        nxt = w + model.log_tables[k][c[rows], : w.shape[1]]
+    for k, rows_of in steps:
+        nxt = w + rows_of(rows)
         dead = live & ~np.isfinite(log_normalizer(nxt, axis=1))
         stop[dead] = k
         live &= ~dead

@@ -2,7 +2,7 @@
 
 A case file is UTF-8 JSON::
 
-    {"format": "beliefledger-case", "schema_version": 2, "case": {...}}
+    {"format": "beliefledger-case", "schema_version": 3, "case": {...}}
 
 Loading never evaluates or unpickles anything: it parses JSON (NaN and
 Infinity refused) and rebuilds the case through its own validating
@@ -22,7 +22,7 @@ from .case.serial import SCHEMA_VERSION, upgrade
 from .errors import CaseError, CaseFileError, CaseTypeError
 
 FORMAT = "beliefledger-case"
-READABLE_VERSIONS = (1, 2)
+READABLE_VERSIONS = (1, 2, 3)
 """Schema versions this reader takes (older ones are upgraded on load)."""
 MAX_FILE_BYTES = 512 * 1024 * 1024
 

@@ -68,6 +68,11 @@ MAX_INF_PAD_DB = 20.0   # how far past the finite range an infinite log-odds is 
 
 PROBABILITY_TICKS = (0.001, 0.01, 0.05, 0.1, 0.25, 0.5, 0.75, 0.9, 0.95, 0.99, 0.999)
 
+UNCERTAIN_MARK = "uncertain observation"
+"""What the waterfall writes beside a step that is an uncertain observation (its arrow is
+drawn with a dashed outline and a lighter fill; the colour still says for / against)."""
+UNCERTAIN_FORM_TEXT = {"likelihood": "likelihood weights", "probability": "Jeffrey's rule"}
+
 PRIOR_LABEL = "prior"
 POSTERIOR_LABEL = "posterior"
 KINDS = ("prior", "for", "against", "neutral", "posterior")
@@ -165,11 +170,16 @@ def waterfall_data(ledger: Ledger, focus: str | None = None) -> pd.DataFrame:
     for drawing), ``decibans`` (the step's weight, or the level for the two
     ends; may be infinite), ``bayes_factor`` (the step's likelihood ratio for
     the focus against the rest), ``verbal``, ``probability`` (P(focus) after
-    the mark), ``label`` (three lines), ``clipped``, ``top_db``, ``bottom_db``.
+    the mark), ``label`` (three lines), ``clipped``, ``top_db``, ``bottom_db``,
+    ``uncertain`` (``"likelihood"`` or ``"probability"`` for a step that is an
+    uncertain observation, else ``""``).
+
+    ``focus`` may be a hypothesis or a hypothesis group (its members together
+    against the rest; the group's probability is the sum of theirs).
     """
     focus = ledger.map_hypothesis if focus is None else focus
     w = step_weights(ledger, focus)  # validates focus
-    p_focus = ledger.steps[focus].to_numpy(dtype=float)
+    p_focus = ledger.probabilities[:, ledger.focus_columns(focus)].sum(axis=1)
     lo_db = np.empty(len(ledger.steps))
     lo_db[0] = (w["log_odds_before"].iloc[0] if len(w) else _prior_log_odds(ledger, focus))
     if len(w):
@@ -209,14 +219,15 @@ def waterfall_data(ledger: Ledger, focus: str | None = None) -> pd.DataFrame:
         "clipped": clipped.astype(bool),
         "top_db": np.maximum(start_c, end_c),
         "bottom_db": np.minimum(start_c, end_c),
+        "uncertain": ["", *[ledger.uncertain.get(s, {}).get("form", "") for s in w.index],
+                      ""],
     })
 
 
 def _prior_log_odds(ledger: Ledger, focus: str) -> float:
-    from ._logmath import log_odds_path
+    from ._logmath import log_odds_of_set
 
-    j = ledger.hypotheses.index(focus)
-    return float(log_odds_path(ledger.log_steps[:1], j)[0])
+    return float(log_odds_of_set(ledger.log_steps[:1], ledger.focus_columns(focus))[0])
 
 
 # --------------------------------------------------------------------------- probability path
@@ -333,4 +344,5 @@ __all__ = [
     "wrap", "short", "OKABE_ITO", "SUPPORT_COLOUR", "AGAINST_COLOUR", "NEUTRAL_COLOUR",
     "LEVEL_COLOUR", "PRIOR_COLOUR", "POSTERIOR_COLOUR", "FONT", "KINDS", "KIND_COLOURS",
     "PROBABILITY_TICKS", "LABEL_LINES", "LINE_HEIGHT", "SCENARIO_SHAPES", "DASHES",
+    "UNCERTAIN_MARK", "UNCERTAIN_FORM_TEXT",
 ]

@@ -70,7 +70,7 @@ def case_html(case: Case, max_rows: int = 50) -> str:
     rows = [[h.name, fmt_probability(pri[h.name]), "yes" if h.catch_all else "", str(h.source)]
             for h in hyps[:max_rows]]
     evs = list(case.evidence.values())
-    erows = [[e.name, ", ".join(e.states), e.observed if e.observed is not None else "pending",
+    erows = [[e.name, ", ".join(e.states), observed_text(e),
               str(e.source)] for e in evs[:max_rows]]
 
     def more(n: int, what: str, where: str) -> str:
@@ -89,6 +89,172 @@ def case_html(case: Case, max_rows: int = 50) -> str:
         + more(len(evs), "evidence items", "case.evidence")
         + "</div>"
     )
+
+
+def observed_text(ev) -> str:
+    """What is known of an item's state, in a few words: the state, "pending", or the
+    form of its uncertain observation."""
+    if ev.observed is not None:
+        return ev.observed
+    unc = getattr(ev, "uncertain", None)
+    if unc is None:
+        return "pending"
+    if unc.reported is not None:
+        return f"reported '{unc.reported}' (right with probability {unc.reliability:.4g})"
+    return ("uncertain: likelihood weights" if unc.form == "likelihood"
+            else "uncertain: probabilities (Jeffrey's rule)")
+
+
+def _uncertain_line(info) -> str:
+    form = ("uncertain observation, likelihood weights (only their ratios matter)"
+            if info["form"] == "likelihood" else
+            "uncertain observation, probabilities after it (Jeffrey's rule; depends on where "
+            "it sits)")
+    return f"{form}, step {info['position']} of {info['of']}"
+
+
+def _weights_text(states, values) -> str:
+    return ", ".join(f"{s} {fmt_probability(v) if 0 <= v <= 1 else f'{v:.4g}'}"
+                     for s, v in zip(states, values, strict=True))
+
+
+def observation_note_html(case: Case, ledger: Ledger | None = None) -> str:
+    """The assumption-register note on every uncertain observation of ``case`` (empty
+    text when there is none): who gave the report, how reliable and why (its source),
+    the weights, that only their ratios matter (likelihood form), and for a Jeffrey
+    update where it sits in the sequence, the predictive before it, the equivalent
+    likelihood weights, and the MAP had it been placed first or last. ``ledger``
+    defaults to ``case.update()``."""
+    items = [e for e in case.evidence.values() if getattr(e, "uncertain", None) is not None]
+    if not items:
+        return ""
+    led = case.update() if ledger is None else ledger
+    rows = []
+    notes = []
+    for ev in items:
+        unc = ev.uncertain
+        info = led.uncertain.get(ev.name, {})
+        src = unc.source
+        where = f"step {info['position']} of {info['of']}" if info else "not applied"
+        if ev.name in getattr(led, "skipped", []):
+            where += " (not applied: the update stopped before it)"
+        if unc.form == "likelihood":
+            form = "likelihood weights (virtual evidence)"
+            meaning = "relative chance of the report given each true state; only the ratios matter"
+            if unc.reported is not None:
+                meaning = (f"report '{unc.reported}' right with probability "
+                           f"{unc.reliability:.4g}, errors spread evenly over the other states; "
+                           + meaning)
+            extra = ""
+        else:
+            form = "probabilities after the observation (Jeffrey's rule)"
+            meaning = "the probability of each state after the observation"
+            pred = info.get("predictive", {})
+            lam = info.get("weights", {})
+            extra = ""
+            if pred:
+                extra = (f"P(state | the steps before it): {_weights_text(list(pred), pred.values())}; "
+                         f"equivalent likelihood weights: {_weights_text(list(lam), lam.values())}")
+            moved = []
+            for end in ("first", "last"):
+                m = info.get(f"map_if_{end}")
+                here = info.get("position") == (1 if end == "first" else info.get("of"))
+                if m is not None and not here:
+                    moved.append(f"placed {end}: MAP '{m}' ({fmt_probability(info[f'p_map_if_{end}'])})")
+            if moved:
+                extra += ("; " if extra else "") + "; ".join(moved)
+            if info.get("unreachable"):
+                extra += (f"; states ruled out before it, so not reachable: "
+                          f"{', '.join(info['unreachable'])}")
+        rows.append([ev.name, form, _weights_text(ev.states, unc.weights), meaning, where,
+                     src.where or "unsourced", src.who, src.when, src.why, unc.note, extra])
+    if any(e.uncertain.form == "likelihood" for e in items):
+        notes.append("Likelihood weights give the relative chance of the report under each true "
+                     "state; only their ratios matter, so 0.8 / 0.2 and 4 / 1 are the same report "
+                     "(Pearl 1988, section 2.2.2).")
+    if any(e.uncertain.form == "probability" for e in items):
+        notes.append("A probability-form observation is applied at its place in the sequence "
+                     "through the likelihood weights q(state) / P(state | the steps before it) "
+                     "(Jeffrey 1965; Chan & Darwiche 2005). Such updates do not commute: placed "
+                     "elsewhere the same report moves belief differently, so where it sits is "
+                     "part of the assumption.")
+    return ('<div class="bl-uncertain-observations"><h4>Uncertain observations</h4>'
+            + _table(["evidence", "form", "as given", "meaning", "where it sits", "where",
+                      "who", "when", "why", "note", "at its step"], rows)
+            + "".join(f"<p>{esc(n)}</p>" for n in notes) + "</div>")
+
+
+def groups_html(ledger: Ledger) -> str:
+    """Hypothesis groups of a ledger (empty text when there are none): each group's
+    members, its prior and posterior (the sums of its members'), and why groups are
+    read instead of merged hypotheses."""
+    groups = getattr(ledger, "hypothesis_groups", {})
+    if not groups:
+        return ""
+    gp = ledger.group_posterior
+    prior = ledger.group_steps.iloc[0]
+    rows = [[g, ", ".join(m), fmt_probability(prior[g]), fmt_probability(gp[g]),
+             "yes" if g == ledger.group_map else ""] for g, m in groups.items()]
+    rest = [h for h in gp.index if h not in groups]
+    rows += [[h, "(in no group)", fmt_probability(prior[h]), fmt_probability(gp[h]),
+              "yes" if h == ledger.group_map else ""] for h in rest]
+    return ('<div class="bl-groups"><h4>Hypothesis groups</h4>'
+            + _table(["group", "members", "prior", "posterior", "highest"], rows)
+            + "<p>A group's probability is the sum of its members' at every step; the "
+              "members are updated separately. Merging the members into one hypothesis with "
+              "one likelihood table would not be exact: its likelihood would have to be the "
+              "members' likelihoods weighted by their current beliefs, which change with every "
+              "item.</p></div>")
+
+
+def experts_html(review) -> str:
+    """The experts' part of the register (:func:`beliefledger.expert_review`): who each
+    expert is and why they were asked, the conclusion under each expert's numbers alone
+    with the verdict ("MAP 'X' unchanged under 3 of 4 experts"), the spread of every
+    judged number (each expert's best, the lowest, the highest, the case's own), and any
+    judgement entered for an earlier hypothesis set."""
+    who = {e["name"]: e for e in review.experts}
+    rows = []
+    for ex, r in review.frame.iterrows():
+        src = who.get(ex, {}).get("source", {})
+        rows.append([ex, src.get("where") or "unsourced", src.get("who", ""),
+                     src.get("why", ""), int(r["inputs"]), r["map"],
+                     fmt_probability(r["p_map"]), "yes" if r["changed"] else ""])
+    experts = [c for c in review.spread.columns
+               if c not in ("input", "key", "lowest", "highest", "case")]
+    srows = [[r["input"], r["key"],
+              *[fmt_probability(r[e]) if r[e] == r[e] else "" for e in experts],
+              fmt_probability(r["lowest"]), fmt_probability(r["highest"]),
+              fmt_probability(r["case"])] for _, r in review.spread.iterrows()]
+    parts = [f'<div class="bl-experts"><h4>Experts</h4><p>{esc(review.verdict)}</p>']
+    if rows:
+        parts.append(_table(["expert", "where", "who", "why", "judgements", "MAP alone",
+                             "its posterior", "MAP changes"], rows))
+    if srows:
+        parts.append("<p>Spread of each judged number (best values):</p>")
+        parts.append(_table(["input", "hypothesis or state", *experts, "lowest", "highest",
+                             "in the case"], srows))
+    if review.stale:
+        parts.append("<p>Entered for an earlier hypothesis set (kept, not used): "
+                     f"{esc('; '.join(review.stale))}</p>")
+    parts.append("</div>")
+    return "".join(parts)
+
+
+def pool_html(pooled) -> str:
+    """A pooled judgement (:func:`beliefledger.pool`): each expert's numbers, the weights,
+    and the pooled value and range of each hypothesis or state."""
+    frame = pooled.to_frame()
+    experts = list(pooled.by_expert.index)
+    rows = [[k, *[fmt_probability(r[e]) for e in experts],
+             *[fmt_probability(r[f"pooled {c}"]) for c in ("low", "best", "high")]]
+            for k, r in frame.iterrows()]
+    weights = ", ".join(f"{e} {fmt_probability(w)}" for e, w in pooled.weights.items())
+    return (f'<div class="bl-pool"><p>{esc(pooled.label)}: {esc(pooled.method)} opinion pool, '
+            f"{esc(pooled.weighting)} weights ({esc(weights)}); ranges at "
+            f"{pooled.level:.0%}.</p>"
+            + _table(["", *experts, "pooled low", "pooled best", "pooled high"], rows)
+            + "".join(f"<p>{esc(n)}</p>" for n in pooled.notes) + "</div>")
 
 
 def flags_html(flags) -> str:
@@ -117,6 +283,9 @@ def ledger_html(ledger: Ledger, max_cols: int | None = 30, *, with_flags: bool =
         + table_html(header, rows, what="steps") + more
         + "".join(f"<p>{esc(s)}: one step combining {esc(', '.join(m))}</p>"
                   for s, m in ledger.members.items() if len(m) > 1 or m != (s,))
+        + "".join(f"<p>{esc(s)}: {esc(_uncertain_line(info))}</p>"
+                  for s, info in getattr(ledger, "uncertain", {}).items())
+        + groups_html(ledger)
         + f"<p>MAP: <b>{esc(ledger.map_hypothesis)}</b> "
         f"({fmt_probability(ledger.posterior[ledger.map_hypothesis])}); maximum likelihood: "
         f"{esc(ledger.ml_hypothesis or 'n/a')}</p>"
@@ -147,6 +316,8 @@ def ledger_text(ledger: Ledger, max_cols: int = 12) -> str:
     grouped = [(s, m) for s, m in ledger.members.items() if len(m) > 1 or m != (s,)]
     for step, members in grouped:
         lines.append(f"  {visible(step)}: one step combining {', '.join(map(visible, members))}")
+    for step, info in getattr(ledger, "uncertain", {}).items():
+        lines.append(f"  {visible(step)}: {_uncertain_line(info)}")
     lines.append("")
     lines.append(f"MAP: {visible(ledger.map_hypothesis)} "
                  f"({fmt_probability(ledger.posterior[ledger.map_hypothesis])})   maximum "
@@ -240,4 +411,5 @@ def fmt_probability(p: float) -> str:
 
 __all__ = ["robustness_html", "simulation_html", "fmt_probability", "fmt_number", "fmt_input",
            "table_html", "esc", "visible", "case_html", "ledger_html", "ledger_text",
-           "flags_html", "artefacts_html"]
+           "flags_html", "artefacts_html", "observation_note_html", "groups_html",
+           "observed_text", "experts_html", "pool_html"]

@@ -12,6 +12,14 @@ All intervals are equal-tailed and come from the exact marginal
 distributions (``scipy.stats``, imported inside the functions so that
 ``import beliefledger`` stays fast).
 
+Several experts' numbers are combined here too (:func:`pool`, with
+performance weights from calibration questions by
+:func:`beliefledger.calibration.classical_model`); keeping each expert's
+input with the case, and reading the conclusion under each expert alone, is
+:mod:`beliefledger.experts`. The module runs a little over 800 lines for that:
+the pools belong with the other ways of turning judgement and data into
+numbers, and each part is short.
+
 References
 ----------
 Dezfuli, H., Kelly, D., Smith, C., Vedros, K. & Galyean, W. (2009).
@@ -20,6 +28,13 @@ NASA/SP-2009-569, section 4.2 (beta-binomial and gamma-Poisson conjugate
 updating; the Jeffreys priors Beta(0.5, 0.5) and Gamma(0.5, 0)).
 Gelman, A. et al. (2013). *Bayesian Data Analysis*, 3rd ed., section 3.4
 (the Dirichlet-multinomial model and the marginals of a Dirichlet).
+
+Clemen, R. T. & Winkler, R. L. (1999). Combining probability distributions
+from experts in risk analysis. *Risk Analysis* 19(2), 187-203 (linear and
+logarithmic opinion pools, weights).
+Cooke, R. M. (1991). *Experts in Uncertainty*, Oxford University Press,
+(the classical model: calibration and information scores,
+performance weights). Both recalled from memory.
 """
 
 from __future__ import annotations
@@ -498,8 +513,353 @@ def likelihood_from_counts(true_positives: int, false_positives: int, false_nega
     return LikelihoodEstimate(table, target, sens, spec, src, flags, sens_e, spec_e)
 
 
+# --------------------------------------------------------------------------- expert pools
+
+POOL_METHODS = ("linear", "log")
+
+
+def _pool_weights(experts: list[str], weights: Any) -> dict[str, float]:
+    """Normalized weights per expert from None / "equal" or a mapping expert -> weight."""
+    if weights is None or (isinstance(weights, str) and weights == "equal"):
+        return {e: 1.0 / len(experts) for e in experts}
+    if isinstance(weights, pd.Series):
+        weights = weights.to_dict()
+    if not isinstance(weights, Mapping):
+        raise CaseTypeError(f"weights must be 'equal', 'performance' or a mapping expert -> "
+                            f"weight, got {type(weights).__name__} {weights!r:.60}")
+    unknown = [k for k in weights if k not in experts]
+    missing = [e for e in experts if e not in weights]
+    if unknown or missing:
+        raise CaseError(f"weights name unknown expert(s) {unknown} and miss {missing}; give one "
+                        f"weight for each expert {experts}")
+    vals = {}
+    for e in experts:
+        w = weights[e]
+        try:
+            finite = (not isinstance(w, bool) and isinstance(w, int | float | np.floating
+                                                             | np.integer)
+                      and math.isfinite(float(w)))
+        except OverflowError:
+            finite = False
+        if not finite:
+            raise CaseError(f"weight of expert '{e}' is {w!r:.40}; give a finite number of 0 "
+                            "or more")
+        if w < 0:
+            raise CaseError(f"weight of expert '{e}' is {float(w):g}, below zero; weights are 0 "
+                            "or more (0 leaves the expert out)")
+        vals[e] = float(w)
+    total = math.fsum(vals.values())
+    if total <= 0:
+        raise CaseError(f"the weights of experts {experts} are all 0; give at least one "
+                        "positive weight")
+    return {e: v / total for e, v in vals.items()}
+
+
+def pool_distributions(dists: Mapping[str, Mapping[str, float]], *, method: str = "linear",
+                       weights: Any = None) -> dict[str, float]:
+    """Combine several experts' distributions over the same keys into one.
+
+    ``linear``: p(k) = Σ_i w_i·p_i(k). ``log``: p(k) ∝ Π_i p_i(k)^w_i,
+    normalized over the keys (a key any weighted expert gives 0 gets 0).
+    ``weights``: ``None`` (equal) or expert -> weight (0 or more, not all 0;
+    normalized to sum to 1).
+
+    References
+    ----------
+    Clemen & Winkler (1999), *Risk Analysis* 19(2), 187-203, section 3
+    (the linear and logarithmic opinion pools; recalled from memory, formulas
+    checked by hand in the tests).
+    """
+    if method not in POOL_METHODS:
+        raise CaseError(f"pool method {method!r:.40} is not one of {list(POOL_METHODS)}")
+    experts = list(dists)
+    if not experts:
+        raise CaseError("no expert's distribution to pool; give at least one")
+    keys = list(dists[experts[0]])
+    for e in experts:
+        if set(dists[e]) != set(keys):
+            raise CaseError(f"expert '{e}' gives values for {sorted(dists[e])}, but expert "
+                            f"'{experts[0]}' for {sorted(keys)}; pool distributions over the same "
+                            "states or hypotheses")
+        total = math.fsum(float(dists[e][k]) for k in keys)
+        if abs(total - 1) > 1e-6:
+            raise CaseError(f"expert '{e}''s values sum to {_g(total)}, not 1; each expert's "
+                            "numbers for one input form a distribution")
+    w = _pool_weights(experts, weights)
+    p = np.array([[float(dists[e][k]) for k in keys] for e in experts])
+    wv = np.array([w[e] for e in experts])
+    if method == "linear":
+        out = wv @ p
+    else:
+        live = wv > 0
+        with np.errstate(divide="ignore"):
+            lg = (wv[live, None] * np.log(p[live])).sum(axis=0)
+        lg = np.where(np.isnan(lg), -np.inf, lg)
+        top = lg.max()
+        if not np.isfinite(top):
+            raise CaseError("the logarithmic pool is undefined here: every state or hypothesis "
+                            "is given 0 by some weighted expert; use the linear pool, or revisit "
+                            "the zeros")
+        out = np.exp(lg - top)
+    out = out / out.sum()
+    return dict(zip(keys, out.tolist(), strict=True))
+
+
+def _pooled_range(ranges: list[tuple[float, float, float]], w: list[float], method: str,
+                  level: float) -> tuple[float, float] | None:
+    """The pooled low / high of one probability from each expert's (low, best, high),
+    each read as a Beta with mean ``best`` fitted to the range (see
+    :func:`beliefledger.uncertainty.fit_concentration`): the ``level`` interval of their
+    mixture (linear pool) or of their normalized weighted geometric mean, which for
+    Betas is Beta(Σ w_i a_i, Σ w_i b_i) (log pool; derived here from the densities).
+    ``None`` when an expert's range cannot be fitted (an end at the best value)."""
+    from scipy import optimize, stats
+
+    from .uncertainty import fit_concentration
+
+    ab = []
+    for lo, best, hi in ranges:
+        if not (0 < lo < best < hi < 1):
+            return None
+        k, _, _ = fit_concentration(best, lo, hi, level)
+        ab.append((best * k, (1 - best) * k))
+    tails = ((1 - level) / 2, (1 + level) / 2)
+    if method == "log":
+        a = sum(wi * x for wi, (x, _) in zip(w, ab, strict=True))
+        b = sum(wi * y for wi, (_, y) in zip(w, ab, strict=True))
+        lo, hi = (float(v) for v in stats.beta.ppf(tails, a, b))
+        return lo, hi
+
+    def cdf(x: float) -> float:
+        return sum(wi * stats.beta.cdf(x, a, b) for wi, (a, b) in zip(w, ab, strict=True))
+    out = []
+    for q in tails:
+        out.append(float(optimize.brentq(lambda x, q=q: cdf(x) - q, 0.0, 1.0, xtol=1e-12)))
+    return out[0], out[1]
+
+
+class PooledJudgement:
+    """Several experts' numbers for one input, combined.
+
+    Attributes
+    ----------
+    target : str
+        ``"prior"`` or ``"likelihood"``; ``evidence`` and ``hypothesis`` name a
+        likelihood column.
+    values : Series
+        The pooled best value of each hypothesis (prior) or state (likelihood).
+    ranges : DataFrame
+        ``low``, ``best``, ``high`` per key; ``low`` / ``high`` are NaN where not
+        every expert gave a range.
+    weights : Series
+        The normalized weight of each expert.
+    by_expert : DataFrame
+        Each expert's best values (experts as rows).
+    method, weighting, level : str, str, float
+    source : Source
+        Where the pooled numbers came from (the experts, the pool, the weights).
+    """
+
+    def __init__(self, *, target: str, evidence: str | None, hypothesis: str | None,
+                 values: pd.Series, ranges: pd.DataFrame, weights: pd.Series,
+                 by_expert: pd.DataFrame, method: str, weighting: str, level: float,
+                 source: Source, notes: list[str]) -> None:
+        self.target, self.evidence, self.hypothesis = target, evidence, hypothesis
+        self.values, self.ranges, self.weights = values, ranges, weights
+        self.by_expert, self.method, self.weighting, self.level = by_expert, method, weighting, level
+        self.source, self.notes = source, list(notes)
+
+    @property
+    def label(self) -> str:
+        return ("priors" if self.target == "prior" else
+                f"P(state | '{self.hypothesis}') of evidence '{self.evidence}'")
+
+    @property
+    def spread(self) -> pd.DataFrame:
+        """Per key: the lowest and highest best value across the experts, and the pooled."""
+        return pd.DataFrame({"lowest": self.by_expert.min(axis=0),
+                             "highest": self.by_expert.max(axis=0), "pooled": self.values})
+
+    def to_frame(self) -> pd.DataFrame:
+        """Keys as rows; each expert's best, then the pooled low / best / high."""
+        frame = self.by_expert.T.copy()
+        for c in ("low", "best", "high"):
+            frame[f"pooled {c}"] = self.ranges[c]
+        return frame
+
+    def to_dict(self) -> dict[str, Any]:
+        def clean(x: float) -> float | None:
+            return None if not math.isfinite(x) else float(x)
+        return {"target": self.target, "evidence": self.evidence, "hypothesis": self.hypothesis,
+                "method": self.method, "weighting": self.weighting, "level": self.level,
+                "weights": {k: float(v) for k, v in self.weights.items()},
+                "values": {k: float(v) for k, v in self.values.items()},
+                "ranges": {k: {c: clean(float(r[c])) for c in ("low", "best", "high")}
+                           for k, r in self.ranges.iterrows()},
+                "source": self.source.to_dict(), "notes": list(self.notes)}
+
+    def __repr__(self) -> str:
+        vals = ", ".join(f"{k}: {v:.4g}" for k, v in self.values.items())
+        return (f"PooledJudgement({self.label}: {self.method} pool of {len(self.weights)} "
+                f"experts, {self.weighting} weights; {vals})")
+
+    def _repr_html_(self) -> str:
+        from .display import pool_html
+
+        return pool_html(self)
+
+
+def _as_values(v: Any) -> dict[str, float]:
+    from .case.experts import check_value
+
+    return check_value("a judged value", v)
+
+
+def pool(case: Any, target: Any = "prior", *, method: str = "linear", weights: Any = "equal",
+         level: float = 0.9, cutoff: float = 0.0) -> PooledJudgement:
+    """Combine several experts' numbers for one input by an opinion pool.
+
+    Parameters
+    ----------
+    case : Case or mapping
+        A case whose experts gave judgements (:func:`beliefledger.set_expert_prior`,
+        :func:`beliefledger.set_expert_likelihood`), or the judgements
+        themselves: expert -> {key: value}, each value a number or a (low,
+        best, high) range.
+    target : "prior" or (evidence, hypothesis)
+        Which input of the case to pool (ignored for a mapping).
+    method : {"linear", "log"}
+        The linear pool Σ w_i·p_i, or the logarithmic pool ∝ Π p_i^w_i.
+    weights : "equal", "performance" or mapping
+        Equal weights; performance weights from the case's calibration
+        questions by the classical model (:func:`classical_model`, with
+        ``cutoff``); or stated weights, expert -> weight (0 or more, not all
+        0).
+    level : float
+        The level at which ranges are read (default 0.9: a low / high range is
+        a 90 % interval) and the pooled range is given.
+
+    Returns
+    -------
+    PooledJudgement
+        The pooled values, ranges where every expert gave one, each expert's
+        numbers, the weights and a Source. :func:`beliefledger.apply_pool`
+        puts them into the case (the numbers and, for the Monte Carlo, the
+        ranges); nothing here changes the case.
+
+    References
+    ----------
+    Clemen & Winkler (1999), *Risk Analysis* 19(2); Cooke (1991), *Experts in
+    Uncertainty* (performance weights; both recalled from memory).
+    """
+    from .case.experts import check_expert, experts_section, is_stale
+
+    lv = _level(level)
+    notes: list[str] = []
+    evidence = hypothesis = None
+    if isinstance(case, Mapping):
+        judged = {str(e): {str(k): _as_values(v) for k, v in d.items()} if isinstance(d, Mapping)
+                  else _bad_judgement(e) for e, d in case.items()}
+        tgt, who = "given", {}
+    else:
+        sec = experts_section(case)
+        if isinstance(target, str) and target == "prior":
+            tgt = "prior"
+        elif isinstance(target, tuple | list) and len(target) == 2:
+            tgt = "likelihood"
+            evidence = case.evidence_item(target[0]).name
+            hypothesis = case.hypothesis(target[1]).name
+        else:
+            raise CaseError(f"target {target!r:.60} is not 'prior' or an (evidence, hypothesis) "
+                            "pair")
+        rows = [j for j in sec["judgements"] if j["target"] == tgt and
+                (tgt == "prior" or (j["evidence"] == evidence and j["hypothesis"] == hypothesis))]
+        if not rows:
+            raise CaseError(f"no expert has judged the {'priors' if tgt == 'prior' else f'likelihoods of {evidence!r} under {hypothesis!r}'}; "
+                            "enter them with bl.set_expert_prior / bl.set_expert_likelihood")
+        stale = [j["expert"] for j in rows if is_stale(j, case)]
+        if stale:
+            raise CaseError(f"the judgement(s) of {stale} were entered for an earlier hypothesis "
+                            "set (or states) and no longer cover the case's; enter them again "
+                            "before pooling")
+        judged = {j["expert"]: j["values"] for j in rows}
+        who = {e["name"]: e for e in sec["experts"]}
+        for e in judged:
+            check_expert(case, e)
+    experts = list(judged)
+    if isinstance(weights, str) and weights == "performance":
+        if isinstance(case, Mapping):
+            raise CaseError("performance weights come from the case's calibration questions; "
+                            "pass the case, or give stated weights")
+        from .calibration import calibration_scores
+
+        scores = calibration_scores(case, cutoff=cutoff)
+        missing = [e for e in experts if e not in scores.weights.index]
+        if missing:
+            raise CaseError(f"expert(s) {missing} answered no calibration question, so they have "
+                            "no performance weight; add their assessments with "
+                            "bl.set_calibration, or give stated weights")
+        w = _pool_weights(experts, scores.weights[experts].to_dict())
+        weighting = f"performance (classical model, cutoff {_g(cutoff)})"
+    elif isinstance(weights, str) and weights != "equal":
+        raise CaseError(f"weights {weights!r:.40} is not 'equal', 'performance' or a mapping "
+                        "expert -> weight")
+    else:
+        w = _pool_weights(experts, None if isinstance(weights, str) else weights)
+        weighting = "equal" if isinstance(weights, str) else "stated"
+    best = {e: {k: v["best"] for k, v in d.items()} for e, d in judged.items()}
+    keys = list(best[experts[0]])
+    values = pool_distributions(best, method=method, weights=w)
+    lows, highs = {}, {}
+    for k in keys:
+        rg = [(d[k].get("low"), d[k]["best"], d[k].get("high")) for d in judged.values()]
+        live = [(r, w[e]) for r, e in zip(rg, experts, strict=True) if w[e] > 0]
+        if all(r[0] is not None for r, _ in live):
+            got = _pooled_range([r for r, _ in live], [x for _, x in live], method, lv)
+            if got is None:
+                notes.append(f"no pooled range for '{k}': a range with an end at its best "
+                             "value cannot be read as a distribution")
+                continue
+            lo, hi = got
+            if not lo < values[k] < hi:
+                notes.append(f"the pooled range for '{k}' ({_g(lo)} to {_g(hi)}) was widened to "
+                             f"hold the pooled value {_g(values[k])}")
+                lo, hi = min(lo, values[k]), max(hi, values[k])
+            lows[k], highs[k] = lo, hi
+    ranges = pd.DataFrame({"low": [lows.get(k, np.nan) for k in keys],
+                           "best": [values[k] for k in keys],
+                           "high": [highs.get(k, np.nan) for k in keys]},
+                          index=pd.Index(keys, name="key"))
+    names = ", ".join(f"{e} ({_g(w[e])})" for e in experts)
+    whys = "; ".join(f"{e}: {who[e]['source'].get('where') or 'unsourced'}"
+                     for e in experts if e in who)
+    src = Source(where=f"{method} opinion pool of {len(experts)} experts' judgements: {names}"
+                       + (f" [{whys}]" if whys else ""),
+                 why=f"{weighting} weights (Clemen & Winkler 1999"
+                     + ("; Cooke 1991 classical model" if weighting.startswith("performance")
+                        else "") + ")")
+    return PooledJudgement(
+        target=tgt, evidence=evidence, hypothesis=hypothesis,
+        values=pd.Series(values, name="pooled"), ranges=ranges,
+        weights=pd.Series(w, name="weight"),
+        by_expert=pd.DataFrame(best).T.reindex(columns=keys), method=method, weighting=weighting,
+        level=lv, source=src, notes=notes)
+
+
+def _bad_judgement(e: Any) -> Any:
+    raise CaseTypeError(f"the judgement of expert {e!r:.60} must map each state or hypothesis "
+                        "to a value (a number or a low / best / high range)")
+
+
+def _level(level: Any) -> float:
+    from ._checks import check_level
+
+    return check_level(level)
+
+
 __all__ = [
     "prior_from_counts", "probability_from_demands", "rate_from_events",
     "likelihood_from_test", "likelihood_from_counts",
     "LikelihoodEstimate", "JEFFREYS", "UNIFORM",
+    "pool", "pool_distributions", "PooledJudgement", "POOL_METHODS",
 ]

@@ -12,6 +12,14 @@ review flags are computed on the arrays when the ledger is made.
 
 A ledger is immutable: its arrays are read-only, its frames are views on
 them, and its flags are filled once, at construction.
+
+Uncertain observations enter as steps like any other. A likelihood-form one
+(virtual evidence) has a fixed row. A probability-form one (Jeffrey's rule)
+has a row that depends on the belief just before it: :func:`resolve_steps`
+fills it in under each scenario's priors, from the predictive over the
+item's states at that step, and the ledger keeps where each sits and what
+the MAP would be had it been placed first or last (Jeffrey updates do not
+commute; the ``order-sensitive`` flag reads this).
 """
 
 from __future__ import annotations
@@ -21,7 +29,9 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 import pandas as pd
 
-from ._logmath import log_of
+from ._logmath import log_normalizer, log_of
+from .case.dependence import LogSteps, shift_row
+from .case.uncertain import jeffrey_weights
 from .flags import diagnose
 
 if TYPE_CHECKING:
@@ -71,12 +81,29 @@ class Ledger:
         The steps not applied (the impossible one and those after it).
     members : dict
         Step name -> the evidence items it combines (one unless grouped).
+    uncertain : dict
+        Step name -> what is known of each uncertain observation applied or
+        skipped: ``form`` (``"likelihood"`` or ``"probability"``), ``position``
+        and ``of`` (its place among the observed steps, from 1), ``weights``
+        (state -> the likelihood weights used, largest 1) and, for the
+        probability form, ``stated`` (state -> the probability given),
+        ``predictive`` (state -> P(state | the steps before it)),
+        ``unreachable`` (states given a probability that the evidence before
+        rules out), ``map_if_first`` / ``map_if_last`` and
+        ``p_map_if_first`` / ``p_map_if_last`` (the MAP, and its posterior,
+        had the step been placed first or last; ``None`` when the update
+        would be impossible).
+    hypothesis_groups : dict
+        Group name -> its member hypotheses (``case.hypothesis_groups`` when
+        the ledger was made); read at group level with :attr:`group_posterior`
+        and :attr:`group_steps`.
     flags : tuple of Flag
         What a reviewer should look at (errors first).
     """
 
     __slots__ = ("title", "scenario", "hypotheses", "prior_values", "step_names",
                  "map_hypothesis", "stopped_at", "skipped", "members", "flags",
+                 "uncertain", "hypothesis_groups",
                  "_cum", "_weights", "_sums", "_lognorm", "_z", "_rows", "_post",
                  "_frozen", "_probs", *_LAZY)
 
@@ -85,9 +112,12 @@ class Ledger:
                  sums: np.ndarray, lognorm: np.ndarray, z: np.ndarray, rows: list[np.ndarray],
                  step_names: list[str], members: dict[str, tuple[str, ...]],
                  stopped_at: str | None, skipped: list[str], case: Case | None = None,
-                 with_flags: bool = True) -> None:
+                 with_flags: bool = True, uncertain: dict[str, dict[str, Any]] | None = None,
+                 hypothesis_groups: dict[str, tuple[str, ...]] | None = None) -> None:
         put = object.__setattr__
         put(self, "_frozen", False)
+        put(self, "uncertain", dict(uncertain or {}))
+        put(self, "hypothesis_groups", dict(hypothesis_groups or {}))
         put(self, "title", title)
         put(self, "scenario", scenario)
         put(self, "hypotheses", list(hypotheses))
@@ -256,6 +286,62 @@ class Ledger:
     def evidence_steps(self) -> list[str]:
         return self.step_names[1:]
 
+    # ------------------------------------------------------------------ group level
+    def focus_columns(self, focus: str) -> list[int]:
+        """Column positions a focus stands for: one hypothesis, or a hypothesis group's
+        members (an error naming both kinds when ``focus`` is neither)."""
+        if focus in self.hypothesis_groups:
+            return [self.hypotheses.index(m) for m in self.hypothesis_groups[focus]]
+        if isinstance(focus, str) and focus in self.hypotheses:
+            return [self.hypotheses.index(focus)]
+        from .errors import CaseError
+
+        groups = f" or hypothesis group {list(self.hypothesis_groups)}" if \
+            self.hypothesis_groups else ""
+        raise CaseError(f"no hypothesis named {focus!r}; the hypotheses are "
+                        f"{self.hypotheses}{groups}")
+
+    def _group_columns(self) -> list[tuple[str, list[int]]]:
+        grouped = {m for ms in self.hypothesis_groups.values() for m in ms}
+        out = [(g, [self.hypotheses.index(m) for m in ms])
+               for g, ms in self.hypothesis_groups.items()]
+        out += [(h, [j]) for j, h in enumerate(self.hypotheses) if h not in grouped]
+        return out
+
+    @property
+    def group_posterior(self) -> pd.Series:
+        """The posterior at group level: each hypothesis group (the sum of its members'
+        posteriors, correctly rounded with ``math.fsum``), then each hypothesis in no
+        group on its own. Sums to 1."""
+        import math
+
+        def build() -> pd.Series:
+            post = self._post
+            cols = self._group_columns()
+            vals = [math.fsum(float(post[j]) for j in js) for _, js in cols]
+            return pd.Series(vals, index=pd.Index([c for c, _ in cols], name="group"),
+                             name="posterior")
+        return self.memo("group_posterior", build).copy()
+
+    @property
+    def group_steps(self) -> pd.DataFrame:
+        """:attr:`steps` at group level: one column per hypothesis group (its members
+        summed), then each hypothesis in no group."""
+        def build() -> pd.DataFrame:
+            probs = self.probabilities
+            cols = self._group_columns()
+            data = np.column_stack([probs[:, js].sum(axis=1) for _, js in cols]) if cols \
+                else np.zeros((len(probs), 0))
+            return pd.DataFrame(data, index=pd.Index(self.step_names, name="step"),
+                                columns=pd.Index([c for c, _ in cols], name="group"))
+        return self.memo("group_steps", build).copy()
+
+    @property
+    def group_map(self) -> str:
+        """The group (or ungrouped hypothesis) with the highest group-level posterior."""
+        gp = self.group_posterior
+        return str(gp.index[int(np.argmax(gp.to_numpy()))])
+
     @property
     def log_evidence(self) -> float:
         """ln P(all applied evidence) under the priors."""
@@ -302,6 +388,7 @@ class Ledger:
             "evidence_probability": {k: float(v) for k, v in self.evidence_probability.items()},
             "stopped_at": self.stopped_at,
             "flags": [f.to_dict() for f in self.flags],
+            **({"uncertain": _json_ready(self.uncertain)} if self.uncertain else {}),
         }
 
     def __repr__(self) -> str:
@@ -323,6 +410,120 @@ def _prior_values(case: Case, scenario: str) -> np.ndarray:
     return np.asarray(case.prior_array(scenario), dtype=float)
 
 
+def _json_ready(value: Any) -> Any:
+    if isinstance(value, dict):
+        return {str(k): _json_ready(v) for k, v in value.items()}
+    if isinstance(value, list | tuple):
+        return [_json_ready(v) for v in value]
+    if isinstance(value, np.generic):
+        return value.item()
+    return value
+
+
+def _log_prior(p: np.ndarray) -> np.ndarray:
+    total = p.sum()
+    return log_of(p / total) if total > 0 else np.full(len(p), -np.inf)
+
+
+def _jeffrey_row(table: np.ndarray, q: np.ndarray, run: np.ndarray
+                 ) -> tuple[np.ndarray, np.ndarray, np.ndarray, list[int]]:
+    """The log row of a Jeffrey step given the running log weights ``run`` before it:
+    (row, weights, predictive, unreachable state positions)."""
+    top = float(np.max(run)) if run.size else -np.inf
+    if not np.isfinite(top):  # nothing before it is possible: the update stops earlier
+        return np.zeros(len(run)), np.zeros(len(q)), np.full(len(q), np.nan), []
+    lam, pred, unreachable = jeffrey_weights(table, q, np.exp(run - top))
+    return log_of(lam @ table), lam, pred, unreachable
+
+
+def _final_log(log_prior: np.ndarray, rows: list[np.ndarray],
+               jeffrey: dict[int, tuple[np.ndarray, np.ndarray]], order: list[int]) -> np.ndarray:
+    """The log weights after every step taken in ``order`` (Jeffrey steps resolved
+    where they sit); used to ask where a Jeffrey step's place matters."""
+    run = np.array(log_prior, dtype=float)
+    fixed: list[np.ndarray] = []
+    for i in order:
+        if i not in jeffrey:
+            fixed.append(rows[i])
+            continue
+        if fixed:
+            run = run + np.add.reduce(np.array(fixed), axis=0)
+            fixed = []
+        table, q = jeffrey[i]
+        run = run + _jeffrey_row(table, q, run)[0]
+    if fixed:
+        run = run + np.add.reduce(np.array(fixed), axis=0)
+    return run
+
+
+def resolve_steps(p: np.ndarray, steps: LogSteps, *, hypotheses: list[str] | None = None,
+                  states: dict[str, tuple[str, ...]] | None = None
+                  ) -> tuple[LogSteps, dict[str, dict[str, Any]]]:
+    """The observed steps with every Jeffrey (probability-form) row filled in under the
+    priors ``p``, and what the ledger keeps of each uncertain step.
+
+    Each Jeffrey row is ln Σ_s λ(s)·P(s | H) with λ(s) ∝ q(s) / P(s | the steps
+    before it) (Chan & Darwiche 2005): applied there, the update gives
+    P'(H) = Σ_s q(s)·P(H | s, the steps before). With ``hypotheses`` given,
+    the MAP had each Jeffrey step been placed first or last is computed too.
+    """
+    info: dict[str, dict[str, Any]] = {}
+    n = len(steps.names)
+    for k, name in enumerate(steps.names):
+        if name in steps.forms:
+            info[name] = {"form": steps.forms[name], "position": k + 1, "of": n}
+    if not steps.jeffrey:
+        return steps, info
+    log_prior = _log_prior(np.asarray(p, dtype=float))
+    rows = list(steps.rows)
+    shifted = list(steps.shifted)
+    shifts = np.array(steps.shifts, dtype=float)
+    run = log_prior.copy()
+    done = 0
+    for k in sorted(steps.jeffrey):
+        if k > done:
+            run = run + np.add.reduce(np.array(rows[done:k]), axis=0)
+        table, q = steps.jeffrey[k]
+        row, lam, pred, unreachable = _jeffrey_row(table, q, run)
+        row.setflags(write=False)
+        rows[k] = row
+        sh, m = shift_row(row)
+        shifted[k] = sh
+        shifts[k] = m
+        run = run + row
+        done = k + 1
+        st = (states or {}).get(steps.names[k]) or tuple(str(i) for i in range(len(q)))
+        info[steps.names[k]].update(
+            weights=dict(zip(st, lam.tolist(), strict=True)),
+            stated=dict(zip(st, np.asarray(q, dtype=float).tolist(), strict=True)),
+            predictive=dict(zip(st, pred.tolist(), strict=True)),
+            unreachable=[st[i] for i in unreachable])
+    resolved = steps._replace(rows=rows, shifted=shifted, shifts=shifts)
+    if hypotheses is not None:
+        for k in steps.jeffrey:
+            rest = [i for i in range(n) if i != k]
+            for where, order in (("first", [k, *rest]), ("last", [*rest, k])):
+                final = _final_log(log_prior, steps.rows, steps.jeffrey, order)
+                z = float(log_normalizer(final))
+                if np.isfinite(z):
+                    j = int(np.argmax(final))
+                    best, p_best = hypotheses[j], float(np.exp(final[j] - z))
+                else:
+                    best, p_best = None, None
+                info[steps.names[k]][f"map_if_{where}"] = best
+                info[steps.names[k]][f"p_map_if_{where}"] = p_best
+    return resolved, info
+
+
+def _likelihood_info(case: Case, info: dict[str, dict[str, Any]]) -> None:
+    """The weights of each likelihood-form step, as the ledger keeps them."""
+    evidence = case.evidence
+    for name, entry in info.items():
+        ev = evidence.get(name)
+        if entry["form"] == "likelihood" and ev is not None and ev.uncertain is not None:
+            entry["weights"] = dict(zip(ev.states, ev.uncertain.relative.tolist(), strict=True))
+
+
 SMALL_CELLS = 1 << 15
 """Below this many steps x hypotheses the running sum is one vectorised pass."""
 RECENTRE = 16
@@ -332,6 +533,18 @@ DRIFTED = 1e-20
 
 
 def _run(case: Case, scenario: str, p: np.ndarray, steps: Any, with_flags: bool) -> Ledger:
+    uncertain: dict[str, dict[str, Any]] = {}
+    if steps.forms:
+        evidence = case.evidence
+        steps, uncertain = resolve_steps(
+            p, steps, hypotheses=case.hypothesis_names,
+            states={n: evidence[n].states for n in steps.forms if n in evidence})
+        _likelihood_info(case, uncertain)
+    return _run_resolved(case, scenario, p, steps, with_flags, uncertain)
+
+
+def _run_resolved(case: Case, scenario: str, p: np.ndarray, steps: Any, with_flags: bool,
+                  uncertain: dict[str, dict[str, Any]]) -> Ledger:
     """One update from prior values ``p`` and the observed steps (a ``LogSteps``).
 
     Row 0 of the running sum is the shifted log prior; each step adds the
@@ -414,7 +627,8 @@ def _run(case: Case, scenario: str, p: np.ndarray, steps: Any, with_flags: bool)
                   prior_values=np.array(p, dtype=float), cum=cum, weights=weights, sums=sums,
                   lognorm=lognorm, z=z, rows=steps.rows,
                   step_names=[PRIOR_STEP, *names[: n_ok - 1]], members=steps.members,
-                  stopped_at=stop, skipped=skipped, case=case, with_flags=with_flags)
+                  stopped_at=stop, skipped=skipped, case=case, with_flags=with_flags,
+                  uncertain=uncertain, hypothesis_groups=case.hypothesis_groups)
 
 
 def update(case: Case, *, scenario: str | None = None, with_flags: bool = True) -> Ledger:
@@ -435,4 +649,16 @@ def update_all(case: Case, *, with_flags: bool = True) -> dict[str, Ledger]:
             for sc in case.scenario_names}
 
 
-__all__ = ["Ledger", "update", "update_all", "PRIOR_STEP"]
+def resolved_log_steps(case: Case, scenario: str | None = None) -> LogSteps:
+    """The case's observed steps in log space with Jeffrey rows filled in under the priors
+    of ``scenario`` (default: the active one): the likelihood rows an analysis that
+    holds the steps fixed (a sweep, the Monte Carlo) reads."""
+    sc = case.active_scenario if scenario is None else scenario
+    steps = case.observed_log_steps()
+    if not steps.jeffrey:
+        return steps
+    return resolve_steps(_prior_values(case, sc), steps)[0]
+
+
+__all__ = ["Ledger", "update", "update_all", "resolve_steps", "resolved_log_steps",
+           "PRIOR_STEP"]

@@ -96,9 +96,11 @@ class DirichletEstimate:
     def add_scenario(self, case: Case, name: str, *, note: str = "",
                      replace_existing: bool = False) -> None:
         """Add the mean as prior scenario ``name`` of ``case``, with this estimate's
-        source (e.g. ``"plant history"``). The counts must name the case's hypotheses."""
+        source (e.g. ``"plant history"``), declared as taken from data (the
+        ``scenario-stale`` flag says when the hypothesis set moves on). The counts
+        must name the case's hypotheses."""
         case.add_scenario(name, self.priors(), source=self.source, note=note,
-                          replace_existing=replace_existing)
+                          replace_existing=replace_existing, meaning="data")
 
     def to_dict(self) -> dict[str, Any]:
         return {"distribution": "dirichlet",

@@ -148,6 +148,7 @@ def example_case() -> Case:
         {h: 0.2 for h in case.hypothesis_names},
         source={"where": "equal priors (a reviewer's check, not a belief)", "who": "R. Okafor",
                 "when": "2026-11-20", "why": "shows what the evidence alone says"},
+        meaning="equal",
     )
     from .decision import set_loss_table
 

@@ -112,6 +112,11 @@ def waterfall_svg(data: pd.DataFrame, *, focus: str, subtitle: str = "",
                 f'<text x="{left + 116}" y="49">counts against it</text>'
                 f'<rect x="{left + 232}" y="42" width="14" height="3" fill="{C.LEVEL_COLOUR}"/>'
                 f'<text x="{left + 252}" y="49">prior and posterior level</text></g>')
+    if "uncertain" in data and data["uncertain"].astype(bool).any():
+        body.append(f'<g font-size="11" class="bl-legend-uncertain"><rect x="{left + 400}" y="39" '
+                    f'width="10" height="10" fill="#bbbbbb" fill-opacity="0.55" stroke="#222" '
+                    f'stroke-dasharray="3,2"/><text x="{left + 416}" y="49">dashed: '
+                    f'{C.UNCERTAIN_MARK}</text></g>')
     x_end = left + slot * n
     for v in nice_ticks(d0, d1):
         yy = y(v)
@@ -137,6 +142,8 @@ def waterfall_svg(data: pd.DataFrame, *, focus: str, subtitle: str = "",
     every = max(1, math.ceil(12 / slot))
     cols = {c: data[c].tolist() for c in ("step", "kind", "start_db", "end_db", "top_db",
                                           "decibans", "verbal", "probability", "label")}
+    cols["uncertain"] = (data["uncertain"].tolist() if "uncertain" in data
+                         else [""] * n)
     for k in range(n):
         step, kind, label = cols["step"][k], cols["kind"][k], cols["label"][k]
         verbal, db, prob = cols["verbal"][k], cols["decibans"][k], cols["probability"][k]
@@ -150,16 +157,23 @@ def waterfall_svg(data: pd.DataFrame, *, focus: str, subtitle: str = "",
                         f'y="{yl - 2:.1f}" width="{slot * 0.72:.1f}" height="4" '
                         f'fill="{colour}"><title>{_t(tip)}</title></rect>')
         else:
-            tip = (f"{step}: {C.fmt_decibans(db)}" + (f", {verbal}" if verbal else "")
+            form = cols["uncertain"][k]
+            how = (f" ({C.UNCERTAIN_MARK}, {C.UNCERTAIN_FORM_TEXT.get(form, form)})"
+                   if form else "")
+            tip = (f"{step}{how}: {C.fmt_decibans(db)}" + (f", {verbal}" if verbal else "")
                    + f"; P(focus) after = {prob:.4g}")
             y0, y1 = y(cols["start_db"][k]), y(cols["end_db"][k])
+            cls = f"bl-bar bl-{_t(kind)}" + (" bl-uncertain" if form else "")
+            # an uncertain observation: dashed outline, lighter fill (same colour meaning)
+            look = ('fill-opacity="0.55" stroke="#222" stroke-width="1" stroke-dasharray="3,2"'
+                    if form else 'stroke="#222" stroke-width="0.4"')
             if abs(y1 - y0) < 1.0:  # no weight: a thin neutral tick at the level
-                body.append(f'<rect class="bl-bar bl-{_t(kind)}" x="{cx - half:.1f}" '
+                body.append(f'<rect class="{cls}" x="{cx - half:.1f}" '
                             f'y="{y0 - 0.75:.1f}" width="{2 * half:.1f}" height="1.5" '
                             f'fill="{colour}"><title>{_t(tip)}</title></rect>')
             else:
-                body.append(f'<path class="bl-bar bl-{_t(kind)}" d="{_arrow(cx, y0, y1, half, 9.0)}" '
-                            f'fill="{colour}" stroke="#222" stroke-width="0.4">'
+                body.append(f'<path class="{cls}" d="{_arrow(cx, y0, y1, half, 9.0)}" '
+                            f'fill="{colour}" {look}>'
                             f"<title>{_t(tip)}</title></path>")
         lines = label.split("\n")
         if slot < 100:
@@ -171,8 +185,9 @@ def waterfall_svg(data: pd.DataFrame, *, focus: str, subtitle: str = "",
                         f'font-size="{size}">{_t(ln)}</text>')
         if k % every == 0 or k == n - 1:
             ly = top + plot_h + 12
+            mark = " (uncertain)" if cols["uncertain"][k] else ""
             body.append(f'<text transform="translate({cx:.1f},{ly:.1f}) rotate(-35)" '
-                        f'text-anchor="end">{_t(_short(step, 28))}</text>')
+                        f'text-anchor="end">{_t(_short(step, 28 - len(mark)) + mark)}</text>')
     return _svg(width, height, body, f"waterfall for {focus}")
 
 
@@ -349,7 +364,11 @@ def _subtitle(ledger: Ledger) -> str:
 
 
 def waterfall_figure(ledger: Ledger, focus: str | None = None) -> Figure:
-    """The waterfall of the log-odds of ``focus`` (default: the MAP) against the rest."""
+    """The waterfall of the log-odds of ``focus`` (default: the MAP) against the rest.
+
+    ``focus`` may be a hypothesis group (``case.group_hypotheses``): its members
+    together against the rest. Steps that are uncertain observations are drawn
+    with a dashed outline and marked "(uncertain)"."""
     focus = ledger.map_hypothesis if focus is None else focus
     svg = waterfall_svg(C.waterfall_data(ledger, focus), focus=focus, subtitle=_subtitle(ledger))
     return Figure(svg, f"weight of evidence for {focus!r}", "waterfall")

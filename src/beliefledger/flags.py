@@ -165,6 +165,8 @@ def _check_impossible(case: Case, ledger: Ledger) -> Iterator[Flag]:
     states = [f"'{evidence[m].observed}'" for m in ledger.members.get(step, (step,))
               if m in evidence and evidence[m].observed is not None]
     what = f"the observed state {', '.join(states)} of " if states else ""
+    if step in ledger.uncertain:
+        what = f"the uncertain observation ({ledger.uncertain[step]['form']} form) of "
     later = (f" Later steps not applied: {_names(ledger.skipped[1:])}."
              if len(ledger.skipped) > 1 else "")
     yield Flag("impossible-evidence", "error",
@@ -260,6 +262,14 @@ def _check_unsourced(case: Case, ledger: Ledger) -> Iterator[Flag]:
                    "the numbers came from (a data sheet, test records, expert judgement), "
                    "who set them, when and why.",
                    f"evidence '{bare[0]}'" if len(bare) == 1 else "evidence")
+    reports = [ev.name for ev in case.evidence.values()
+               if ev.uncertain is not None and not ev.uncertain.source.is_sourced]
+    if reports:
+        yield Flag("unsourced", "warning",
+                   f"The uncertain observation of {_names(reports)} has no source. Say who gave "
+                   "the report, when, how reliable it is and why it is weighted so: the "
+                   "weights are numbers like any other.",
+                   f"evidence '{reports[0]}'" if len(reports) == 1 else "evidence")
     unc = case.extras.get("uncertainty") or {}
     prior = unc.get("prior")
     if prior is not None and not str((prior.get("source") or {}).get("where", "")).strip():
@@ -278,7 +288,7 @@ def _check_unsourced(case: Case, ledger: Ledger) -> Iterator[Flag]:
 def _check_shared_source(case: Case, ledger: Ledger) -> Iterator[Flag]:
     groups: dict[str, list[str]] = {}
     for ev in case.evidence.values():
-        if ev.shared_source and ev.observed is not None:
+        if ev.shared_source and ev.is_observed:
             groups.setdefault(ev.shared_source, []).append(ev.name)
     if not any(len(v) > 1 for v in groups.values()):
         return
@@ -304,7 +314,7 @@ def _check_shared_source(case: Case, ledger: Ledger) -> Iterator[Flag]:
 
 
 def _check_no_evidence(case: Case, ledger: Ledger) -> Iterator[Flag]:
-    if not any(e.observed is not None for e in case.evidence.values()):
+    if not any(e.is_observed for e in case.evidence.values()):
         yield Flag("no-evidence", "info",
                    "No evidence is observed yet: the posterior equals the prior.", "evidence")
 
@@ -338,6 +348,78 @@ def _check_loss_unit(case: Case, ledger: Ledger) -> Iterator[Flag]:
                    "loss table")
 
 
+def _check_order(case: Case, ledger: Ledger) -> Iterator[Flag]:
+    """Jeffrey (probability-form) updates do not commute: say where moving one to the
+    first or the last step would change the MAP hypothesis, and where a stated
+    probability falls on a state the evidence before it rules out."""
+    mp = ledger.map_hypothesis
+    for step, info in ledger.uncertain.items():
+        if info["form"] != "probability":
+            continue
+        where = f"evidence '{step}'"
+        if info.get("unreachable"):
+            states = _names(list(info["unreachable"]))
+            yield Flag("jeffrey-unreachable", "error",
+                       f"The probability-form observation of '{step}' gives state(s) {states} a "
+                       "positive probability, but the evidence before it rules them out under "
+                       "every hypothesis still in play, so Jeffrey's rule cannot put belief on "
+                       "them: the update uses the other states only and the stated "
+                       "probabilities are not what is applied. Check the earlier evidence, or "
+                       "give the report as likelihood weights.", where)
+        if step in ledger.skipped:
+            continue
+        moved = []
+        for end in ("first", "last"):
+            other = info.get(f"map_if_{end}")
+            p = info.get(f"p_map_if_{end}")
+            if other is not None and other != mp:
+                moved.append(f"placed {end} the MAP would be '{other}' (P={p:.3g})")
+        if moved:
+            yield Flag("order-sensitive", "warning",
+                       f"Evidence '{step}' is a probability-form (Jeffrey) observation at step "
+                       f"{info['position']} of {info['of']}, and such updates do not commute: "
+                       f"the MAP here is '{mp}', but {' and '.join(moved)}. The conclusion "
+                       "depends on where it sits; say in the notes why it belongs at that "
+                       "step, or give the report as likelihood weights (virtual evidence), "
+                       "which do not depend on the order.", where)
+
+
+def _check_scenario_stale(case: Case, ledger: Ledger) -> Iterator[Flag]:
+    """A scenario whose declared meaning no longer holds (equal priors that are not equal,
+    priors from a data set for hypotheses the data did not cover)."""
+    if ledger.scenario == BASE_SCENARIO:
+        scenarios = list(case.scenarios.values())
+    else:
+        sc = case.scenarios.get(ledger.scenario)
+        scenarios = [] if sc is None else [sc]
+    names = case.hypothesis_names
+    for sc in scenarios:
+        where = f"scenario '{sc.name}'"
+        if sc.meaning == "equal":
+            vals = [sc.priors[h] for h in names]
+            if vals and max(vals) - min(vals) > SUM_TOL:
+                yield Flag("scenario-stale", "warning",
+                           f"Scenario '{sc.name}' is declared equal priors, but its priors run "
+                           f"from {min(vals):.4g} to {max(vals):.4g}. Re-add it with "
+                           "meaning='equal' (it then stays equal when hypotheses change), or "
+                           "declare what it now means.", where)
+        elif sc.meaning == "data":
+            added = [h for h in names if h not in sc.basis]
+            gone = [h for h in sc.basis if h not in names]
+            if added or gone:
+                parts = []
+                if added:
+                    parts.append(f"{_names(added)} added")
+                if gone:
+                    parts.append(f"{_names(gone)} removed or split")
+                yield Flag("scenario-stale", "warning",
+                           f"Scenario '{sc.name}' was taken from a data set ({sc.source}) for "
+                           f"the hypotheses of that time; since then {' and '.join(parts)}, so "
+                           "its priors no longer come from that data alone. Refit it from the "
+                           "data (e.g. est.add_scenario(case, name, replace_existing=True)) or "
+                           "re-add it with the meaning its numbers now have.", where)
+
+
 CHECKS = [
     _check_prior_sum,
     _check_impossible,
@@ -352,6 +434,8 @@ CHECKS = [
     _check_no_evidence,
     _check_map_vs_ml,
     _check_loss_unit,
+    _check_order,
+    _check_scenario_stale,
 ]
 
 _RANK = {s: i for i, s in enumerate(SEVERITIES)}

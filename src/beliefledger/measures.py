@@ -20,7 +20,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 import pandas as pd
 
-from ._logmath import log_normalizer, log_odds_path
+from ._logmath import log_normalizer, log_odds_of_set, log_odds_path
 from .errors import CaseError
 
 if TYPE_CHECKING:
@@ -239,7 +239,8 @@ def likelihood_ratio(case: Case, evidence: str, hypothesis: str, against: str | 
                      *, state: str | None = None) -> float:
     """P(state | hypothesis) / P(state | against) for one evidence item.
 
-    ``state`` defaults to the observed state. With ``against=None`` the
+    ``state`` defaults to the observed state (for an uncertain observation,
+    the likelihood row of its step, its weights applied). With ``against=None`` the
     denominator is the rest: the other hypotheses mixed by their probabilities
     just before this item in the ledger (for an unobserved item, by the
     current posterior).
@@ -251,9 +252,16 @@ def likelihood_ratio(case: Case, evidence: str, hypothesis: str, against: str | 
     if hypothesis not in names:
         raise CaseError(f"no hypothesis named {hypothesis!r}; the hypotheses are {names}")
     st = state if state is not None else ev.observed
-    if st is None:
+    if st is None and ev.uncertain is None:
         raise CaseError(f"evidence '{evidence}' is pending (not observed yet); pass state=... to ask about one of its states")
-    row = ev.likelihood_of(st)
+    if st is None:  # an uncertain observation: its step's weighted likelihood row
+        ledger0 = case.update()
+        if evidence not in ledger0.evidence_steps:
+            raise CaseError(f"evidence '{evidence}' was not applied (the update stopped before "
+                            "it); pass state=... to ask about one of its states")
+        row = np.exp(ledger0.log_likelihoods.loc[evidence])
+    else:
+        row = ev.likelihood_of(st)
     num = float(row[hypothesis])
     if against is not None:
         if against not in names:
@@ -301,6 +309,9 @@ def bayes_factor(ledger: Ledger, hypothesis: str, against: str | None = None) ->
 def step_weights(ledger: Ledger, focus: str | None = None, scale: str = "enfsi") -> pd.DataFrame:
     """Per-step weight of evidence for ``focus`` (default: the MAP) against the rest.
 
+    ``focus`` may also be a hypothesis group (``case.group_hypotheses``): the
+    weights are then those for the group's members together against the rest.
+
     Columns: ``log_odds_before``, ``log_odds_after`` (natural log),
     ``bayes_factor``, ``decibans``, ``bits``, ``nats``, ``verbal`` (on
     ``scale``) and ``direction`` ("for", "against" or "neutral"). The rest is
@@ -308,10 +319,8 @@ def step_weights(ledger: Ledger, focus: str | None = None, scale: str = "enfsi")
     rows add up to the total change from prior to posterior log-odds.
     """
     focus = ledger.map_hypothesis if focus is None else focus
-    if focus not in ledger.hypotheses:
-        raise CaseError(f"no hypothesis named {focus!r}; the hypotheses are {ledger.hypotheses}")
-    j = ledger.hypotheses.index(focus)
-    lo = log_odds_path(ledger.log_steps, j)
+    cols = ledger.focus_columns(focus)
+    lo = log_odds_of_set(ledger.log_steps, cols)
     with np.errstate(invalid="ignore"):
         d = np.diff(lo)
     rows = []

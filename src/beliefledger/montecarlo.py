@@ -199,8 +199,24 @@ class _Plan:
         # cells: (a, b, column indices) of the Beta marginal of the observed entry
         cells: list[tuple[float, float, list[int]]] = []
         evidence = case.evidence
-        for name, _members, lik in case.observed_steps():
+        for name, _members, lik in case.observed_steps(scenario):
             ev = evidence[name]
+            if ev.uncertain is not None:
+                if any(e == name for e, _ in by_key):
+                    raise CaseError(
+                        f"evidence '{name}' is an uncertain observation "
+                        f"({ev.uncertain.form} form), and the Monte Carlo draws the observed "
+                        "entry of items seen for certain: the uncertainty on its likelihoods "
+                        "cannot be drawn yet; clear it (bl.clear_uncertainty(case, evidence="
+                        f"{name!r})) or observe a state")
+                const += log_of(lik)
+                self.notes.append(
+                    f"the uncertain observation of '{name}' is held at its likelihood weights "
+                    "in every draw" + (" (the weights equivalent to Jeffrey's rule under the "
+                                       f"priors of scenario '{scenario}'; under drawn priors "
+                                       "the rule would give slightly different weights)"
+                                       if ev.uncertain.form == "probability" else ""))
+                continue
             obs = ev.states.index(ev.observed)
             groups: dict[str, tuple[float, float, list[int]]] = {}
             for j, h in enumerate(self.hypotheses):

@@ -65,9 +65,27 @@ def _priors(case: Case, scenario: str) -> np.ndarray:
     return p / total
 
 
-def _loglik(case: Case) -> tuple[list[str], np.ndarray]:
-    """Observed step names and ln P(observed | H) per step (steps x hypotheses)."""
-    return case.observed_log_likelihoods()
+def _loglik(case: Case, scenario: str | None = None) -> tuple[list[str], np.ndarray]:
+    """Observed step names and ln P(observed | H) per step (steps x hypotheses); a Jeffrey
+    step's row is the one under ``scenario``'s priors."""
+    return case.observed_log_likelihoods(scenario)
+
+
+def _refuse_jeffrey(case: Case, what: str) -> None:
+    """Analyses that hold every step's likelihood fixed while the priors move do not
+    apply to a Jeffrey update, whose likelihood weights follow the priors."""
+    jeff = [e.name for e in case.evidence.values()
+            if e.uncertain is not None and e.uncertain.form == "probability"]
+    if jeff:
+        raise CaseError(f"{what} holds each item's likelihood fixed while the priors move, but "
+                        f"the probability-form (Jeffrey) observation of {jeff} re-derives its "
+                        "likelihood weights from the belief before it, so the closed form does "
+                        "not apply; compare prior scenarios with bl.robustness (each is run in "
+                        "full), or give the report as likelihood weights")
+
+
+def _uncertain_steps(case: Case) -> set[str]:
+    return {e.name for e in case.evidence.values() if e.uncertain is not None}
 
 
 def _check_defined(log_prior: np.ndarray, total: np.ndarray, what: str) -> None:
@@ -246,11 +264,20 @@ def sweep_prior(case: Case, hypothesis: str, values: Any = None, *,
     p = _priors(case, sc)
     names = case.hypothesis_names
     j = names.index(h)
-    _, ll = _loglik(case)
+    _, ll = _loglik(case, sc)
     total = ll.sum(axis=0)
     pri = _rescaled_priors(p, j, x, h)
     _check_defined(log_of(p), total, f"prior sweep of '{h}'")
-    post = posterior_from_logs(log_of(pri), total[None, :])
+    steps = case.observed_log_steps()
+    if steps.jeffrey:  # each point re-derives the Jeffrey weights from its own priors
+        from .engine import resolve_steps
+
+        totals = np.array([np.add.reduce(np.array(resolve_steps(row, steps)[0].rows), axis=0)
+                           if steps.rows else np.zeros(len(names)) for row in pri])
+        with np.errstate(invalid="ignore"):
+            post = posterior_from_logs(log_of(pri), totals)
+    else:
+        post = posterior_from_logs(log_of(pri), total[None, :])
     frame = pd.DataFrame(post, index=pd.Index(x, name=f"prior of '{h}'"),
                          columns=pd.Index(names, name="hypothesis"))
     frame.attrs.update(kind="prior", hypothesis=h, scenario=sc, base=float(p[j]))
@@ -274,6 +301,11 @@ def sweep_likelihood(case: Case, evidence: str, hypothesis: str, values: Any = N
     """
     ev = case.evidence_item(evidence)
     h = case.hypothesis(hypothesis).name
+    _refuse_jeffrey(case, "a likelihood sweep")
+    if ev.uncertain is not None:
+        raise CaseError(f"evidence '{ev.name}' is an uncertain observation: no single entry "
+                        "P(observed | H) moves its step, so sweep another item, or observe a "
+                        "state of it on a copy of the case")
     if ev.observed is None:
         raise CaseError(f"evidence '{ev.name}' is pending (not observed yet), so its likelihoods do not affect "
                         "the posterior; observe it first (case.observe) or sweep another item")
@@ -396,6 +428,7 @@ def break_even_prior(case: Case, hypothesis: str, against: str | None = None, *,
     """
     h = case.hypothesis(hypothesis).name
     sc = _scenario(case, scenario)
+    _refuse_jeffrey(case, "the break-even prior")
     names = case.hypothesis_names
     j = names.index(h)
     p = _priors(case, sc)
@@ -463,8 +496,10 @@ def tornado(case: Case, focus: str | None = None, *, ranges: Mapping[Any, Any] |
             scenario: str | None = None, level: float = 0.9) -> pd.DataFrame:
     """Each input moved over its range, ranked by the swing in the focus posterior.
 
-    Inputs are every prior and every observed likelihood P(observed | H).
-    Each moves alone over, in order of preference:
+    Inputs are every prior and every observed likelihood P(observed | H)
+    (an uncertain observation in the likelihood form has no single entry and
+    is held at its weights; a probability-form one is refused, as its weights
+    follow the priors). Each moves alone over, in order of preference:
 
     1. the range given in ``ranges`` (keys ``("prior", hypothesis)`` or
        ``(evidence, hypothesis)``, values ``(low, high)``);
@@ -492,6 +527,7 @@ def tornado(case: Case, focus: str | None = None, *, ranges: Mapping[Any, Any] |
 
     sc = _scenario(case, scenario)
     lv = check_level(level)
+    _refuse_jeffrey(case, "the tornado table")
     names = case.hypothesis_names
     ledger = update(case, scenario=sc, with_flags=False)
     f = ledger.map_hypothesis if focus is None else case.hypothesis(focus).name
@@ -507,6 +543,9 @@ def tornado(case: Case, focus: str | None = None, *, ranges: Mapping[Any, Any] |
         else:
             ev = case.evidence_item(key[0])
             case.hypothesis(key[1])
+            if ev.uncertain is not None:
+                raise CaseError(f"ranges names evidence '{ev.name}', an uncertain observation: "
+                                "no single entry P(observed | H) moves its step")
             if ev.observed is None:
                 raise CaseError(f"ranges names evidence '{ev.name}', which is pending and "
                                 "so does not move the posterior")
@@ -541,7 +580,10 @@ def tornado(case: Case, focus: str | None = None, *, ranges: Mapping[Any, Any] |
                      "range_from": origin})
     # observed likelihoods
     evidence = case.evidence
+    held = _uncertain_steps(case)
     for name in steps:
+        if name in held:  # an uncertain observation has no single entry to move
+            continue
         ev = evidence[name]
         obs = ev.states.index(ev.observed)
         for j, h in enumerate(names):

@@ -16,6 +16,11 @@ Losses come from a loss (or payoff) table (:mod:`beliefledger.decision`).
 Values of information are the same in both conventions (a fall in expected
 loss is a rise in expected payoff).
 
+An item is valued as if observed last. When a Jeffrey (probability-form)
+observation sits after it in the case's order, observing the item for real
+re-derives that update's weights, so the posterior then differs slightly
+from the one predicted here.
+
 The numbers support a decision; they do not make it. Where the case touches
 health or safety, local codes, regulations and licensed practice prevail
 over any expected-loss ranking.
@@ -37,9 +42,10 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 import pandas as pd
 
-from ._checks import check_number
+from ._checks import check_number, check_probability
 from .calls import ANALYSIS_MIMETYPE, Call
 from .case.extras import LOSS_TABLE
+from .case.uncertain import report_matrix
 from .decision import posterior_array, resolve_losses
 from .errors import CaseError, CaseTypeError
 
@@ -102,22 +108,59 @@ def _pending(case: Case, evidence: Any) -> list[str]:
     out = []
     for n in names:
         ev = case.evidence_item(n)
-        if ev.observed is not None:
-            raise CaseError(f"evidence '{ev.name}' is already observed ({ev.observed!r}); value "
+        if ev.is_observed:
+            seen = (repr(ev.observed) if ev.observed is not None else
+                    f"an uncertain observation, {ev.uncertain.form} form")
+            raise CaseError(f"evidence '{ev.name}' is already observed ({seen}); value "
                             "of information is for pending items (to ask what it would "
                             f"have been worth, copy the case and call observe('{ev.name}', None))")
         out.append(ev.name)
     return out
 
 
-def _stack(case: Case, names: list[str]) -> np.ndarray:
-    """P(state | H, other observed evidence) for each item, padded with zero rows:
-    shape (items, most states, hypotheses)."""
+def _reliabilities(case: Case, names: list[str], reliability: Any) -> dict[str, float]:
+    """Item -> the reliability of the report that would observe it (items left out: seen
+    for certain)."""
+    if reliability is None:
+        return {}
+    if isinstance(reliability, pd.Series):
+        reliability = reliability.to_dict()
+    given = reliability if isinstance(reliability, Mapping) else {n: reliability for n in names}
+    unknown = [k for k in given if k not in names]
+    if unknown:
+        raise CaseError(f"reliability names {unknown}, which are not among the pending items "
+                        f"scored {names}")
+    out = {}
+    for n, r in given.items():
+        x = check_probability(f"reliability of the report on '{n}'", r)
+        if x <= 0:
+            raise CaseError(f"reliability of the report on '{n}' is 0; give the chance the "
+                            "report is right, above 0")
+        if len(case.evidence[n].states) < 2:
+            raise CaseError(f"evidence '{n}' has one state; a report on it carries nothing")
+        out[n] = x
+    return out
+
+
+def _report_table(lik: np.ndarray, r: float | None) -> np.ndarray:
+    """P(report | H) of a report right with probability r on an item with table ``lik``
+    (the reported states in the item's order); the table itself when r is None."""
+    if r is None:
+        return lik
+    return report_matrix(lik.shape[0], r) @ lik
+
+
+def _stack(case: Case, names: list[str], reliability: Mapping[str, float] | None = None
+           ) -> np.ndarray:
+    """P(state | H, other observed evidence) for each item (of the report on it, for items
+    with a reliability), padded with zero rows: shape (items, most states, hypotheses)."""
     evs = case.evidence
     if not case.has_dependence:
         tabs = [evs[n].table for n in names]  # no stated dependence: each item's own table
     else:
         tabs = [case.predictive_table(n) for n in names]
+    rel = reliability or {}
+    tabs = [_report_table(t, rel.get(n)) for n, t in zip(names, tabs, strict=True)]
     n_h = len(case.hypothesis_names)
     s_max = max((t.shape[0] for t in tabs), default=1)
     out = np.zeros((len(tabs), s_max, n_h))
@@ -157,25 +200,37 @@ def _voi(lik: np.ndarray, p: np.ndarray, losses: np.ndarray | None) -> dict[str,
     return out
 
 
-def predictive(case: Case, evidence: str, *, scenario: str | None = None) -> pd.Series:
-    """P(state | evidence so far) for an item: sum over H of P(state | H, e)·P(H | e)."""
+def predictive(case: Case, evidence: str, *, scenario: str | None = None,
+               reliability: float | None = None) -> pd.Series:
+    """P(state | evidence so far) for an item: sum over H of P(state | H, e)·P(H | e).
+
+    With ``reliability`` r: the chance of each *report* of a witness or
+    instrument right with probability r (errors spread evenly over the other
+    states), indexed by the state reported."""
     names = _pending(case, evidence)
     ev = case.evidence[names[0]]
-    lik = case.predictive_table(ev.name)
+    rel = _reliabilities(case, names, reliability)
+    lik = _report_table(case.predictive_table(ev.name), rel.get(ev.name))
     return pd.Series(lik @ posterior_array(case, scenario), index=pd.Index(ev.states, name="state"),
                      name="probability")
 
 
-def preposterior(case: Case, evidence: str, *, scenario: str | None = None) -> pd.DataFrame:
+def preposterior(case: Case, evidence: str, *, scenario: str | None = None,
+                 reliability: float | None = None) -> pd.DataFrame:
     """What observing an item could do: one row per state with its predictive
     ``probability``, the posterior it would lead to (one column per hypothesis)
     and the ``map`` hypothesis then. A final row ``expected`` holds the
     probability-weighted posterior, which equals the current posterior (the
-    law of total probability: belief is not expected to move)."""
+    law of total probability: belief is not expected to move).
+
+    With ``reliability`` r the rows are the possible *reports* of a witness or
+    instrument right with probability r, each leading to the posterior its
+    likelihood form gives (``case.observe_report``)."""
     names = _pending(case, evidence)
     ev = case.evidence[names[0]]
     p = posterior_array(case, scenario)
-    lik = case.predictive_table(ev.name)
+    rel = _reliabilities(case, names, reliability)
+    lik = _report_table(case.predictive_table(ev.name), rel.get(ev.name))
     joint = lik * p
     pred = joint.sum(axis=1)
     with np.errstate(invalid="ignore", divide="ignore"):
@@ -189,13 +244,15 @@ def preposterior(case: Case, evidence: str, *, scenario: str | None = None) -> p
 
 
 def evsi(case: Case, evidence: str, loss: Any = None, *, kind: str = "loss",
-         scenario: str | None = None) -> float:
+         scenario: str | None = None, reliability: float | None = None) -> float:
     """Expected value of sample information of observing one item before acting.
 
     EVSI = min_a E[loss(a, H) | e] - sum_x P(x | e)·min_a E[loss(a, H) | e, x]:
     the fall in expected loss from choosing the action after seeing the item.
     It is never negative and never above :func:`evpi`; it is 0 when no
-    outcome of the item would change the best action.
+    outcome of the item would change the best action. With ``reliability`` r
+    it is the value of a report on the item right with probability r (never
+    more than seeing the state for certain).
 
     References
     ----------
@@ -203,13 +260,14 @@ def evsi(case: Case, evidence: str, loss: Any = None, *, kind: str = "loss",
     """
     names = _pending(case, evidence)
     losses, _, _ = resolve_losses(case, loss, kind)
-    res = _voi(_stack(case, names), posterior_array(case, scenario), losses)
+    rel = _reliabilities(case, names, reliability)
+    res = _voi(_stack(case, names, rel), posterior_array(case, scenario), losses)
     return float(res["evsi"][0])
 
 
 def rank_next_evidence(case: Case, loss: Any = None, *, kind: str = "loss",
                        by: str | None = None, cost: Any = None, scenario: str | None = None,
-                       evidence: Any = None) -> pd.DataFrame:
+                       evidence: Any = None, reliability: Any = None) -> pd.DataFrame:
     """Rank the pending evidence (not observed yet) by what observing it is expected to give.
 
     Parameters
@@ -232,11 +290,18 @@ def rank_next_evidence(case: Case, loss: Any = None, *, kind: str = "loss",
         Prior scenario (default: the active one).
     evidence : str or list, optional
         Rank only these items (default: every pending item).
+    reliability : float or mapping, optional
+        Score an uncertain observation instead of a certain one: the item
+        would be observed through a report right with probability r (one
+        number for every item, or item -> r). The value of such a report is
+        that of its likelihood form (``case.observe_report``); it is never more
+        than seeing the state for certain.
 
     Returns
     -------
     DataFrame
         Indexed by evidence name, best first: ``rank``, ``states``,
+        ``reliability`` (with ``reliability=``; 1 for an item seen for certain),
         ``expected_entropy_reduction`` (bits), ``p_map_changes``,
         ``most_likely_state``, ``p_most_likely`` and, with a loss table,
         ``evsi``, ``cost``, ``net_value``; then ``reason`` (one line).
@@ -279,8 +344,9 @@ def rank_next_evidence(case: Case, loss: Any = None, *, kind: str = "loss",
     if by in ("evsi", "net_value") and not use_loss:
         raise CaseError(f"ranking by '{by}' needs a loss table: pass loss=... or store one "
                         "with set_loss_table")
-    cols = ["rank", "states", "expected_entropy_reduction", "p_map_changes",
-            "most_likely_state", "p_most_likely"]
+    cols = ["rank", "states", *(["reliability"] if reliability is not None else []),
+            "expected_entropy_reduction", "p_map_changes", "most_likely_state",
+            "p_most_likely"]
     if use_loss:
         cols += ["evsi", "cost", "net_value"]
     cols.append("reason")
@@ -298,7 +364,8 @@ def rank_next_evidence(case: Case, loss: Any = None, *, kind: str = "loss",
         out.call = call
         return out
     p = posterior_array(case, scenario)
-    res = _voi(_stack(case, names), p, losses)
+    rel = _reliabilities(case, names, reliability)
+    res = _voi(_stack(case, names, rel), p, losses)
     hyps = case.hypothesis_names
     cur = hyps[int(np.argmax(p))]
     h_now = float(-np.sum(np.where(p > 0, p * np.log2(np.where(p > 0, p, 1.0)), 0.0)))
@@ -311,6 +378,7 @@ def rank_next_evidence(case: Case, loss: Any = None, *, kind: str = "loss",
     k_best = res["pred"].argmax(axis=1)
     columns: dict[str, Any] = {
         "states": n_states,
+        "reliability": np.array([rel.get(n, 1.0) for n in names]),
         "expected_entropy_reduction": res["info"],
         "p_map_changes": res["p_map"],
         "most_likely_state": [evs[n].states[k] for n, k in zip(names, k_best, strict=True)],

@@ -70,6 +70,9 @@ LAYOUT_VERSION = 1
 CASE, HYPOTHESES, SCENARIOS, EVIDENCE = "case", "hypotheses", "scenarios", "evidence"
 LONG, ENTRY_SOURCES, ARTEFACTS = "likelihoods", "entry sources", "artefacts"
 ASSUMPTIONS, MORE, REGISTER = "assumptions", "more (JSON)", "register"
+SCENARIO_MORE = ("meaning", "basis")
+EVIDENCE_MORE = ("uncertain",)
+MORE_KEYS = {"joint_groups", "extras", "scenario_fields", "evidence_fields"}
 RESERVED = (CASE, HYPOTHESES, SCENARIOS, EVIDENCE, LONG, ENTRY_SOURCES, ARTEFACTS, ASSUMPTIONS,
             MORE, REGISTER)
 _RESERVED_KEYS = frozenset(n.casefold() for n in RESERVED)
@@ -291,7 +294,18 @@ class _Reader:
         self.artefacts(evidence)
         d["evidence"] = list(evidence.values())
         d["assumptions"] = self.assumptions()
-        d.update(self.more())
+        more = self.more()
+        for key, target in (("scenario_fields", d["scenarios"]), ("evidence_fields",
+                                                                   d["evidence"])):
+            fields = more.pop(key, {})
+            by_name = {x["name"]: x for x in target}
+            for name, extra in (fields.items() if isinstance(fields, dict) else []):
+                if name not in by_name or not isinstance(extra, dict):
+                    raise self.sheet(MORE).fail("A2", f"the JSON's {key} name {name!r:.60}, "
+                                                "which no sheet defines; restore the sheet "
+                                                "from the workbook beliefledger wrote")
+                by_name[name].update(extra)
+        d.update(more)
         return d
 
     def case_fields(self) -> dict[str, Any]:
@@ -768,9 +782,9 @@ class _Reader:
             raise sh.fail("A2", f"the JSON text in column A is damaged ({exc.msg} at character "
                           f"{exc.pos}); restore the sheet from the workbook beliefledger wrote"
                           ) from None
-        if not isinstance(data, dict) or set(data) - {"joint_groups", "extras"}:
-            raise sh.fail("A2", "the JSON must be an object with 'joint_groups' and/or "
-                          "'extras'; restore the sheet from the workbook beliefledger wrote")
+        if not isinstance(data, dict) or set(data) - MORE_KEYS:
+            raise sh.fail("A2", f"the JSON must be an object with some of {sorted(MORE_KEYS)}; "
+                          "restore the sheet from the workbook beliefledger wrote")
         return data
 
 
@@ -969,6 +983,16 @@ def build_workbook(case: Any, *, layout: str = "sheets") -> bytes:
               [[i, a["kind"], a["target"], a["detail"]]
                for i, a in enumerate(d["assumptions"], start=1)])
     more = {k: d[k] for k in ("joint_groups", "extras") if d.get(k)}
+    # fields of scenarios and items the tables do not lay out (a scenario's declared
+    # meaning, an uncertain observation), so the round trip stays lossless
+    sc_fields = {sc["name"]: {k: sc[k] for k in SCENARIO_MORE if k in sc}
+                 for sc in d["scenarios"] if any(k in sc for k in SCENARIO_MORE)}
+    ev_fields = {e["name"]: {k: e[k] for k in EVIDENCE_MORE if k in e}
+                 for e in d["evidence"] if any(k in e for k in EVIDENCE_MORE)}
+    if sc_fields:
+        more["scenario_fields"] = sc_fields
+    if ev_fields:
+        more["evidence_fields"] = ev_fields
     if more:
         ws = wb.create_sheet(MORE)
         _cell(ws, 1, 1, "JSON of the parts of the case this workbook does not lay out as "

@@ -164,6 +164,16 @@ def case_dicts(draw, max_hypotheses: int = 6, max_evidence: int = 5,
             observed = draw(st.one_of(st.none(), st.sampled_from(states)))
         e: dict[str, Any] = {"name": ename, "states": states, "likelihoods": lik,
                              "observed": observed}
+        if not only and observed is None and draw(st.integers(0, 2)) == 0:
+            form = draw(st.sampled_from(["likelihood", "probability"]))
+            w = draw(distributions(len(states)))
+            if form == "likelihood":
+                w = [x * draw(st.sampled_from([1.0, 3.0, 0.25])) for x in w]
+                if max(w) <= 0:
+                    w[0] = 1.0
+            e["uncertain"] = {"form": form, "weights": dict(zip(states, w, strict=True))}
+            if draw(st.booleans()):
+                e["uncertain"]["source"] = draw(sources())
         if only or draw(st.booleans()):
             e["likelihood_evidence"] = only
         if draw(st.booleans()):
@@ -190,6 +200,10 @@ def case_dicts(draw, max_hypotheses: int = 6, max_evidence: int = 5,
             sc["source"] = draw(sources())
         if draw(st.booleans()):
             sc["note"] = draw(texts)
+        if draw(st.integers(0, 3)) == 0:
+            sc["meaning"] = draw(st.sampled_from(["equal", "data"]))
+            if sc["meaning"] == "data" and draw(st.booleans()):
+                sc["basis"] = list(hyp)
         scen.append(sc)
     if scen or draw(st.booleans()):
         d["scenarios"] = scen

@@ -113,7 +113,8 @@ METHODS = ("set_details", "set_extra", "set_prior", "set_priors", "normalize_pri
            "set_hypothesis", "add_hypothesis", "remove_hypothesis", "rename_hypothesis",
            "add_evidence", "remove_evidence", "rename_evidence", "set_evidence", "observe",
            "set_likelihood", "set_likelihoods", "add_scenario", "remove_scenario",
-           "use_scenario", "add_joint_group", "add_conditional_evidence")
+           "use_scenario", "add_joint_group", "add_conditional_evidence",
+           "observe_uncertain", "observe_report", "split_hypothesis", "group_hypotheses")
 
 
 def draw_edit(data, case: Case) -> tuple[str, Callable[[], Any], set[str]]:
@@ -181,11 +182,38 @@ def draw_edit(data, case: Case) -> tuple[str, Callable[[], Any], set[str]]:
             scen = {s: d(probs) for s in case.scenarios}
         if d(st.integers(0, 8)) == 0:
             scen = d(st.sampled_from([["x"], 5, {"no such scenario": 0.1}]))
-        return (f"add_hypothesis({h!r:.40}, {p!r:.30}, likelihoods={lik!r:.80}, "
-                f"scenario_priors={scen!r:.40})",
-                lambda: case.add_hypothesis(h, p, likelihoods=lik, source=src,
-                                            scenario_priors=scen),
-                words | {"prior", "likelihood", "scenario"} | set(evs) | set(case.scenarios))
+        mode = d(st.sampled_from(["carve", "carve", "share", "rescale", "neither", "both"]))
+        how: dict[str, Any] = {}
+        if mode in ("carve", "share", "both"):
+            how["take_prior_from"] = d(one_of_names(hyps))
+        if mode == "share":
+            how["share"] = d(probs)
+        if mode in ("rescale", "both"):
+            how["rescale"] = d(st.sampled_from([True, True, "yes"]))
+        prior = None if mode == "share" else p
+        return (f"add_hypothesis({h!r:.40}, {prior!r:.30}, likelihoods={lik!r:.80}, "
+                f"scenario_priors={scen!r:.40}, {how!r:.60})",
+                lambda: case.add_hypothesis(h, prior, likelihoods=lik, source=src,
+                                            scenario_priors=scen, **how),
+                words | {"prior", "likelihood", "scenario", "share", "rescale", "carve",
+                         "take_prior_from"} | set(evs) | set(case.scenarios)
+                | _words(how.get("take_prior_from")))
+    if method == "split_hypothesis":
+        key = h if isinstance(h, str) else str(h)
+        into: Any = {key: d(st.floats(0, 1))}
+        into[d(names)] = 1 - into[key]
+        if d(st.integers(0, 4)) == 0:
+            into = d(st.sampled_from([{}, None, [0.5], {"x": 0.3, "y": 0.3}, {"x": math.nan}]))
+        return (f"split_hypothesis({h!r:.40}, {into!r:.60})",
+                lambda: case.split_hypothesis(h, into, source=src),
+                words | {"split", "share", "prior", "name", "taken"} | _words(
+                    *(into if isinstance(into, dict) else [])))
+    if method == "group_hypotheses":
+        name = d(one_of_names(hyps))
+        members = d(st.sampled_from([[h], hyps[:2], [h, h], h, None, ["no such"]]))
+        return (f"group_hypotheses({name!r:.40}, {members!r:.60})",
+                lambda: case.group_hypotheses(name, members),
+                words | _words(name) | {"group", "members", "hypothesis"})
     if method == "remove_hypothesis":
         return f"remove_hypothesis({h!r:.40})", lambda: case.remove_hypothesis(h), words | {
             "prior", "only"} | set(case.scenarios)
@@ -253,6 +281,35 @@ def draw_edit(data, case: Case) -> tuple[str, Callable[[], Any], set[str]]:
                             st.sampled_from(BAD_NAMES)))
         return (f"observe({e!r:.40}, {state!r:.40})", lambda: case.observe(e, state),
                 words | _words(state) | {"observed", "state"})
+    if method == "observe_uncertain":
+        form = d(st.sampled_from(["likelihood", "probability"]))
+        vals = d(distributions(len(ev_states))) if ev_states else []
+        w: Any = dict(zip(ev_states, vals, strict=True))
+        kind = d(st.sampled_from(["ok", "ok", "scaled", "zero", "bad", "missing", "extra",
+                                  "type"]))
+        if kind == "scaled":
+            w = {k: v * d(st.floats(0.1, 10)) for k, v in w.items()}
+        elif kind == "zero":
+            w = {k: 0.0 for k in w}
+        elif kind == "bad" and w:
+            w[d(st.sampled_from(list(w)))] = d(st.sampled_from(BAD_NUMBERS))
+        elif kind == "missing" and w:
+            w.pop(d(st.sampled_from(list(w))))
+        elif kind == "extra":
+            w[d(names)] = 0.1
+        elif kind == "type":
+            w = d(st.sampled_from([None, [0.5, 0.5], 0.5, "weights"]))
+        return (f"observe({e!r:.40}, {form}={w!r:.80})",
+                lambda: case.observe(e, **{form: w}, source=src),
+                words | _words(*ev_states) | {"weight", "probabilit", "state", "likelihood",
+                                              "observation", "depend", "sum"})
+    if method == "observe_report":
+        rep = d(st.one_of(st.sampled_from(ev_states), names, st.sampled_from(BAD_NAMES)))
+        rel = d(probs)
+        return (f"observe_report({e!r:.40}, {rep!r:.40}, {rel!r:.30})",
+                lambda: case.observe_report(e, rep, rel, source=src),
+                words | _words(rep, *ev_states) | {"report", "reliability", "state",
+                                                   "likelihood", "depend"})
     if method == "set_likelihood":
         use_state = d(st.booleans())
         if use_state:

@@ -183,14 +183,14 @@ def test_huge_strings_refused_with_the_limit():
     _refused(_set(["case", "notes"], "x" * 50_000), "notes", "limit")
 
 
-@pytest.mark.parametrize("version", [0, 3, "2", 2.0, True, None, [1]])
+@pytest.mark.parametrize("version", [0, 4, "3", 3.0, True, None, [1]])
 def test_wrong_schema_versions(version):
     _refused(_set(["schema_version"], version), "schema_version")
 
 
 def test_integer_with_too_many_digits_is_a_json_error_not_a_crash():
-    text = casefile.dumps(bl.example_case()).replace('"schema_version": 2',
-                                                     '"schema_version": ' + "1" * 5000)
+    text = casefile.dumps(bl.example_case()).replace(
+        f'"schema_version": {casefile.SCHEMA_VERSION}', '"schema_version": ' + "1" * 5000)
     _refused(text, "JSON")
 
 

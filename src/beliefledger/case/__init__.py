@@ -7,6 +7,7 @@ the modules beside this one hold the parts (see each module's docstring).
 from __future__ import annotations
 
 from .._checks import SUM_TOL
+from . import experts, rollups  # noqa: F401  (they register their extras sections)
 from .members import (
     BASE_SCENARIO,
     CASE_MIMETYPE,
@@ -17,9 +18,12 @@ from .members import (
     JointGroup,
     Scenario,
     Source,
+    UncertainObservation,
 )
 from .model import Case
 from .serial import SCHEMA_VERSION
+from .uncertain import report_weights
 
-__all__ = ["Case", "Artefact", "Hypothesis", "Evidence", "JointGroup", "Source", "Scenario", "UNSOURCED",
-           "SUM_TOL", "BASE_SCENARIO", "CASE_MIMETYPE", "SCHEMA_VERSION"]
+__all__ = ["Case", "Artefact", "Hypothesis", "Evidence", "JointGroup", "Source", "Scenario",
+           "UNSOURCED", "SUM_TOL", "BASE_SCENARIO", "CASE_MIMETYPE", "SCHEMA_VERSION",
+           "UncertainObservation", "report_weights"]

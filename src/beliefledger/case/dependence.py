@@ -13,6 +13,14 @@ row of its table for the parent's observed state or, when the parent is
 pending, the parent's state summed out given what is known of its chain
 (each item has at most one parent, so a chain is a tree and the sums are
 exact).
+
+An item with an uncertain observation (see :mod:`.uncertain`) is a step of
+its own: in the likelihood form its vector is the weighted sum of its
+table's rows; in the probability form (Jeffrey's rule) the vector depends on
+the belief just before it, so the step carries the table and the stated
+probabilities and the engine fills its row in (``LogSteps.jeffrey``).
+Uncertain observations are not combined with joint groups or conditional
+chains (refused, with the fix, by :func:`validate_dependence`).
 """
 
 from __future__ import annotations
@@ -25,7 +33,8 @@ import numpy as np
 from .._checks import SUM_TOL, short_list
 from .._logmath import log_of
 from ..errors import CaseError
-from .members import Evidence, JointGroup
+from .members import PROBABILITY_FORM, Evidence, JointGroup
+from .uncertain import likelihood_vector
 
 GROUP_MARGIN_TOL = 1e-6
 """How far a joint table's margins may sit from the members' own tables."""
@@ -135,16 +144,23 @@ def group_vector(evidence: Mapping[str, Evidence], grp: JointGroup,
 
 def observed_steps(evidence: Mapping[str, Evidence], groups: Mapping[str, JointGroup],
                    n_h: int) -> list[Step]:
-    """The update steps in order: ``(step name, member items, P(observed | H) vector)``."""
+    """The update steps in order: ``(step name, member items, P(observed | H) vector)``.
+
+    A probability-form (Jeffrey) step has a vector of ones here: its vector
+    depends on the priors, and the engine fills it in (see :class:`LogSteps`).
+    """
     if not has_dependence(evidence, groups):
-        return [(e.name, (e.name,), e.table[e.observed_index])
-                for e in evidence.values() if e.observed is not None]
+        return [(e.name, (e.name,), _own_vector(e, n_h))
+                for e in evidence.values() if e.is_observed]
     gof = group_of(groups)
     roots = chain_roots(evidence)
     steps: list[Step] = []
     done: set[str] = set()
     known: dict[str, dict[str, int]] = {}  # chain root -> {applied item: state index}
     for e in evidence.values():
+        if e.uncertain is not None:  # never grouped or chained (validate_dependence)
+            steps.append((e.name, (e.name,), _own_vector(e, n_h)))
+            continue
         if e.observed is None:
             continue
         g = gof.get(e.name)
@@ -173,6 +189,17 @@ def observed_steps(evidence: Mapping[str, Evidence], groups: Mapping[str, JointG
     return steps
 
 
+def _own_vector(e: Evidence, n_h: int) -> np.ndarray:
+    """An independent item's step vector: its observed row, or the weighted rows of an
+    uncertain observation (ones for the probability form, filled in by the engine)."""
+    unc = e.uncertain
+    if unc is None:
+        return e.table[e.observed_index]
+    if unc.form == PROBABILITY_FORM:
+        return np.ones(n_h)
+    return likelihood_vector(e.table, unc.weights)
+
+
 class LogSteps(NamedTuple):
     """The observed steps in log space, as the engine reads them.
 
@@ -180,6 +207,10 @@ class LogSteps(NamedTuple):
     the item's kept log table); ``shifted[k]`` is the same row minus its
     largest finite entry ``shifts[k]`` (so its maximum is 0), which lets the
     engine exponentiate a running sum without subtracting a maximum per row.
+    ``forms`` names the steps that are uncertain observations (step -> form);
+    ``jeffrey`` maps the position of each probability-form step to its item's
+    table and stated probabilities: its row here is a placeholder of zeros
+    that the engine replaces, under each scenario's priors, before use.
     """
 
     names: list[str]
@@ -187,6 +218,8 @@ class LogSteps(NamedTuple):
     rows: list[np.ndarray]
     shifted: list[np.ndarray]
     shifts: np.ndarray
+    forms: dict[str, str] = {}
+    jeffrey: dict[int, tuple[np.ndarray, np.ndarray]] = {}
 
     def stacked(self, n: int | None = None) -> np.ndarray:
         """The first ``n`` rows (default all) as one steps x hypotheses array."""
@@ -212,19 +245,35 @@ def observed_log_steps(evidence: Mapping[str, Evidence], groups: Mapping[str, Jo
     update takes no logarithm of an unchanged table); grouped and chained
     steps take the log of their vector.
     """
+    forms: dict[str, str] = {}
+    jeffrey: dict[int, tuple[np.ndarray, np.ndarray]] = {}
     if not has_dependence(evidence, groups):
-        obs = [e for e in evidence.values() if e.observed is not None]
+        obs = [e for e in evidence.values() if e.is_observed]
         names = [e.name for e in obs]
         rows, shifted, shifts = [], [], np.empty(len(obs))
         for i, e in enumerate(obs):
+            if e.uncertain is not None:
+                forms[e.name] = e.uncertain.form
+                if e.uncertain.form == PROBABILITY_FORM:
+                    jeffrey[i] = (e.table, np.array(e.uncertain.weights))
+                    z = _placeholder(n_h)
+                    rows.append(z)
+                    shifted.append(z)
+                    shifts[i] = 0.0
+                    continue
             row, sh, m = e.observed_log_row
             rows.append(row)
             shifted.append(sh)
             shifts[i] = m
-        return LogSteps(names, {n: (n,) for n in names}, rows, shifted, shifts)
+        return LogSteps(names, {n: (n,) for n in names}, rows, shifted, shifts, forms, jeffrey)
     steps = observed_steps(evidence, groups, n_h)
     rows, shifted, shifts = [], [], np.empty(len(steps))
-    for i, (_, _, vec) in enumerate(steps):
+    for i, (name, _, vec) in enumerate(steps):
+        ev = evidence.get(name)
+        if ev is not None and ev.uncertain is not None:
+            forms[name] = ev.uncertain.form
+            if ev.uncertain.form == PROBABILITY_FORM:
+                jeffrey[i] = (ev.table, np.array(ev.uncertain.weights))
         lg = log_of(vec)
         lg.setflags(write=False)
         rows.append(lg)
@@ -232,7 +281,13 @@ def observed_log_steps(evidence: Mapping[str, Evidence], groups: Mapping[str, Jo
         shifted.append(sh)
         shifts[i] = m
     return LogSteps([s[0] for s in steps], {s[0]: tuple(s[1]) for s in steps}, rows, shifted,
-                    shifts)
+                    shifts, forms, jeffrey)
+
+
+def _placeholder(n_h: int) -> np.ndarray:
+    z = np.zeros(n_h)
+    z.setflags(write=False)
+    return z
 
 
 def predictive_table(evidence: Mapping[str, Evidence], groups: Mapping[str, JointGroup],
@@ -311,6 +366,10 @@ def validate_dependence(evidence: Mapping[str, Evidence], groups: Mapping[str, J
                 raise CaseError(f"evidence '{m}' in joint group '{g.name}' is likelihood "
                                 "evidence; a joint table needs each member's full table over "
                                 "its states")
+            if evidence[m].uncertain is not None:
+                raise CaseError(f"evidence '{m}' in joint group '{g.name}' has an uncertain "
+                                "observation; a joint group combines states seen for certain: "
+                                f"observe '{m}' as a state (or pending), or drop the group")
     for ev in evidence.values():
         if ev.given is None:
             continue
@@ -326,6 +385,13 @@ def validate_dependence(evidence: Mapping[str, Evidence], groups: Mapping[str, J
         if parent.likelihood_evidence:
             raise CaseError(f"{what} is stated given '{parent.name}', which is likelihood "
                             "evidence; the parent needs a full table over its states")
+        for e in (ev, parent):
+            if e.uncertain is not None:
+                raise CaseError(f"evidence '{e.name}' has an uncertain observation and is in a "
+                                f"conditional link ('{ev.name}' given '{parent.name}'); a "
+                                f"conditional chain needs states seen for certain: observe "
+                                f"'{e.name}' as a state (or pending), or state it without the "
+                                "link")
         if parent.states != ev.parent_states:
             raise CaseError(f"{what} has tables for states {list(ev.parent_states)} of "
                             f"'{parent.name}', whose states are {list(parent.states)}")

@@ -108,6 +108,12 @@ class Hypothesis:
         }
 
 
+SCENARIO_MEANINGS = ("", "equal", "data")
+"""What a scenario declares its priors to be: ``""`` the numbers as stated, ``"equal"``
+equal priors over whatever hypotheses the case has (kept equal when they change),
+``"data"`` taken from a named data set for the hypotheses in ``basis``."""
+
+
 @dataclass(frozen=True)
 class Artefact:
     """A file an evidence item rests on (a photograph, a log extract, a laboratory
@@ -135,20 +141,95 @@ class Artefact:
 
 @dataclass(frozen=True)
 class Scenario:
-    """A named alternative set of priors (e.g. "industry base rates")."""
+    """A named alternative set of priors (e.g. "industry base rates").
+
+    ``meaning`` says what the priors are meant to be (see
+    :data:`SCENARIO_MEANINGS`); for ``"data"``, ``basis`` lists the hypotheses
+    the data set covered, so the ``scenario-stale`` flag can say when the
+    hypothesis set has moved on since.
+    """
 
     name: str
     priors: Mapping[str, float]
     source: Source = UNSOURCED
     note: str = ""
+    meaning: str = ""
+    basis: tuple[str, ...] = ()
 
     def to_dict(self) -> dict[str, Any]:
-        return {
+        out = {
             "name": self.name,
             "priors": dict(self.priors),
             "source": self.source.to_dict(),
             "note": self.note,
         }
+        if self.meaning:  # only declared scenarios carry these keys
+            out["meaning"] = self.meaning
+            if self.meaning == "data":
+                out["basis"] = list(self.basis)
+        return out
+
+
+LIKELIHOOD_FORM = "likelihood"
+"""An uncertain observation given as relative weights P(report | state) (virtual evidence)."""
+PROBABILITY_FORM = "probability"
+"""An uncertain observation given as the probability of each state after it (Jeffrey's rule)."""
+UNCERTAIN_FORMS = (LIKELIHOOD_FORM, PROBABILITY_FORM)
+
+
+@dataclass(frozen=True)
+class UncertainObservation:
+    """What is known of an item's state when it was not seen for certain.
+
+    ``form`` is ``"likelihood"``: ``weights`` are the relative chances of the
+    report given each true state (virtual evidence; only their ratios
+    matter), or ``"probability"``: ``weights`` are the analyst's probability
+    of each state after the observation (Jeffrey's rule; they sum to 1). One
+    weight per state of the item, in its state order. ``source`` says who gave
+    the report, when, and why it is weighted so; ``reported`` and
+    ``reliability`` are set when the weights come from a witness or instrument
+    right with probability ``reliability`` (see
+    :func:`beliefledger.case.uncertain.report_weights`).
+
+    References
+    ----------
+    Pearl, J. (1988). *Probabilistic Reasoning in Intelligent Systems*,
+    Morgan Kaufmann, section 2.2.2 (virtual evidence).
+    Jeffrey, R. C. (1965). *The Logic of Decision*, McGraw-Hill (probability
+    kinematics). Both recalled from memory.
+    """
+
+    form: str
+    weights: tuple[float, ...]
+    source: Source = UNSOURCED
+    reported: str | None = None
+    reliability: float | None = None
+    note: str = ""
+
+    def __post_init__(self) -> None:
+        if self.form not in UNCERTAIN_FORMS:
+            raise AssertionError(f"uncertain observation form {self.form!r}")
+        object.__setattr__(self, "weights", tuple(float(w) for w in self.weights))
+
+    @property
+    def relative(self) -> np.ndarray:
+        """The weights scaled so the largest is 1 (read-only)."""
+        w = np.array(self.weights, dtype=float)
+        top = w.max() if w.size else 0.0
+        out = w / top if top > 0 else w
+        out.setflags(write=False)
+        return out
+
+    def weights_of(self, states: tuple[str, ...]) -> dict[str, float]:
+        return dict(zip(states, self.weights, strict=True))
+
+    def to_dict(self, states: tuple[str, ...]) -> dict[str, Any]:
+        out: dict[str, Any] = {"form": self.form, "weights": self.weights_of(states),
+                               "source": self.source.to_dict(), "note": self.note}
+        if self.reported is not None:
+            out["reported"] = self.reported
+            out["reliability"] = self.reliability
+        return out
 
 
 class Evidence:
@@ -165,6 +246,7 @@ class Evidence:
         "source", "shared_source", "likelihood_evidence", "entry_sources", "given",
         "parent_states", "_conditional", "_log", "observed_index", "_sums", "_bad", "_shifted", "_obs_log",
         "artefacts",
+        "uncertain",
     )
 
     def __init__(
@@ -183,7 +265,10 @@ class Evidence:
         parent_states: tuple[str, ...] = (),
         conditional: np.ndarray | None = None,
         artefacts: tuple[Artefact, ...] = (),
+        uncertain: UncertainObservation | None = None,
     ) -> None:
+        if uncertain is not None and observed is not None:
+            raise AssertionError(f"evidence '{name}' is both observed and uncertain")
         self.name = name
         self.states = tuple(states)
         self.hypotheses = tuple(hypotheses)
@@ -212,6 +297,8 @@ class Evidence:
         self._bad: tuple[int, ...] | None = None
         self._shifted: tuple[np.ndarray, np.ndarray] | None = None
         self._obs_log: tuple[np.ndarray, np.ndarray, float] | None = None
+        #: what is known of the state when it was not seen for certain (None otherwise)
+        self.uncertain = uncertain
         #: position of the observed state among the states (None while pending)
         self.observed_index = None if observed is None else self.state_index(observed)
 
@@ -258,8 +345,20 @@ class Evidence:
     @property
     def observed_log_row(self) -> tuple[np.ndarray, np.ndarray, float]:
         """ln P(observed state | H), the same row shifted to maximum 0, and the shift
-        (read-only; kept once computed). Only for an observed item."""
+        (read-only; kept once computed). Only for an observed item, or one with an
+        uncertain observation in the likelihood form (its row is ln of the weighted
+        sum of the table's rows, the weights scaled to a largest of 1)."""
         if self._obs_log is None:
+            unc = self.uncertain
+            if unc is not None and unc.form == LIKELIHOOD_FORM:
+                row = log_of(unc.relative @ self._table)
+                row.setflags(write=False)
+                m = float(np.max(row)) if row.size else 0.0
+                m = m if np.isfinite(m) else 0.0
+                sh = row - m
+                sh.setflags(write=False)
+                self._obs_log = (row, sh, m)
+                return self._obs_log
             if self.observed_index is None:
                 raise CaseError(f"evidence '{self.name}' is pending; it has no observed row")
             sh, m = self.shifted_log_table
@@ -323,7 +422,8 @@ class Evidence:
 
     @property
     def is_observed(self) -> bool:
-        return self.observed is not None
+        """True when the item enters the update: a state seen, or an uncertain observation."""
+        return self.observed is not None or self.uncertain is not None
 
     def state_index(self, state: str) -> int:
         """Position of ``state`` among the item's states (an error naming them if absent)."""
@@ -341,6 +441,8 @@ class Evidence:
               if k not in ("_table", "_conditional", "_log", "observed_index", "_sums", "_bad", "_shifted", "_obs_log")}
         kw["table"] = changes.pop("table", self._table)
         kw["conditional"] = changes.pop("conditional", self._conditional)
+        if "observed" in changes and "uncertain" not in changes:
+            kw["uncertain"] = None  # a state seen (or pending) replaces an uncertain observation
         kw.update(changes)
         return Evidence(**kw)
 
@@ -361,6 +463,8 @@ class Evidence:
                 for (s, h), src in self.entry_sources.items()
             ],
         }
+        if self.uncertain is not None:  # only items observed with uncertainty carry it
+            out["uncertain"] = self.uncertain.to_dict(self.states)
         if self.given is not None:  # only conditional items carry these keys
             out["given"] = self.given
             out["conditional_likelihoods"] = {
@@ -374,6 +478,8 @@ class Evidence:
 
     def __repr__(self) -> str:
         obs = f"observed {self.observed!r}" if self.observed is not None else "pending"
+        if self.uncertain is not None:
+            obs = f"uncertain observation ({self.uncertain.form} form)"
         kind = "likelihood evidence" if self.likelihood_evidence else f"{len(self.states)} states"
         given = f", given {self.given!r}" if self.given is not None else ""
         return f"Evidence({self.name!r}: {kind}{given}, {obs})"

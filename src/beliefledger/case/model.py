@@ -47,18 +47,23 @@ from .._checks import (
 )
 from ..errors import CaseError, CaseTypeError
 from . import dependence as dep
+from . import revision as rv
 from . import serial
 from .artefacts import make_artefact
 from .extras import hypotheses_changed, validate_extra
 from .members import (
     BASE_SCENARIO,
     CASE_MIMETYPE,
+    LIKELIHOOD_FORM,
+    PROBABILITY_FORM,
+    SCENARIO_MEANINGS,
     Artefact,
     Evidence,
     Hypothesis,
     JointGroup,
     Scenario,
     Source,
+    UncertainObservation,
 )
 from .parsing import (
     is_catch_all_name,
@@ -68,6 +73,8 @@ from .parsing import (
     parse_table,
     per_hypothesis,
 )
+from .rollups import HYPOTHESIS_GROUPS, group_members
+from .uncertain import parse_weights, report_weights
 
 
 class Case:
@@ -208,7 +215,8 @@ class Case:
 
     @property
     def observed_evidence(self) -> list[Evidence]:
-        return [e for e in self._evidence.values() if e.observed is not None]
+        """The items that enter the update (a state seen, or an uncertain observation)."""
+        return [e for e in self._evidence.values() if e.is_observed]
 
     @property
     def version(self) -> int:
@@ -239,27 +247,51 @@ class Case:
 
         return update(self)
 
-    def observed_steps(self) -> list[tuple[str, tuple[str, ...], np.ndarray]]:
+    def observed_steps(self, scenario: str | None = None
+                       ) -> list[tuple[str, tuple[str, ...], np.ndarray]]:
         """The update steps in order: ``(step name, member items, P(observed | H) vector)``.
 
         One step per observed evidence item, except that the observed members
         of a joint group make one step (named after the group, placed at its
         first observed member) and a conditional item contributes P(its state
         | the evidence before it, H); see :mod:`beliefledger.case.dependence`.
+        An uncertain observation contributes its weighted rows; a Jeffrey
+        (probability-form) step's vector depends on the priors, so it is the
+        one under ``scenario`` (default: the active one).
         """
-        return dep.observed_steps(self._evidence, self._groups, len(self._hyps))
+        steps = self.observed_log_steps()
+        if not steps.jeffrey:
+            return dep.observed_steps(self._evidence, self._groups, len(self._hyps))
+        from ..engine import resolved_log_steps
+
+        res = resolved_log_steps(self, scenario)
+        with np.errstate(under="ignore"):
+            return [(n, res.members[n], np.exp(r)) for n, r in zip(res.names, res.rows,
+                                                                   strict=True)]
 
     def observed_log_steps(self) -> dep.LogSteps:
         """The update steps in log space (names, members, ln P(observed | H) rows and
         their shifted forms); what the engine reads."""
         return dep.observed_log_steps(self._evidence, self._groups, len(self._hyps))
 
-    def observed_log_likelihoods(self) -> tuple[list[str], np.ndarray]:
-        """Step names and ln P(observed | H) per step as a steps x hypotheses array."""
+    def observed_log_likelihoods(self, scenario: str | None = None
+                                 ) -> tuple[list[str], np.ndarray]:
+        """Step names and ln P(observed | H) per step as a steps x hypotheses array (a
+        Jeffrey step's row as it is under ``scenario``, default the active one)."""
         steps = self.observed_log_steps()
+        if steps.jeffrey:
+            from ..engine import resolved_log_steps
+
+            steps = resolved_log_steps(self, scenario)
         if not steps.rows:  # no observed evidence: zero steps, one column per hypothesis
             return [], np.zeros((0, len(self.hypothesis_names)))
         return steps.names, steps.stacked()
+
+    @property
+    def hypothesis_groups(self) -> dict[str, tuple[str, ...]]:
+        """Hypothesis groups (roll-ups such as "mechanical" vs "human"), name -> members;
+        see :meth:`group_hypotheses`."""
+        return group_members(self)
 
     def predictive_table(self, name: str) -> np.ndarray:
         """P(state | hypothesis, the other observed evidence) for one item, as an array
@@ -335,6 +367,14 @@ class Case:
 
     def _record(self, kind: str, target: str, detail: str) -> None:
         self.assumptions.append({"kind": kind, "target": target, "detail": detail})
+
+    def record_assumption(self, kind: str, target: str, detail: str) -> None:
+        """Add an entry to :attr:`assumptions` (used by analyses that change numbers on
+        the analyst's behalf, e.g. putting pooled expert judgements into the case)."""
+        entry = [check_name("assumption kind", kind), check_text("assumption target", target),
+                 check_text("assumption detail", detail)]
+        with self._edit("assumptions"):
+            self._record(*entry)
 
     # ------------------------------------------------------------------ text fields
     def set_details(self, *, title: str | None = None, question: str | None = None,
@@ -472,152 +512,284 @@ class Case:
             self._hyps[h.name] = replace(h, **changes)
 
     # ------------------------------------------------------------------ hypotheses
-    def add_hypothesis(self, name: str, prior: float, *, likelihoods: Mapping[str, Any] | None = None,
-                       description: str = "", source: Any = None, catch_all: bool | None = None,
+    def add_hypothesis(self, name: str, prior: float | None = None, *,
+                       likelihoods: Mapping[str, Any] | None = None,
+                       take_prior_from: str | None = None, share: float | None = None,
+                       rescale: bool = False, description: str = "", source: Any = None,
+                       catch_all: bool | None = None,
                        scenario_priors: Mapping[str, float] | None = None,
-                       extra_values: Mapping[str, Any] | None = None) -> None:
-        """Add a hypothesis; the other priors are rescaled by ``1 - prior`` (recorded).
+                       extra_values: Mapping[str, Any] | None = None,
+                       group: str | None = None) -> None:
+        """Add a hypothesis, saying where its prior comes from.
+
+        * ``take_prior_from="other cause", prior=x`` (or ``share=s``): the new
+          prior is carved out of that one hypothesis (usually the catch-all)
+          in the hypothesis table and in every scenario: the donor gives up
+          ``x`` (or the fraction ``s`` of its own prior); every other prior
+          is unchanged. ``scenario_priors`` gives a different amount in a
+          named scenario. Carving more than the donor has is refused.
+        * ``rescale=True, prior=x``: every other prior is multiplied by
+          ``1 - x`` (in each scenario by ``1 -`` its ``scenario_priors``
+          entry, default ``x``). An explicit choice, recorded as an
+          assumption.
+        * A prior of 0 needs neither.
+
+        Either way the choice is recorded in :attr:`assumptions`, and a
+        scenario declared ``meaning="equal"`` is made equal over the new set.
 
         ``likelihoods`` maps every existing evidence item to this hypothesis'
         column (a list over the item's states, a dict state -> p, or a number
-        for an likelihood evidence item; for a conditional item, a dict parent state
-        -> column). ``scenario_priors`` gives its prior in each named scenario
-        (default: the same ``prior``). ``extra_values`` gives the new
-        hypothesis' entries of extras sections keyed by hypothesis (e.g.
-        ``{"loss_table": {action: loss}}`` when the case has a loss table).
-        Joint groups assume the new hypothesis keeps its items independent
-        (covariance 0, or the product of the members' columns); that is
-        recorded as an assumption.
+        for a likelihood evidence item; for a conditional item, a dict parent
+        state -> column). ``extra_values`` gives the new hypothesis' entries of
+        extras sections keyed by hypothesis (e.g. ``{"loss_table": {action:
+        loss}}`` when the case has a loss table); ``group`` names a hypothesis
+        group for it to join. Joint groups assume the new hypothesis keeps
+        their items independent (covariance 0, or the product of the members'
+        columns); that is recorded as an assumption.
         """
         nm = check_name("hypothesis", name)
         if nm in self._hyps:
             raise CaseError(f"hypothesis '{nm}' already exists; choose another name or edit it")
-        p = check_probability(f"prior of hypothesis '{nm}'", prior)
-        if p >= 1 and self._hyps:
-            raise CaseError(f"prior of new hypothesis '{nm}' is {p:g}; it must be below 1 "
-                            "so the others keep some belief")
-        for arg, value in (("likelihoods", likelihoods), ("scenario_priors", scenario_priors)):
+        for arg, value in (("likelihoods", likelihoods), ("scenario_priors", scenario_priors),
+                           ("extra_values", extra_values)):
             if value is not None and not isinstance(value, Mapping):
                 raise CaseTypeError(f"{arg} of new hypothesis '{nm}' must be a dict (evidence or "
                                     f"scenario name -> value), got {type(value).__name__}")
-        likelihoods = dict(likelihoods or {})
-        missing = [e for e in self._evidence if e not in likelihoods]
-        if missing:
-            raise CaseError(
-                f"new hypothesis '{nm}' needs a likelihood column for evidence {missing}; "
-                "pass likelihoods={evidence: [P(state | new hypothesis), ...]}"
-            )
-        unknown = [e for e in likelihoods if e not in self._evidence]
-        if unknown:
-            raise CaseError(f"likelihoods given for unknown evidence {unknown}; "
-                            f"the case's evidence is {list(self._evidence)}")
-        hyp = Hypothesis(nm, p, check_text("description", description),
-                         Source.coerce(source, what=f"source of prior '{nm}'"),
-                         is_catch_all_name(nm) if catch_all is None else bool(catch_all))
-        sc_p = {}
-        for sname in self._scenarios:
-            v = (scenario_priors or {}).get(sname, p)
-            sc_p[sname] = check_probability(f"prior of '{nm}' in scenario '{sname}'", v)
+        rescale = check_flag("rescale", rescale)
         if scenario_priors:
             bad = [s for s in scenario_priors if s not in self._scenarios]
             if bad:
-                raise CaseError(f"scenario_priors names unknown scenario(s) {bad}")
-        new_cols = {}
-        new_cond = {}
-        for ename, ev in self._evidence.items():
-            if ev.given is not None:
-                spec = likelihoods[ename]
-                if not isinstance(spec, Mapping) or set(spec) != set(ev.parent_states):
-                    raise CaseError(f"new hypothesis '{nm}': conditional evidence '{ename}' needs "
-                                    f"a column for each state of '{ev.given}' "
-                                    f"{list(ev.parent_states)}, as a dict parent state -> column")
-                cols = []
-                for ps in ev.parent_states:
-                    col = parse_column(ev, nm, spec[ps])
-                    if abs(col.sum() - 1) > SUM_TOL:
-                        raise CaseError(f"likelihoods of evidence '{ename}' given '{ev.given}' = "
-                                        f"'{ps}' for new hypothesis '{nm}' sum to {col.sum():.4g}"
-                                        "; fix the column")
-                    cols.append(col)
-                new_cond[ename] = np.stack(cols)
-                new_cols[ename] = np.zeros(len(ev.states))  # the margin is recomputed
-            else:
-                new_cols[ename] = parse_column(ev, nm, likelihoods[ename])
+                raise CaseError(f"scenario_priors names unknown scenario(s) {bad}; the "
+                                f"scenarios are {list(self._scenarios)}")
+        donor = None if take_prior_from is None else self.hypothesis(take_prior_from).name
+        carve = None
+        if donor is not None:
+            if rescale:
+                raise CaseError(f"new hypothesis '{nm}': give take_prior_from= (carve its prior "
+                                "out of one hypothesis) or rescale=True (shrink all the others), "
+                                "not both")
+            carve = rv.carved_priors(self._hyps, self._scenarios, nm, donor, prior=prior,
+                                     share=share, scenario_priors=scenario_priors)
+            p = carve.prior
+        else:
+            if share is not None:
+                raise CaseError(f"share= of new hypothesis '{nm}' is a fraction of a donor's "
+                                "prior; name the donor with take_prior_from=")
+            if prior is None:
+                raise CaseError(f"give the prior of new hypothesis '{nm}': prior=x with "
+                                "take_prior_from='<hypothesis>' (carved out of it) or "
+                                "rescale=True (the others shrink), or prior=0")
+            p = check_probability(f"prior of hypothesis '{nm}'", prior)
+            sc_given = {k: check_probability(f"prior of '{nm}' in scenario '{k}'", v)
+                        for k, v in (scenario_priors or {}).items()}
+            if not rescale and self._hyps and (p > 0 or any(v > 0 for v in sc_given.values())):
+                donor_hint = next((h.name for h in self._hyps.values() if h.catch_all), None)
+                carve_text = (f"take_prior_from={donor_hint!r} to carve it out of that "
+                              "hypothesis" if donor_hint else
+                              "take_prior_from='<hypothesis>' to carve it out of one hypothesis")
+                raise CaseError(
+                    f"new hypothesis '{nm}' has prior {fmt_g(max([p, *sc_given.values()]))}, "
+                    f"which must come from the others: pass {carve_text} (the other priors "
+                    f"stay as they are), or rescale=True to multiply every other prior by "
+                    f"{fmt_g(1 - p)} (recorded as an assumption)")
+        if p >= 1 and self._hyps:
+            raise CaseError(f"prior of new hypothesis '{nm}' is {p:g}; it must be below 1 "
+                            "so the others keep some belief")
+        hyp = Hypothesis(nm, p, check_text("description", description),
+                         Source.coerce(source, what=f"source of prior '{nm}'"),
+                         is_catch_all_name(nm) if catch_all is None else bool(catch_all))
+        cols = rv.parse_new_columns(self._evidence, nm, dict(likelihoods or {}))
+        extra = dict(extra_values or {})
+        if group is not None:
+            extra[HYPOTHESIS_GROUPS] = check_name("hypothesis group", group)
         with self._edit("hypotheses"):
-            scale = 1 - p
-            self._hyps = {n: replace(h, prior=h.prior * scale) for n, h in self._hyps.items()}
-            self._hyps[nm] = hyp
-            if self._hyps and scale != 1:
-                self._record("rescale-priors", BASE_SCENARIO,
-                             f"hypothesis '{nm}' added with prior {fmt_g(p)}; the others "
-                             f"rescaled by {fmt_g(scale)}")
-            for sname, sc in self._scenarios.items():
-                q = sc_p[sname]
-                pri = {k: v * (1 - q) for k, v in sc.priors.items()}
-                pri[nm] = q
-                self._scenarios[sname] = replace(sc, priors=pri)
-                self._record("rescale-priors", sname,
-                             f"hypothesis '{nm}' added with prior {fmt_g(q)}; the others rescaled")
-            names = tuple(self._hyps)
-            for ename, ev in self._evidence.items():
-                table = np.column_stack([ev.table, new_cols[ename]])
-                changes: dict[str, Any] = {"table": table, "hypotheses": names}
-                if ename in new_cond:
-                    changes["conditional"] = np.concatenate(
-                        [ev.conditional, new_cond[ename][:, :, None]], axis=2)
-                self._evidence[ename] = ev.replace(**changes)
+            order = (*self._hyps, nm)
+            if carve is not None:
+                self._hyps[donor] = replace(self._hyps[donor], prior=carve.donor_prior)
+                self._hyps[nm] = hyp
+
+                def sc_priors(sc: Scenario) -> dict[str, float]:
+                    return {**sc.priors, donor: carve.donor_scenario_priors[sc.name],
+                            nm: carve.scenario_priors[sc.name]}
+                for target, detail in carve.notes:
+                    self._record("carve-prior", BASE_SCENARIO if target == "base" else target,
+                                 detail)
+            else:
+                scale = 1 - p
+                self._hyps = {n: replace(h, prior=h.prior * scale) for n, h in self._hyps.items()}
+                self._hyps[nm] = hyp
+                if len(self._hyps) > 1 and scale != 1:
+                    self._record("rescale-priors", BASE_SCENARIO,
+                                 f"hypothesis '{nm}' added with prior {fmt_g(p)}; the others "
+                                 f"rescaled by {fmt_g(scale)} (rescale=True)")
+
+                def sc_priors(sc: Scenario) -> dict[str, float]:
+                    q = check_probability(f"prior of '{nm}' in scenario '{sc.name}'",
+                                          (scenario_priors or {}).get(sc.name, p))
+                    if q > 0:
+                        self._record("rescale-priors", sc.name,
+                                     f"hypothesis '{nm}' added with prior {fmt_g(q)}; the others "
+                                     f"rescaled by {fmt_g(1 - q)} (rescale=True)")
+                    return {**{k: v * (1 - q) for k, v in sc.priors.items()}, nm: q}
+            self._scenarios, kept = rv.scenarios_over(self._scenarios, order, sc_priors)
+            self._record_kept_equal(kept, f"hypothesis '{nm}' added")
+            self._evidence, self._groups, independent = rv.with_columns(
+                self._evidence, self._groups, order,
+                {**{h: h for h in order if h != nm}, nm: cols})
             dep.refreshed_conditionals(self._evidence)
-            for gname, g in self._groups.items():
-                if g.kind == "covariance":
-                    self._groups[gname] = g.replace(
-                        hypotheses=names, covariance=np.append(g.covariance_values, 0.0))
-                else:
-                    col = np.ones(1)
-                    for m in g.members:
-                        col = np.multiply.outer(col, self._evidence[m].table[:, -1])
-                    self._groups[gname] = g.replace(
-                        hypotheses=names, joint=np.column_stack([g.joint_values, col.reshape(-1)]))
+            for gname in independent:
                 self._record("group-independence", gname,
                              f"hypothesis '{nm}' added: the items of joint group '{gname}' are "
                              "taken as independent under it; state their dependence if known")
-            self._sync_extras({}, {nm: dict(extra_values) if extra_values else None})
+            self._sync_extras({}, {nm: extra or None})
 
-    def remove_hypothesis(self, name: str) -> None:
-        """Remove a hypothesis; the remaining priors are rescaled to sum to 1 (recorded)."""
+    def split_hypothesis(self, name: str, into: Mapping[str, float], *,
+                         likelihoods: Mapping[str, Mapping[str, Any]] | None = None,
+                         description: str = "", source: Any = None,
+                         extra_values: Mapping[str, Mapping[str, Any]] | None = None,
+                         note: str = "") -> None:
+        """Split one hypothesis into several, each taking a share of its prior.
+
+        ``into`` maps each part to its share of the prior of ``name`` (shares
+        sum to 1; include ``name`` itself to keep a part under the old name).
+        In the hypothesis table and in every scenario each part gets its
+        share of the old prior; the other priors are unchanged. Each part
+        inherits the likelihoods of ``name`` (entry sources, conditional
+        tables and joint-group dependence included) unless ``likelihoods``
+        gives it its own columns (part -> {evidence: column}, as
+        :meth:`add_hypothesis` takes them). The parts stay in the old one's
+        hypothesis group and copy its row of a loss table unless
+        ``extra_values`` (part -> {section: value}) says otherwise. The split is
+        recorded as an assumption, with ``note`` (why).
+        """
+        h = self.hypothesis(name)
+        shares = rv.check_split(h.name, into)
+        parts = {check_name("hypothesis", k): v for k, v in shares.items()}
+        if len(parts) != len(shares):
+            raise CaseError(f"the parts of the split of '{h.name}' repeat a name: {list(into)}")
+        taken = [k for k in parts if k in self._hyps and k != h.name]
+        if taken:
+            raise CaseError(f"cannot split '{h.name}' into {taken}: that name is taken; choose "
+                            "new names (or the old one, to keep a part of it)")
+        for arg, value in (("likelihoods", likelihoods), ("extra_values", extra_values)):
+            if value is not None and not isinstance(value, Mapping):
+                raise CaseTypeError(f"{arg} of the split of '{h.name}' must map each part to a "
+                                    f"dict, got {type(value).__name__}")
+        unknown = [k for k in (*(likelihoods or {}), *(extra_values or {})) if k not in parts]
+        if unknown:
+            raise CaseError(f"likelihoods / extra_values of the split of '{h.name}' name "
+                            f"{unknown}, which are not among its parts {list(parts)}")
+        sources: dict[str, Any] = {}
+        for part in parts:
+            given = (likelihoods or {}).get(part)
+            sources[part] = h.name if given is None else rv.parse_new_columns(
+                self._evidence, part, dict(given))
+        src = h.source if source is None else Source.coerce(source, what="source of the split")
+        order = tuple(x for n in self._hyps for x in (parts if n == h.name else (n,)))
+        defaults = self._split_extras(h.name)
+        added = {k: {**defaults, **dict((extra_values or {}).get(k) or {})}
+                 for k in parts if k != h.name}
+        why = check_text("note of the split", note)
+        with self._edit("hypotheses"):
+            new_h: dict[str, Hypothesis] = {}
+            for n in order:
+                if n not in parts:
+                    new_h[n] = self._hyps[n]
+                    continue
+                keep = n == h.name
+                new_h[n] = Hypothesis(
+                    n, h.prior * parts[n],
+                    h.description if keep else check_text("description", description),
+                    src, h.catch_all if keep else is_catch_all_name(n))
+            self._hyps = new_h
+
+            def sc_priors(sc: Scenario) -> dict[str, float]:
+                old = sc.priors[h.name]
+                return {n: (old * parts[n] if n in parts else sc.priors[n]) for n in order}
+            self._scenarios, kept = rv.scenarios_over(self._scenarios, order, sc_priors)
+            self._record_kept_equal(kept, f"hypothesis '{h.name}' split")
+            self._evidence, self._groups, independent = rv.with_columns(
+                self._evidence, self._groups, order,
+                {n: (sources[n] if n in parts else n) for n in order})
+            dep.refreshed_conditionals(self._evidence)
+            inherited = [k for k, v in sources.items() if isinstance(v, str)]
+            listed = ", ".join(f"'{k}' ({fmt_g(v)} of it: prior {fmt_g(h.prior * v)})"
+                               for k, v in parts.items())
+            self._record("split-hypothesis", h.name,
+                         f"hypothesis '{h.name}' (prior {fmt_g(h.prior)}) split into {listed}, "
+                         "in every scenario by the same shares; the other priors unchanged; "
+                         + (f"the likelihoods of '{h.name}' inherited by {inherited}"
+                            if inherited else "every part has likelihoods of its own")
+                         + (f"; {why}" if why else ""))
+            for gname in independent:
+                self._record("group-independence", gname,
+                             f"hypothesis '{h.name}' split: the items of joint group '{gname}' "
+                             "are taken as independent under the parts given new likelihoods")
+            self._sync_extras({} if h.name in parts else {h.name: None}, added)
+
+    def _split_extras(self, name: str) -> dict[str, Any]:
+        """What a part of a split hypothesis takes over in the extras sections keyed by
+        hypothesis: the old one's loss-table row and its hypothesis group."""
+        out: dict[str, Any] = {}
+        loss = self.extras.get("loss_table")
+        if loss:
+            out["loss_table"] = {a: row[name] for a, row in loss["table"].items() if name in row}
+        for g, members in self.hypothesis_groups.items():
+            if name in members:
+                out[HYPOTHESIS_GROUPS] = g
+        return out
+
+    def _record_kept_equal(self, names: list[str], what: str) -> None:
+        for sname in names:
+            self._record("scenario-kept-equal", sname,
+                         f"{what}: scenario '{sname}' is declared equal priors, so it gives "
+                         f"each of the {len(self._hyps)} hypotheses {fmt_g(1 / len(self._hyps))}")
+
+    def remove_hypothesis(self, name: str, *, give_prior_to: str | None = None) -> None:
+        """Remove a hypothesis. Its prior goes to ``give_prior_to`` (in every scenario; the
+        others keep theirs), or by default the remaining priors are rescaled to sum to 1.
+        Either way it is recorded; an ``"equal"`` scenario stays equal."""
         h = self.hypothesis(name)
         if len(self._hyps) <= 1:
             raise CaseError(f"cannot remove '{h.name}': it is the only hypothesis")
+        heir = None
+        if give_prior_to is not None:
+            heir = self.hypothesis(give_prior_to).name
+            if heir == h.name:
+                raise CaseError(f"give_prior_to names '{h.name}' itself; name another hypothesis")
         rest = 1 - h.prior
-        if sum(x.prior for n, x in self._hyps.items() if n != h.name) <= 0:
+        if heir is None and sum(x.prior for n, x in self._hyps.items() if n != h.name) <= 0:
             raise CaseError(f"cannot remove '{h.name}': the other hypotheses all have prior 0")
         with self._edit("hypotheses"):
             del self._hyps[h.name]
-            total = sum(x.prior for x in self._hyps.values())
-            self._hyps = _rescaled(self._hyps, total)
-            self._record("rescale-priors", BASE_SCENARIO,
-                         f"hypothesis '{h.name}' (prior {fmt_g(h.prior)}) removed; the others "
-                         f"rescaled by {fmt_g(1 / rest) if rest > 0 else 'n/a'}")
-            for sname, sc in self._scenarios.items():
+            order = tuple(self._hyps)
+            if heir is not None:
+                self._hyps[heir] = replace(self._hyps[heir],
+                                           prior=self._hyps[heir].prior + h.prior)
+                self._record("give-prior", BASE_SCENARIO,
+                             f"hypothesis '{h.name}' (prior {fmt_g(h.prior)}) removed; its prior "
+                             f"given to '{heir}'; the other priors unchanged")
+            else:
+                total = sum(x.prior for x in self._hyps.values())
+                self._hyps = _rescaled(self._hyps, total)
+                self._record("rescale-priors", BASE_SCENARIO,
+                             f"hypothesis '{h.name}' (prior {fmt_g(h.prior)}) removed; the others "
+                             f"rescaled by {fmt_g(1 / rest) if rest > 0 else 'n/a'}")
+
+            def sc_priors(sc: Scenario) -> dict[str, float]:
                 pri = {k: v for k, v in sc.priors.items() if k != h.name}
+                if heir is not None:
+                    pri[heir] += sc.priors[h.name]
+                    return pri
                 t = sum(pri.values())
                 if t <= 0:
-                    raise CaseError(f"cannot remove '{h.name}': in scenario '{sname}' the other "
+                    raise CaseError(f"cannot remove '{h.name}': in scenario '{sc.name}' the other "
                                     "hypotheses all have prior 0")
-                self._scenarios[sname] = replace(sc, priors={k: v / t for k, v in pri.items()})
-            names = tuple(self._hyps)
-            for ename, ev in self._evidence.items():
-                j = ev.hypotheses.index(h.name)
-                self._evidence[ename] = ev.replace(
-                    table=np.delete(ev.table, j, axis=1), hypotheses=names,
-                    entry_sources={k: v for k, v in ev.entry_sources.items() if k[1] != h.name},
-                    conditional=(None if ev.conditional is None
-                                 else np.delete(ev.conditional, j, axis=2)))
-            for gname, g in self._groups.items():
-                j = g.hypotheses.index(h.name)
-                self._groups[gname] = g.replace(
-                    hypotheses=names,
-                    covariance=None if g.covariance_values is None else np.delete(g.covariance_values, j),
-                    joint=None if g.joint_values is None else np.delete(g.joint_values, j, axis=1))
+                return {k: v / t for k, v in pri.items()}
+            self._scenarios, kept = rv.scenarios_over(self._scenarios, order, sc_priors)
+            self._record_kept_equal(kept, f"hypothesis '{h.name}' removed")
+            self._evidence, self._groups, _ = rv.with_columns(
+                self._evidence, self._groups, order, {n: n for n in order})
             self._sync_extras({h.name: None}, {})
 
     def rename_hypothesis(self, old: str, new: str) -> None:
@@ -633,7 +805,8 @@ class Case:
                           for n, x in self._hyps.items()}
             for sname, sc in self._scenarios.items():
                 self._scenarios[sname] = replace(
-                    sc, priors={(nm if k == h.name else k): v for k, v in sc.priors.items()})
+                    sc, priors={(nm if k == h.name else k): v for k, v in sc.priors.items()},
+                    basis=tuple(nm if k == h.name else k for k in sc.basis))
             names = tuple(self._hyps)
             for ename, ev in self._evidence.items():
                 self._evidence[ename] = ev.replace(
@@ -643,6 +816,44 @@ class Case:
             for gname, g in self._groups.items():
                 self._groups[gname] = g.replace(hypotheses=names)
             self._sync_extras({h.name: nm}, {})
+
+    def group_hypotheses(self, group: str, members: Iterable[str], *, note: str = "") -> None:
+        """Name a group of hypotheses for roll-ups ("mechanical" vs "human").
+
+        Nothing is merged: the members stay separate hypotheses, and the
+        group's probability is the sum of theirs at every step
+        (``ledger.group_posterior``, ``ledger.group_steps``, a waterfall with
+        ``focus=group``). A hypothesis belongs to one group at most. Merging
+        two hypotheses' tables into one is not exact (the merged likelihood
+        would be weighted by beliefs that change with every item); a group is.
+        """
+        nm = check_name("hypothesis group", group)
+        if isinstance(members, str) or not isinstance(members, Iterable):
+            raise CaseTypeError(f"members of hypothesis group '{nm}' must be a list of "
+                                f"hypothesis names, got {type(members).__name__} {members!r:.60}")
+        mem = [self.hypothesis(m).name for m in members]
+        groups = [dict(g) for g in (self.extras.get(HYPOTHESIS_GROUPS) or {}).get("groups", [])]
+        if any(g["name"] == nm for g in groups):
+            raise CaseError(f"hypothesis group '{nm}' already exists; remove it first with "
+                            "case.ungroup_hypotheses, or choose another name")
+        groups.append({"name": nm, "members": mem, "note": check_text("note", note)})
+        value = validate_extra(HYPOTHESIS_GROUPS, {"groups": groups}, self)
+        with self._edit("hypothesis groups"):
+            self.extras[HYPOTHESIS_GROUPS] = value
+            self._record("hypothesis-group", nm,
+                         f"hypotheses {mem} read together as group '{nm}' (its probability is "
+                         "the sum of theirs; nothing merged)" + (f"; {note}" if note else ""))
+
+    def ungroup_hypotheses(self, group: str) -> None:
+        """Remove a hypothesis group (its members are untouched)."""
+        groups = (self.extras.get(HYPOTHESIS_GROUPS) or {}).get("groups", [])
+        lookup("hypothesis group", "hypothesis groups", {g["name"]: g for g in groups}, group)
+        rest = [g for g in groups if g["name"] != group]
+        with self._edit("hypothesis groups"):
+            if rest:
+                self.extras[HYPOTHESIS_GROUPS] = {"groups": rest}
+            else:
+                self.extras.pop(HYPOTHESIS_GROUPS, None)
 
     # ------------------------------------------------------------------ evidence
     def add_evidence(self, name: str, *, likelihoods: Any, states: Iterable[str] | None = None,
@@ -849,18 +1060,122 @@ class Case:
         return pd.DataFrame(rows, columns=["evidence", "file", "bytes", "sha256", "who", "when",
                                            "note", "copy"])
 
-    def observe(self, evidence: str, state: str | None) -> None:
-        """Record the observed state of an evidence item (``None``: pending, not observed yet)."""
+    def observe(self, evidence: str, state: str | None = None, *,
+                likelihood: Mapping[str, float] | None = None,
+                probability: Mapping[str, float] | None = None, source: Any = None,
+                note: str = "") -> None:
+        """Record what was observed of an evidence item.
+
+        * ``observe(item, state)``: the state was seen for certain (``None``:
+          pending, not observed yet).
+        * ``observe(item, likelihood={state: weight, ...})``: an uncertain
+          report, as the relative chance of the report given each true state
+          (virtual evidence). Only the ratios of the weights matter; weights
+          ``{s: 1, others: 0}`` are the plain observation of ``s``.
+        * ``observe(item, probability={state: p, ...})``: the analyst's
+          probability of each state after the observation (Jeffrey's rule),
+          applied at the item's place in the sequence. Such updates do not
+          commute: the ledger says where each sits, and the
+          ``order-sensitive`` flag says when moving it would change the MAP.
+
+        ``source`` says who gave the report, when, and why it is weighted so
+        (a :class:`Source`, like every other number); ``note`` adds detail.
+        An uncertain observation is recorded in :attr:`assumptions`. For a
+        witness or instrument of known reliability use :meth:`observe_report`.
+
+        References
+        ----------
+        Pearl (1988), *Probabilistic Reasoning in Intelligent Systems*, section
+        2.2.2; Jeffrey (1965), *The Logic of Decision*; Chan & Darwiche (2005),
+        *Artificial Intelligence* 163 (all recalled from memory).
+        """
         ev = self.evidence_item(evidence)
-        if state is not None:
-            if not isinstance(state, str):
-                raise CaseTypeError(f"observed state of '{ev.name}' must be a string, got "
-                                    f"{type(state).__name__} {state!r:.60}")
-            if state not in ev.states:
-                raise CaseError(f"observed state {state!r} of evidence '{ev.name}' is not among "
-                                f"its states {list(ev.states)}; pick one of them or None")
+        given = [k for k, v in (("state", state), ("likelihood", likelihood),
+                                ("probability", probability)) if v is not None]
+        if len(given) > 1:
+            raise CaseError(f"observe '{ev.name}' with one of a state, likelihood= or "
+                            f"probability=, not {' and '.join(given)}")
+        if likelihood is None and probability is None:
+            if source is not None or note:
+                raise CaseError(f"source= and note= of an observation of '{ev.name}' describe an "
+                                "uncertain report; for a state seen for certain set the item's "
+                                "source with set_evidence")
+            if state is not None:
+                if not isinstance(state, str):
+                    raise CaseTypeError(f"observed state of '{ev.name}' must be a string, got "
+                                        f"{type(state).__name__} {state!r:.60}")
+                if state not in ev.states:
+                    raise CaseError(f"observed state {state!r} of evidence '{ev.name}' is not "
+                                    f"among its states {list(ev.states)}; pick one of them or None")
+            with self._edit("observed"):
+                self._evidence[ev.name] = ev.replace(observed=state)
+            return
+        form = LIKELIHOOD_FORM if likelihood is not None else PROBABILITY_FORM
+        unc = UncertainObservation(
+            form, self._uncertain_weights(ev, likelihood if likelihood is not None
+                                          else probability, form),
+            Source.coerce(source, what=f"source of the observation of '{ev.name}'"),
+            note=check_text(f"note of the observation of '{ev.name}'", note))
+        self._set_uncertain(ev, unc)
+
+    def observe_report(self, evidence: str, reported: str, reliability: float, *,
+                       source: Any = None, note: str = "") -> None:
+        """Observe an item through a witness or instrument right with probability r.
+
+        A report of state ``reported`` on an item of k states is entered as
+        the likelihood form it produces: weight r for the reported state and
+        (1 - r) / (k - 1) for each other state (the chance of that report were
+        the other state true), as :func:`beliefledger.case.uncertain.report_weights`
+        gives. ``source`` says who reported, when, and why r is what it is.
+
+        Examples
+        --------
+        ``case.observe_report("smell location", "machine room", 0.8, source={"where":
+        "night operator's statement", "who": "shift lead", "why": "fairly sure"})``
+        equals ``case.observe("smell location", likelihood={"machine room": 0.8,
+        "office": 0.1, "dock": 0.1}, ...)`` on a three-state item.
+        """
+        ev = self.evidence_item(evidence)
+        weights = report_weights(ev.states, reported, reliability)
+        unc = UncertainObservation(
+            LIKELIHOOD_FORM, self._uncertain_weights(ev, weights, LIKELIHOOD_FORM),
+            Source.coerce(source, what=f"source of the report on '{ev.name}'"),
+            reported=reported, reliability=float(reliability),
+            note=check_text(f"note of the report on '{ev.name}'", note))
+        self._set_uncertain(ev, unc)
+
+    def _uncertain_weights(self, ev: Evidence, spec: Any, form: str) -> tuple[float, ...]:
+        if ev.likelihood_evidence:
+            raise CaseError(f"evidence '{ev.name}' is likelihood evidence (one observed state "
+                            "with relative weights per hypothesis); an uncertain observation "
+                            "needs an item with its full table over the states: add the item "
+                            "with its states and likelihoods, then observe it")
+        links = self.dependence_links()
+        if ev.name in links:
+            raise CaseError(f"evidence '{ev.name}' is in a stated dependence ({links[ev.name]}); "
+                            "an uncertain observation enters as a step of its own, so it "
+                            "cannot be combined with a joint group or a conditional chain: "
+                            "observe a state, or drop the dependence first")
+        return parse_weights(ev.name, ev.states, spec, form)
+
+    def _set_uncertain(self, ev: Evidence, unc: UncertainObservation) -> None:
+        w = ", ".join(f"'{s}' {fmt_g(x)}" for s, x in zip(ev.states, unc.weights, strict=True))
+        by = f"; given by {unc.source}" if unc.source.is_sourced else "; unsourced"
+        if unc.form == LIKELIHOOD_FORM:
+            head = (f"report '{unc.reported}' from a witness or instrument right with "
+                    f"probability {fmt_g(unc.reliability)}: " if unc.reported is not None else "")
+            detail = (f"{head}likelihood form (virtual evidence): relative chance of the report "
+                      f"given each true state {w}; only their ratios matter")
+        else:
+            detail = (f"probability form (Jeffrey's rule): probability of each state after the "
+                      f"observation {w}; applied at the item's place in the sequence through "
+                      "the equivalent likelihood weights q(state) / P(state | the evidence "
+                      "before it); such updates do not commute, so moving the item changes "
+                      "the result")
         with self._edit("observed"):
-            self._evidence[ev.name] = ev.replace(observed=state)
+            self._evidence[ev.name] = ev.replace(observed=None, uncertain=unc)
+            self._record("uncertain-observation", ev.name, detail + by
+                         + (f"; {unc.note}" if unc.note else ""))
 
     def set_likelihood(self, evidence: str, hypothesis: str, value: Any, *,
                        state: str | None = None, source: Any = None,
@@ -1137,12 +1452,32 @@ class Case:
         """Keep extras sections that are keyed by hypothesis in step with a change of the
         hypothesis set (hooks registered in :data:`beliefledger.case.extras.SECTIONS`)."""
         for key in list(self.extras):
-            self.extras[key] = hypotheses_changed(key, self.extras[key], self, renamed, added)
+            value = hypotheses_changed(key, self.extras[key], self, renamed, added)
+            if value is None:
+                del self.extras[key]
+            else:
+                self.extras[key] = value
+        for h, given in added.items():
+            if isinstance(given, Mapping) and given.get(HYPOTHESIS_GROUPS) is not None \
+                    and HYPOTHESIS_GROUPS not in self.extras:
+                raise CaseError(f"new hypothesis '{h}' is to join hypothesis group "
+                                f"{given[HYPOTHESIS_GROUPS]!r:.60}, but the case has no groups; "
+                                "make it with case.group_hypotheses first")
 
     # ------------------------------------------------------------------ scenarios
-    def add_scenario(self, name: str, priors: Mapping[str, float], *, source: Any = None,
-                     note: str = "", normalize: bool = False, replace_existing: bool = False) -> None:
-        """Add a named set of priors (must cover every hypothesis and sum to 1)."""
+    def add_scenario(self, name: str, priors: Mapping[str, float] | None = None, *,
+                     source: Any = None, note: str = "", normalize: bool = False,
+                     replace_existing: bool = False, meaning: str | None = None) -> None:
+        """Add a named set of priors (must cover every hypothesis and sum to 1).
+
+        ``meaning`` declares what the priors are: ``None`` or ``""`` (the
+        numbers as stated), ``"equal"`` (equal priors; ``priors`` may be left
+        out, and the scenario stays equal when hypotheses are added, split or
+        removed) or ``"data"`` (taken from the data set ``source`` names, for
+        the hypotheses the case has now; when the hypothesis set changes the
+        ``scenario-stale`` flag says the priors no longer come from that data
+        alone).
+        """
         nm = check_name("scenario", name)
         if nm == BASE_SCENARIO:
             raise CaseError(f"'{BASE_SCENARIO}' is the hypothesis table's own priors; "
@@ -1150,9 +1485,26 @@ class Case:
         if nm in self._scenarios and not replace_existing:
             raise CaseError(f"scenario '{nm}' already exists; pass replace_existing=True to "
                             "overwrite it")
+        mean = "" if meaning is None else meaning
+        if mean not in SCENARIO_MEANINGS:
+            raise CaseError(f"meaning {meaning!r:.40} of scenario '{nm}' is not one of "
+                            f"{[m for m in SCENARIO_MEANINGS if m]} (or None: the numbers as "
+                            "stated)")
+        sc_src = Source.coerce(source, what=f"source of scenario '{nm}'")
+        if priors is None:
+            if mean != "equal":
+                raise CaseError(f"scenario '{nm}' needs its priors (one per hypothesis), or "
+                                "meaning='equal' for equal priors")
+            priors = rv.equal_priors(list(self._hyps))
         values = self._complete_priors(priors, f"scenario '{nm}'")
         total = sum(values.values())
-        sc_src = Source.coerce(source, what=f"source of scenario '{nm}'")
+        if mean == "equal" and max(values.values()) - min(values.values()) > SUM_TOL:
+            raise CaseError(f"scenario '{nm}' is declared equal priors but its priors differ "
+                            f"({fmt_g(min(values.values()))} to {fmt_g(max(values.values()))}); "
+                            "leave priors out, or declare another meaning")
+        if mean == "data" and not sc_src.is_sourced:
+            raise CaseError(f"scenario '{nm}' is declared taken from data, so name the data set: "
+                            "source='...' (where), with who, when and why")
         with self._edit("scenarios"):
             if abs(total - 1) > SUM_TOL:
                 if not normalize:
@@ -1161,7 +1513,8 @@ class Case:
                 values = {k: v / total for k, v in values.items()}
                 self._record("normalize-priors", nm,
                              f"scenario priors summed to {fmt_g(total)}; rescaled to 1")
-            self._scenarios[nm] = Scenario(nm, values, sc_src, check_text("note", note))
+            self._scenarios[nm] = Scenario(nm, values, sc_src, check_text("note", note), mean,
+                                           tuple(self._hyps) if mean == "data" else ())
 
     def remove_scenario(self, name: str) -> None:
         sc = self.prior_scenario(name)
@@ -1371,7 +1724,7 @@ class Case:
     def __repr__(self) -> str:
         total = sum(h.prior for h in self._hyps.values())
         sums = "priors sum to 1" if abs(total - 1) <= SUM_TOL else f"priors sum to {fmt_g(total)}"
-        n_obs = sum(1 for e in self._evidence.values() if e.observed is not None)
+        n_obs = sum(1 for e in self._evidence.values() if e.is_observed)
         return (f"Case({self.title!r}: {len(self._hyps)} hypotheses, {sums}; "
                 f"{len(self._evidence)} evidence items, {n_obs} observed; "
                 f"scenario {self._active!r})")

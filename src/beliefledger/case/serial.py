@@ -24,13 +24,27 @@ import numpy as np
 from .._checks import check_name, check_probability, check_text
 from ..errors import CaseFileError
 from .artefacts import artefact_from_dict
-from .members import BASE_SCENARIO, Evidence, Hypothesis, JointGroup, Scenario, Source
+from .members import (
+    BASE_SCENARIO,
+    SCENARIO_MEANINGS,
+    UNCERTAIN_FORMS,
+    Evidence,
+    Hypothesis,
+    JointGroup,
+    Scenario,
+    Source,
+    UncertainObservation,
+)
 from .parsing import is_catch_all_name
+from .uncertain import parse_weights
 
-SCHEMA_VERSION = 2
+SCHEMA_VERSION = 3
 """Version of the serial form. 2: ``joint_groups`` (was ``groups``), an evidence
 item's ``likelihood_evidence`` (was ``observed_only``), extras section
-``loss_table`` (was ``decision``)."""
+``loss_table`` (was ``decision``). 3: an evidence item's ``uncertain``
+observation, a scenario's ``meaning`` and ``basis``, extras sections
+``hypothesis_groups`` and ``experts`` (all new and optional: a version 2
+file reads as it is)."""
 
 CASE_KEYS = {"title", "question", "analyst", "notes", "exhaustive", "safety_related",
              "hypotheses", "evidence", "scenarios", "active_scenario", "assumptions", "extras",
@@ -38,9 +52,10 @@ CASE_KEYS = {"title", "question", "analyst", "notes", "exhaustive", "safety_rela
 HYPOTHESIS_KEYS = {"name", "prior", "description", "source", "catch_all"}
 EVIDENCE_KEYS = {"name", "description", "states", "likelihoods", "observed",
                  "likelihood_evidence", "shared_source", "source", "entry_sources", "given",
-                 "conditional_likelihoods", "artefacts"}
+                 "conditional_likelihoods", "artefacts", "uncertain"}
 GROUP_KEYS = {"name", "members", "kind", "covariance", "joint", "source", "note"}
-SCENARIO_KEYS = {"name", "priors", "source", "note"}
+SCENARIO_KEYS = {"name", "priors", "source", "note", "meaning", "basis"}
+UNCERTAIN_KEYS = {"form", "weights", "source", "note", "reported", "reliability"}
 
 
 def case_to_dict(case: Any) -> dict[str, Any]:
@@ -254,11 +269,46 @@ def _evidence_from(e: Any, what: str, names: tuple[str, ...], name_set: set[str]
     given, parent_states, cond = _conditional_from_dict(e, what, st, names)
     arts = tuple(artefact_from_dict(a, f"artefact #{k + 1} of {what}")
                  for k, a in enumerate(_arr(e.get("artefacts", []), f"artefacts of {what}")))
-    return Evidence(name, st, names, table, observed=observed,
+    unc = None
+    if e.get("uncertain") is not None:
+        if observed is not None or lik_ev:
+            raise CaseFileError(f"{what} has an uncertain observation and also "
+                                + ("an observed state" if observed is not None
+                                   else "is likelihood evidence") + "; keep one")
+        unc = _uncertain_from(e["uncertain"], what, name, st)
+    return Evidence(name, st, names, table, observed=observed, uncertain=unc,
                     description=check_text(f"description of {what}", e.get("description", "")),
                     source=_source(e.get("source", {}), f"source of {what}"), shared_source=tag,
                     likelihood_evidence=lik_ev, entry_sources=entry_sources, given=given,
                     parent_states=parent_states, conditional=cond, artefacts=arts)
+
+
+def _uncertain_from(u: Any, what: str, name: str, st: tuple[str, ...]) -> UncertainObservation:
+    u = _obj(u, f"uncertain observation of {what}")
+    _keys(u, UNCERTAIN_KEYS, f"uncertain observation of {what}")
+    form = u.get("form")
+    if form not in UNCERTAIN_FORMS:
+        raise CaseFileError(f"uncertain observation of {what} has form {form!r:.40}; expected "
+                            f"one of {list(UNCERTAIN_FORMS)}")
+    weights = parse_weights(name, st,
+                            _obj(_req(u, "weights", f"uncertain observation of {what}"),
+                                 f"weights of the uncertain observation of {what}"), form)
+    reported = u.get("reported")
+    reliability = u.get("reliability")
+    if reported is not None:
+        if reported not in st:
+            raise CaseFileError(f"uncertain observation of {what} reports state "
+                                f"{reported!r:.40}, which is not one of {list(st)}")
+        reliability = check_probability(f"reliability of the report on {what}", reliability)
+    elif reliability is not None:
+        raise CaseFileError(f"uncertain observation of {what} gives a reliability but no "
+                            "reported state")
+    return UncertainObservation(form, weights,
+                                _source(u.get("source", {}), f"source of the observation of "
+                                                              f"{what}"),
+                                reported=reported, reliability=reliability,
+                                note=check_text(f"note of the observation of {what}",
+                                                u.get("note", "")))
 
 
 def _scenario_from(s: Any, what: str, names: tuple[str, ...], name_set: set[str]) -> Scenario:
@@ -270,8 +320,18 @@ def _scenario_from(s: Any, what: str, names: tuple[str, ...], name_set: set[str]
     vals = {h: check_probability(f"prior of '{h}' in scenario '{nm}'", pri[h]) for h in names}
     if abs(sum(vals.values()) - 1) > 1e-6:
         raise CaseFileError(f"priors of scenario '{nm}' sum to {sum(vals.values()):.6g}, not 1")
+    meaning = s.get("meaning", "")
+    if meaning not in SCENARIO_MEANINGS:
+        raise CaseFileError(f"scenario '{nm}' has meaning {meaning!r:.40}; expected one of "
+                            f"{[m for m in SCENARIO_MEANINGS if m]}")
+    basis: tuple[str, ...] = ()
+    if meaning == "data":
+        basis = tuple(check_name(f"basis hypothesis of scenario '{nm}'", h)
+                      for h in _arr(s.get("basis", list(names)), f"basis of scenario '{nm}'"))
+    elif "basis" in s:
+        raise CaseFileError(f"scenario '{nm}' has a basis but is not declared taken from data")
     return Scenario(nm, vals, _source(s.get("source", {}), f"source of {what}"),
-                    check_text("note", s.get("note", "")))
+                    check_text("note", s.get("note", "")), meaning, basis)
 
 
 def _conditional_from_dict(e: Mapping, what: str, st: tuple[str, ...],

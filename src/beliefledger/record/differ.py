@@ -14,7 +14,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-from ..display import esc, visible
+from ..display import esc, observed_text, visible
 from .nbio import RecordError, read_json_file
 
 POSTERIOR_TOL = 5e-5
@@ -252,6 +252,15 @@ def _match_renames(old, new, removed: list[str], added: list[str]) -> dict[str, 
     return pairs
 
 
+def _observed(ev: Any) -> str:
+    """What is known of an item's state, with the weights of an uncertain observation."""
+    text = observed_text(ev)
+    if ev.uncertain is not None:
+        text += " (" + ", ".join(f"{s} {v:.6g}" for s, v in zip(ev.states, ev.uncertain.weights,
+                                                                  strict=True)) + ")"
+    return text
+
+
 def diff_cases(old, new, *, label: str = "") -> list[Change]:
     """The changes from case ``old`` to case ``new``."""
     from ..engine import update
@@ -312,13 +321,12 @@ def diff_cases(old, new, *, label: str = "") -> list[Change]:
         if e not in old.evidence_names:
             ev = new.evidence[e]
             add("evidence", "added", f"evidence '{e}'", None,
-                f"observed {ev.observed!r}" if ev.observed is not None else "pending")
+                f"observed {ev.observed!r}" if ev.observed is not None else _observed(ev))
     for e in [x for x in old.evidence_names if x in new.evidence_names]:
         eo, en = old.evidence[e], new.evidence[e]
-        if eo.observed != en.observed:
-            add("evidence", "changed", f"observed state of '{e}'",
-                eo.observed if eo.observed is not None else "pending",
-                en.observed if en.observed is not None else "pending")
+        if eo.observed != en.observed or eo.uncertain != en.uncertain:
+            add("evidence", "changed", f"observed state of '{e}'", _observed(eo),
+                _observed(en))
         if eo.shared_source != en.shared_source:
             add("evidence", "changed", f"shared-source tag of '{e}'", eo.shared_source,
                 en.shared_source)

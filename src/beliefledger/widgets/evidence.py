@@ -9,7 +9,7 @@ import ipywidgets as W
 import numpy as np
 
 from ..case import SUM_TOL
-from ..display import esc
+from ..display import esc, observed_text
 from ._base import CaseView, set_if_changed
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -248,7 +248,8 @@ class EvidenceEditor(CaseView):
         if ev is None:
             return f"EvidenceEditor({self.case.title!r}: no evidence)"
         item = self.case.evidence[ev]
-        obs = f"observed {item.observed!r}" if item.observed is not None else "pending"
+        obs = (f"observed {item.observed!r}" if item.observed is not None
+               else observed_text(item))
         return f"EvidenceEditor({self.case.title!r}: {n} items; editing {ev!r}, {obs})"
 
     def _repr_html_(self) -> str:

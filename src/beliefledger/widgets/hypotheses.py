@@ -210,34 +210,52 @@ class HypothesisEditor(CaseView):
                            "assumption)", self.case.normalize_priors)
 
     def add(self, name: str, prior: float) -> bool:
-        """Add a hypothesis with ``prior`` (the others are rescaled by the case).
+        """Add a hypothesis with ``prior``, carved out of the catch-all when there is one.
 
-        When the case already has evidence, the new hypothesis gets a neutral
-        likelihood column (equal over the states) for every item, so that it
-        neither gains nor loses from existing evidence until the analyst
-        enters real numbers; the status line says so. Likelihood evidence items
-        have no neutral value, so a case with any of them refuses the add
-        from here (use ``case.add_hypothesis(..., likelihoods=...)``).
+        With a catch-all hypothesis whose prior covers ``prior``, the new prior
+        is taken from it (in every scenario; the other priors stay as they
+        are); otherwise every other prior is rescaled (an explicit choice the
+        case records). When the case already has evidence, the new hypothesis
+        gets a neutral likelihood column (equal over the states) for every
+        item, so that it neither gains nor loses from existing evidence until
+        the analyst enters real numbers; the status line says so. Likelihood
+        evidence items have no neutral value, so a case with any of them
+        refuses the add from here (use ``case.add_hypothesis(...,
+        likelihoods=...)``).
         """
         evidence = self.case.evidence
         vec = [e.name for e in evidence.values() if e.likelihood_evidence]
         if vec:
             self.status.show(f"cannot add '{name}' here: the likelihood evidence {vec[:5]} needs "
                              "a likelihood for it; use case.add_hypothesis(name, prior, "
-                             "likelihoods={...}) in code", "error")
+                             "likelihoods={...}, take_prior_from=...) in code", "error")
             return False
         cols = {e.name: [1.0 / len(e.states)] * len(e.states) for e in evidence.values()}
         note = (f"; its likelihood for each of the {len(cols)} evidence items is neutral (equal "
                 "over the states): enter real numbers in the evidence editor") if cols else ""
-        ok = self._apply(f"added '{str(name).strip()}' with prior {prior:g}; the other "
-                         f"priors rescaled (recorded){note}", self.case.add_hypothesis,
-                         name, prior, likelihoods=cols)
+        donor = self._donor(prior)
+        how = {"take_prior_from": donor} if donor else {"rescale": True}
+        said = (f"its prior taken from '{donor}' (the others unchanged; recorded)" if donor
+                else "the other priors rescaled (recorded)")
+        ok = self._apply(f"added '{str(name).strip()}' with prior {prior:g}; {said}{note}",
+                         self.case.add_hypothesis, name, prior, likelihoods=cols, **how)
         if ok:
             self._syncing = True
             self.new_name.value = ""
             self._syncing = False
             self.show_page(self.page_count - 1)
         return ok
+
+    def _donor(self, prior: float) -> str | None:
+        """The catch-all a new prior can be carved out of (in every scenario), if any."""
+        case = self.case
+        if isinstance(prior, bool) or not isinstance(prior, int | float):
+            return None  # the case refuses it with its own message
+        for h in case.hypotheses.values():
+            if h.catch_all and all(float(case.scenario_priors(s)[h.name]) >= prior
+                                   for s in case.scenario_names):
+                return h.name
+        return None
 
     # rendering ----------------------------------------------------------------
     def _banners(self, ledger: Ledger) -> dict[str, list[Flag]]:
